@@ -1,0 +1,604 @@
+/*
+ * weft.h - the stable C interface of weft, panel-data estimation.
+ *
+ * This header is the specification of the C interface: every function below says
+ * what it does, who owns what, how long a borrowed pointer lives and what NULL
+ * means. It is plain C99 and compiles alone. cabi/ABI.md says what stays stable
+ * across versions.
+ *
+ * Conventions used by every function (read these once):
+ *
+ * Status.  Functions return an int status: WEFT_OK (0) on success, a negative
+ *   WEFT_E* code on failure. Codes are append-only: a code never changes its number
+ *   or meaning. On failure the thread's last-error text (weft_last_error) says what
+ *   is wrong and how to fix it; it always begins with "weft: ", so a host can show it
+ *   as it is (e.g. in a spreadsheet cell). On failure, out-parameters are left as the
+ *   function documents (handles: set to NULL; numbers: NaN where stated; buffers:
+ *   untouched).
+ *
+ * Handles.  weft_panel (the caller's columns, copied) and weft_model (one fitted
+ *   model) are opaque. The caller owns what a *_new function returns through its
+ *   first argument and releases it with the matching *_free; *_free(NULL) does
+ *   nothing. A model does not borrow its panel: the panel may be freed (or changed)
+ *   right after weft_model_new returns.
+ *
+ * Borrowed strings.  A `const char *` handed out by a getter belongs to the handle
+ *   it came from and stays valid, unchanged, until that handle is freed. Strings are
+ *   UTF-8 and NUL-terminated. Never free them.
+ *
+ * Input arrays.  Every array passed in is only read, and only during the call: weft
+ *   copies what it keeps. A numeric column is `const double *values` with
+ *   `const unsigned char *missing`: missing[i] != 0 marks row i as missing (a blank
+ *   or text cell in a spreadsheet); missing == NULL means no row is missing. A value
+ *   that is NaN or infinite and not marked missing is an error (WEFT_EDATA) that
+ *   names the row: weft never treats a stray NaN as a blank silently.
+ *
+ * Buffers.  A getter that fills a caller buffer takes (buf, capacity, needed):
+ *   capacity is the number of elements buf can hold; *needed (when needed is not
+ *   NULL) always receives the number of elements of the whole result. A call with
+ *   buf == NULL and capacity == 0 is a size query and returns WEFT_OK. If capacity
+ *   is smaller than the result, nothing is written and WEFT_EBUFFER is returned.
+ *
+ * Rows.  Row i (0-based) of every column is input row i. Results aligned to rows
+ *   (residuals, fitted values, transforms) have one element per input row, in input
+ *   order; a row with no result holds NaN and, in the accompanying mask, 1.
+ *   Messages name rows as first_row + i (see weft_panel_new), so a host can make
+ *   them match its own row numbers.
+ *
+ * Threads.  Every function may be called from any thread. Different handles may be
+ *   used by different threads at the same time; one handle must not be used by two
+ *   threads at once. The last-error text is per thread.
+ *
+ * Exceptions.  No C++ exception ever leaves a weft function; misuse (a NULL handle,
+ *   a bad enum value, a too-small buffer) is a status with a message, never a crash.
+ */
+#ifndef WEFT_H
+#define WEFT_H
+
+#include <stddef.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* Symbol export. Only weft_* symbols are visible in the shared library. */
+#if defined(_WIN32) || defined(__CYGWIN__)
+#  if defined(WEFT_BUILDING_LIBRARY)
+#    define WEFT_API __declspec(dllexport)
+#  else
+#    define WEFT_API __declspec(dllimport)
+#  endif
+#elif defined(__GNUC__) && __GNUC__ >= 4
+#  define WEFT_API __attribute__((visibility("default")))
+#else
+#  define WEFT_API
+#endif
+
+/* ------------------------------------------------------------------------------
+ * Versions
+ * --------------------------------------------------------------------------- */
+
+/** Version of this header. WEFT_VERSION_NUMBER = major * 10000 + minor * 100 +
+ *  patch. Compare with weft_version_number() to detect a header/library mismatch. */
+#define WEFT_VERSION_MAJOR 0
+#define WEFT_VERSION_MINOR 1
+#define WEFT_VERSION_PATCH 0
+#define WEFT_VERSION_NUMBER 100
+#define WEFT_VERSION "0.1.0"
+
+/** The library's version number, same encoding as WEFT_VERSION_NUMBER. Never
+ *  fails. */
+WEFT_API int weft_version_number(void);
+
+/** The library's version as text, e.g. "0.1.0". A static string: never NULL,
+ *  never freed, valid for the life of the process. */
+WEFT_API const char *weft_version_text(void);
+
+/* ------------------------------------------------------------------------------
+ * Status codes and errors
+ * --------------------------------------------------------------------------- */
+
+/** Status codes. Append-only: new codes get new numbers below the last one. */
+enum weft_status {
+    WEFT_OK = 0,          /**< success */
+    WEFT_EINVAL = -1,     /**< invalid argument: NULL where a pointer is needed, an
+                               unknown enum value, a bad options size/version, a
+                               column set twice, a panel without a needed column */
+    WEFT_ENOMEM = -2,     /**< out of memory */
+    WEFT_EBUFFER = -3,    /**< the caller's buffer is too small (see *needed) */
+    WEFT_EDATA = -4,      /**< the data were rejected: non-finite value not marked
+                               missing, repeated unit-period pair, too few rows */
+    WEFT_EMODEL = -5,     /**< the model text or options were rejected: unknown or
+                               conflicting word, bad level, bad lag */
+    WEFT_ERANGE = -6,     /**< an index past the end, or a term name that the
+                               model does not have */
+    WEFT_ECOMPUTE = -7,   /**< the data are valid but the requested quantity cannot
+                               be computed from them (e.g. cluster standard errors
+                               with one cluster, a test that needs more periods) */
+    WEFT_EINTERNAL = -8   /**< an unexpected failure inside weft (a bug: please
+                               report the message) */
+};
+
+/** The message of the most recent failed weft call on this thread. Never NULL;
+ *  always begins with "weft: ". Before any failure it is "weft: no error". A
+ *  successful call does not change it (as with errno: read it right after the call
+ *  that failed). The pointer is valid until the next weft call on this thread;
+ *  copy the text to keep it. */
+WEFT_API const char *weft_last_error(void);
+
+/** Reset this thread's last-error text to "weft: no error". Never fails. */
+WEFT_API void weft_clear_error(void);
+
+/** A short fixed description of a status code, e.g. "buffer too small" for
+ *  WEFT_EBUFFER; "unknown status" for a number that is not a code. A static
+ *  string: never NULL, never freed. Never fails and never touches the last-error
+ *  text. */
+WEFT_API const char *weft_status_text(int status);
+
+/* ------------------------------------------------------------------------------
+ * Model options
+ * --------------------------------------------------------------------------- */
+
+/** Estimators (append-only numbering). See CONVENTIONS.md for the definitions. */
+enum weft_estimator {
+    WEFT_POOLED = 0,      /**< pooled OLS */
+    WEFT_FD = 1,          /**< first differences between adjacent periods */
+    WEFT_WITHIN = 2,      /**< unit fixed effects (demeaned) */
+    WEFT_RANDOM = 3,      /**< random effects, Swamy-Arora */
+    WEFT_BETWEEN = 4      /**< OLS on unit means */
+};
+
+/** Standard errors (append-only numbering). */
+enum weft_se {
+    WEFT_SE_CLASSICAL = 0,
+    WEFT_SE_HC0 = 1,
+    WEFT_SE_HC1 = 2,
+    WEFT_SE_HC2 = 3,
+    WEFT_SE_HC3 = 4,
+    WEFT_SE_CLUSTER = 5,         /**< cluster by unit, CR1 */
+    WEFT_SE_CLUSTER0 = 6,        /**< cluster by unit, CR0 */
+    WEFT_SE_CLUSTER_PERIOD = 7,  /**< cluster by period, CR1 */
+    WEFT_SE_CLUSTER_BOTH = 8,    /**< two-way clustering by unit and period */
+    WEFT_SE_DK = 9               /**< Driscoll-Kraay, Bartlett lag dk_lag */
+};
+
+#define WEFT_OPTIONS_VERSION 1
+
+/** Everything that the model text can say, as a struct. Always start from
+ *  WEFT_OPTIONS_INIT (or weft_options_init) so that `size` and `version` say which
+ *  layout the caller was compiled with; fields added in later versions go at the
+ *  end and take their defaults for older callers. */
+typedef struct weft_options {
+    size_t size;            /**< sizeof(weft_options) as the caller compiled it */
+    unsigned int version;   /**< WEFT_OPTIONS_VERSION as the caller compiled it */
+    int estimator;          /**< enum weft_estimator; default WEFT_POOLED */
+    int se;                 /**< enum weft_se; default WEFT_SE_CLASSICAL */
+    int dk_lag;             /**< Bartlett lag for WEFT_SE_DK; -1 (default) means
+                                 floor(T^(1/4)) with T the number of periods */
+    int period_effects;     /**< nonzero: add period indicators; default 0 */
+    int intercept;          /**< nonzero (default): include the intercept */
+    double level;           /**< confidence level of intervals, in (0, 1);
+                                 default 0.95 */
+} weft_options;
+
+/** Default options: pooled, classical, dk_lag -1, no period indicators, intercept,
+ *  level 0.95. Use as `weft_options o = WEFT_OPTIONS_INIT;`. */
+#define WEFT_OPTIONS_INIT \
+    { sizeof(weft_options), WEFT_OPTIONS_VERSION, WEFT_POOLED, WEFT_SE_CLASSICAL, -1, 0, 1, 0.95 }
+
+/** Fill *options with the defaults (same as WEFT_OPTIONS_INIT), for hosts that
+ *  cannot use the macro. Returns WEFT_EINVAL if options is NULL. */
+WEFT_API int weft_options_init(weft_options *options);
+
+/** Parse a model text (FUNCTIONS.md: words such as "fd periods cluster",
+ *  "within dk=2 level=0.9 no-intercept", separated by spaces or commas, any order)
+ *  into *options. Words not given keep their defaults (the text overrides nothing
+ *  already in *options: *options is first reset to the defaults). NULL or an empty
+ *  text gives the defaults.
+ *  Errors: WEFT_EINVAL if options is NULL; WEFT_EMODEL for an unknown or conflicting
+ *  word, with a message naming the word and listing the accepted words. On failure
+ *  *options holds the defaults. */
+WEFT_API int weft_options_parse(weft_options *options, const char *model_text);
+
+/* ------------------------------------------------------------------------------
+ * Panel: the caller's columns
+ * --------------------------------------------------------------------------- */
+
+/** An opaque panel: n_rows rows of unit ids, periods, and optionally an outcome and
+ *  regressors, all copied from the caller. */
+typedef struct weft_panel weft_panel;
+
+/** Create an empty panel of n_rows rows, then set its columns with the
+ *  weft_panel_set_* / weft_panel_add_regressor functions. first_row is the number
+ *  that messages use for row 0 (e.g. 2 when a spreadsheet range starts at row 2
+ *  under a header; 1 if unsure): a message then says "row 12" for the sheet's row 12.
+ *  Which columns are needed depends on the use: transforms and weft_panel_structure
+ *  need units and periods (weft_panel_demean needs only units); a model needs units,
+ *  periods, an outcome and at least one regressor unless the intercept is kept.
+ *  The panel is checked (repeated unit-period pairs, non-finite values) when it is
+ *  used, so that weft_panel_structure can report problems instead of refusing.
+ *  On success *out receives a new panel the caller must free with weft_panel_free.
+ *  Errors: WEFT_EINVAL if out is NULL (then nothing is written) or n_rows is 0
+ *  (*out = NULL); WEFT_ENOMEM. */
+WEFT_API int weft_panel_new(weft_panel **out, size_t n_rows, size_t first_row);
+
+/** Release a panel. NULL does nothing. Models made from it stay valid. */
+WEFT_API void weft_panel_free(weft_panel *panel);
+
+/** Number of rows the panel was created with, into *n_rows.
+ *  Errors: WEFT_EINVAL if panel or n_rows is NULL. */
+WEFT_API int weft_panel_row_count(const weft_panel *panel, size_t *n_rows);
+
+/** Set the unit ids from text: ids[i] is the UTF-8 id of row i. A row is missing
+ *  when missing[i] != 0, or ids[i] is NULL, or ids[i] is "" (a blank cell). Ids are
+ *  compared as exact bytes ("7" and "7.0" are different units). ids (an array of
+ *  n_rows pointers) is copied.
+ *  Errors: WEFT_EINVAL if panel or ids is NULL, or units were already set. */
+WEFT_API int weft_panel_set_units_text(weft_panel *panel, const char *const *ids,
+                                       const unsigned char *missing);
+
+/** Set the unit ids from numbers: ids[i] is the id of row i (n_rows values, copied);
+ *  missing as described at the top. Ids are compared as numbers.
+ *  Errors: WEFT_EINVAL if panel or ids is NULL, or units were already set. */
+WEFT_API int weft_panel_set_units_number(weft_panel *panel, const double *ids,
+                                         const unsigned char *missing);
+
+/** Set the periods: periods[i] is the period of row i (a year, a quarter index, a
+ *  date serial number), n_rows values, copied. Periods are placed on the panel's own
+ *  grid of distinct values (CONVENTIONS.md).
+ *  Errors: WEFT_EINVAL if panel or periods is NULL, or periods were already set. */
+WEFT_API int weft_panel_set_periods(weft_panel *panel, const double *periods,
+                                    const unsigned char *missing);
+
+/** Set the outcome column (n_rows values, copied). name may be NULL (then "y");
+ *  it is used in messages only.
+ *  Errors: WEFT_EINVAL if panel or values is NULL, or the outcome was already set. */
+WEFT_API int weft_panel_set_outcome(weft_panel *panel, const char *name,
+                                    const double *values, const unsigned char *missing);
+
+/** Append one regressor column (n_rows values, copied). name is its term name in
+ *  every result; NULL or "" gives "x<k>" with k its 1-based position among the
+ *  regressors. Names must be distinct and must not be "intercept".
+ *  Errors: WEFT_EINVAL if panel or values is NULL; WEFT_EDATA for a repeated or
+ *  reserved name (message names it). */
+WEFT_API int weft_panel_add_regressor(weft_panel *panel, const char *name,
+                                      const double *values, const unsigned char *missing);
+
+/* ------------------------------------------------------------------------------
+ * Panel structure report (WEFT.PANEL)
+ * --------------------------------------------------------------------------- */
+
+/** The structure of a panel's unit and period columns. Counts rows that have both a
+ *  unit and a period. This layout never changes (ABI.md). */
+typedef struct weft_structure {
+    size_t units;             /**< distinct units */
+    size_t periods;           /**< distinct periods (the grid) */
+    size_t rows;              /**< rows with a unit and a period */
+    size_t rows_missing;      /**< rows without a unit or a period */
+    int balanced;             /**< 1 if every unit has every period once */
+    size_t min_periods;       /**< fewest periods of a unit */
+    double median_periods;    /**< median periods per unit */
+    size_t max_periods;       /**< most periods of a unit */
+    size_t gaps;              /**< grid periods skipped inside units' spans */
+    size_t duplicates;        /**< rows that repeat an earlier (unit, period) pair */
+    size_t single_row_units;  /**< units with one row */
+} weft_structure;
+
+/** Describe the panel's structure into *out. Repeated pairs are counted, not an
+ *  error. Errors: WEFT_EINVAL if panel or out is NULL or units or periods are not
+ *  set; WEFT_EDATA for a non-finite period not marked missing; WEFT_EDATA when no
+ *  row has both a unit and a period. */
+WEFT_API int weft_panel_structure(const weft_panel *panel, weft_structure *out);
+
+/** The period grid (sorted distinct period values) into buf[0..periods-1].
+ *  Buffer convention as at the top. Errors: WEFT_EINVAL (NULL panel, periods not
+ *  set), WEFT_EBUFFER, WEFT_EDATA as for weft_panel_structure. */
+WEFT_API int weft_panel_period_grid(const weft_panel *panel, double *buf,
+                                    size_t capacity, size_t *needed);
+
+/* ------------------------------------------------------------------------------
+ * Transforms (WEFT.DIFF, WEFT.LAG, WEFT.DEMEAN, WEFT.DUMMIES)
+ *
+ * Each takes one numeric column `values`/`missing` of n_rows elements (not a panel
+ * column: any column the caller has) and writes n_rows results aligned to the input
+ * rows into out (capacity elements) and out_missing (n_rows flags, 1 = no result;
+ * may be NULL; out then holds NaN there). capacity must be at least n_rows
+ * (WEFT_EBUFFER otherwise). The panel supplies the units (and periods), and is
+ * checked for repeated unit-period pairs (WEFT_EDATA names unit, period and rows).
+ * --------------------------------------------------------------------------- */
+
+/** k-th difference within unit between adjacent grid periods: out[i] = v(t) -
+ *  v(t - k steps) when that row exists in the same unit, else no result. k >= 1.
+ *  Errors: WEFT_EINVAL (NULL panel/values/out, units or periods not set, k < 1),
+ *  WEFT_EBUFFER, WEFT_EDATA. */
+WEFT_API int weft_panel_diff(const weft_panel *panel, const double *values,
+                             const unsigned char *missing, int k, double *out,
+                             unsigned char *out_missing, size_t capacity);
+
+/** Value k grid periods earlier in the same unit (negative k: later; k = 0: the
+ *  value itself); no result where that period is absent. Errors as weft_panel_diff
+ *  (any k is valid). */
+WEFT_API int weft_panel_lag(const weft_panel *panel, const double *values,
+                            const unsigned char *missing, int k, double *out,
+                            unsigned char *out_missing, size_t capacity);
+
+/** Deviation from the unit's mean over the rows where the value is present. Needs
+ *  only units (periods may be unset). Errors as weft_panel_diff, without k. */
+WEFT_API int weft_panel_demean(const weft_panel *panel, const double *values,
+                               const unsigned char *missing, double *out,
+                               unsigned char *out_missing, size_t capacity);
+
+/** Period indicator block, row-major: n_rows rows by C columns, one column per grid
+ *  period (C = grid size, or grid size - 1 with omit_first != 0, dropping the first
+ *  period); element [i * C + j] is 1 if row i is in that period, else 0; a row
+ *  without a period holds NaN in every column. The column labels are the grid values
+ *  (weft_panel_period_grid, skipping the first when omit_first). *needed = n_rows * C.
+ *  Buffer convention as at the top. Errors: WEFT_EINVAL (NULL panel, periods not
+ *  set), WEFT_EBUFFER, WEFT_EDATA. */
+WEFT_API int weft_panel_dummies(const weft_panel *panel, int omit_first, double *buf,
+                                size_t capacity, size_t *needed);
+
+/* ------------------------------------------------------------------------------
+ * Model: one fitted model
+ * --------------------------------------------------------------------------- */
+
+/** An opaque fitted model: estimates, covariance, summary, residuals. */
+typedef struct weft_model weft_model;
+
+/** Fit the model described by *options (NULL: defaults) to the panel. All of the
+ *  panel that the model needs is copied; the panel may be freed afterwards.
+ *  Rows with a missing outcome, regressor, unit or period are dropped listwise and
+ *  counted. On success *out receives a new model the caller must free with
+ *  weft_model_free; on failure *out is NULL.
+ *  Errors: WEFT_EINVAL (out or panel NULL, options size/version unknown or a field
+ *  out of range, outcome/units/periods not set); WEFT_EDATA (repeated unit-period
+ *  pair, non-finite value, too few usable rows); WEFT_EMODEL (options that conflict,
+ *  e.g. dk_lag < -1, level outside (0, 1)); WEFT_ECOMPUTE (valid data from which
+ *  this model cannot be estimated, e.g. two-way clustering with one period);
+ *  WEFT_ENOMEM. */
+WEFT_API int weft_model_new(weft_model **out, const weft_panel *panel,
+                            const weft_options *options);
+
+/** weft_options_parse(model_text) followed by weft_model_new: the usual path for a
+ *  host that receives the model as text. Errors: those of both. */
+WEFT_API int weft_model_new_text(weft_model **out, const weft_panel *panel,
+                                 const char *model_text);
+
+/** Release a model. NULL does nothing. Every string borrowed from it dies. */
+WEFT_API void weft_model_free(weft_model *model);
+
+/** The options the model was fitted with (copied into *out, whose size field the
+ *  caller sets first, e.g. from WEFT_OPTIONS_INIT; only that many bytes are written).
+ *  Errors: WEFT_EINVAL if model or out is NULL or out->size is too small. */
+WEFT_API int weft_model_options(const weft_model *model, weft_options *out);
+
+/* --- coefficient table (WEFT.ESTIMATES) ------------------------------------- */
+
+/** Columns of the coefficient table, in order. Fixed forever. */
+enum weft_coefficient_column {
+    WEFT_COEF_ESTIMATE = 0,
+    WEFT_COEF_SE = 1,
+    WEFT_COEF_T = 2,
+    WEFT_COEF_P = 3,
+    WEFT_COEF_CI_LOW = 4,
+    WEFT_COEF_CI_HIGH = 5,
+    WEFT_COEF_COLUMNS = 6
+};
+
+/** Number of estimated terms (intercept and period indicators included, dropped
+ *  terms not) into *n_terms. Errors: WEFT_EINVAL if an argument is NULL. */
+WEFT_API int weft_model_term_count(const weft_model *model, size_t *n_terms);
+
+/** Name of estimated term `index` (0-based, in table order: intercept first if
+ *  present, then regressors, then "period <value>" indicators), borrowed from the
+ *  model. Errors: WEFT_EINVAL (NULL), WEFT_ERANGE (index >= term count; *name = NULL). */
+WEFT_API int weft_model_term_name(const weft_model *model, size_t index,
+                                  const char **name);
+
+/** The coefficient table, row-major: n_terms rows by WEFT_COEF_COLUMNS columns
+ *  (estimate, std error, t, p-value, ci low, ci high at the model's level), row r
+ *  for term r. *needed = n_terms * WEFT_COEF_COLUMNS. Buffer convention as at the
+ *  top. Errors: WEFT_EINVAL (NULL model), WEFT_EBUFFER. */
+WEFT_API int weft_model_coefficients(const weft_model *model, double *buf,
+                                     size_t capacity, size_t *needed);
+
+/** Number of terms dropped (collinear, or no variation within units for within/fd)
+ *  into *n_dropped. Errors: WEFT_EINVAL. */
+WEFT_API int weft_model_dropped_count(const weft_model *model, size_t *n_dropped);
+
+/** Dropped term `index`: its name and the reason (a sentence), both borrowed from
+ *  the model; either out-pointer may be NULL if not wanted.
+ *  Errors: WEFT_EINVAL (NULL model), WEFT_ERANGE (index too large). */
+WEFT_API int weft_model_dropped(const weft_model *model, size_t index,
+                                const char **term, const char **reason);
+
+/* --- warnings ---------------------------------------------------------------- */
+
+/** Number of warnings attached to the fit (e.g. hc standard errors with within and
+ *  few periods, a two-way covariance clipped to positive semi-definite). */
+WEFT_API int weft_model_warning_count(const weft_model *model, size_t *n_warnings);
+
+/** Warning `index` as a sentence, borrowed from the model.
+ *  Errors: WEFT_EINVAL, WEFT_ERANGE. */
+WEFT_API int weft_model_warning(const weft_model *model, size_t index,
+                                const char **text);
+
+/* --- summary (WEFT.SUMMARY) -------------------------------------------------- */
+
+/** Kind of a summary item's value. */
+enum weft_item_kind {
+    WEFT_ITEM_NUMBER = 0,
+    WEFT_ITEM_TEXT = 1
+};
+
+/** One label/value row of the summary. Layout fixed forever. */
+typedef struct weft_summary_item {
+    const char *label;  /**< e.g. "observations used"; borrowed from the model */
+    int kind;           /**< enum weft_item_kind */
+    double number;      /**< the value when kind is WEFT_ITEM_NUMBER, else NaN */
+    const char *text;   /**< the value when kind is WEFT_ITEM_TEXT, else ""; never
+                             NULL; borrowed from the model */
+} weft_summary_item;
+
+/** Number of summary items (the rows of WEFT.SUMMARY, in order: estimator,
+ *  standard errors, observations used, rows dropped, units, periods, terms,
+ *  residual df, clusters, R-squared items, residual std deviation, F on all slopes
+ *  with its df and p-value, one item per dropped term, one per warning). Items that
+ *  do not apply (e.g. clusters without cluster standard errors) are left out, so
+ *  the count depends on the model. Errors: WEFT_EINVAL. */
+WEFT_API int weft_model_summary_count(const weft_model *model, size_t *n_items);
+
+/** Summary item `index` into *out. Errors: WEFT_EINVAL, WEFT_ERANGE. */
+WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
+                                     weft_summary_item *out);
+
+/* --- single numbers (WEFT.VALUE) --------------------------------------------- */
+
+/** One number by name, as WEFT.VALUE: `what` is one of "estimate", "se", "t", "p",
+ *  "ci-low", "ci-high" (these need `term`, a term name), or "n", "units", "periods",
+ *  "r2", "r2-within", "r2-between", "r2-overall", "sigma", "df", "f", "f-df1",
+ *  "f-df2", "f-p", "clusters", "rows-dropped" (term ignored, may be NULL).
+ *  *value receives the number (NaN on failure or when it does not apply to this
+ *  estimator, e.g. "r2-within" for pooled, which is still WEFT_OK).
+ *  Errors: WEFT_EINVAL (NULL model/what/value, or a term-wise word without term);
+ *  WEFT_EMODEL for an unknown `what` (message lists the words); WEFT_ERANGE for a
+ *  term the model does not have (message says whether it was dropped). */
+WEFT_API int weft_model_value(const weft_model *model, const char *what,
+                              const char *term, double *value);
+
+/* --- residuals and fitted values (WEFT.RESIDUALS, WEFT.FITTED) -------------- */
+
+/** Residuals of the estimated equation aligned to the panel's input rows: buf[i] is
+ *  the residual of input row i, or NaN with unused[i] = 1 when row i is not in the
+ *  estimated equation (dropped, or for fd the first period of a unit / after a gap;
+ *  fd's residual of a difference is placed on the later row; between has one
+ *  residual per unit, placed on every used row of that unit). unused may be NULL.
+ *  *needed = n_rows. Buffer convention as at the top.
+ *  Errors: WEFT_EINVAL (NULL model), WEFT_EBUFFER. */
+WEFT_API int weft_model_residuals(const weft_model *model, double *buf,
+                                  unsigned char *unused, size_t capacity,
+                                  size_t *needed);
+
+/** Fitted values of the estimated (transformed) equation, aligned like
+ *  weft_model_residuals, so that outcome of the estimated equation = fitted +
+ *  residual. Errors as weft_model_residuals. */
+WEFT_API int weft_model_fitted(const weft_model *model, double *buf,
+                               unsigned char *unused, size_t capacity,
+                               size_t *needed);
+
+/* ------------------------------------------------------------------------------
+ * Specification tests. Result layouts never change (ABI.md); a later version adds
+ * new structs and functions instead. A number that cannot be computed is NaN.
+ * --------------------------------------------------------------------------- */
+
+/** Wald test that named terms are all zero (WEFT.JOINT). */
+typedef struct weft_wald_result {
+    double f;         /**< W / q */
+    double f_df1;     /**< q */
+    double f_df2;     /**< the model's inference df */
+    double f_p;       /**< upper tail of F(q, df2) */
+    double chi2;      /**< W */
+    double chi2_df;   /**< q */
+    double chi2_p;    /**< upper tail of chi-square(q) */
+} weft_wald_result;
+
+/** Wald test that the n_terms terms named in terms[] are all zero, under the
+ *  model's covariance. Errors: WEFT_EINVAL (NULL model/terms/out, n_terms 0, or a
+ *  term named twice); WEFT_ERANGE (a name the model does not estimate: message
+ *  names it and says whether it was dropped); WEFT_ECOMPUTE (singular R V R'). */
+WEFT_API int weft_test_joint(const weft_model *model, const char *const *terms,
+                             size_t n_terms, weft_wald_result *out);
+
+/** As weft_test_joint with the names given as one text separated by commas
+ *  (spaces around names are ignored), e.g. "value, capital". */
+WEFT_API int weft_test_joint_list(const weft_model *model, const char *term_list,
+                                  weft_wald_result *out);
+
+/** Heteroskedasticity test forms (append-only). */
+enum weft_hetero_form {
+    WEFT_HETERO_KOENKER = 0,        /**< studentized Breusch-Pagan, N R^2 */
+    WEFT_HETERO_BP = 1,             /**< original Breusch-Pagan */
+    WEFT_HETERO_WHITE_SPECIAL = 2,  /**< on fitted and fitted squared */
+    WEFT_HETERO_WHITE_FULL = 3      /**< regressors, squares, cross products */
+};
+
+/** Parse a form word ("koenker", "bp", "white-special", "white-full"; NULL or ""
+ *  gives koenker) into *form. Errors: WEFT_EINVAL (form NULL), WEFT_EMODEL (unknown
+ *  word; message lists the words). */
+WEFT_API int weft_hetero_form_parse(const char *word, int *form);
+
+/** Result of a heteroskedasticity test (WEFT.HETERO). */
+typedef struct weft_hetero_result {
+    double lm;        /**< LM statistic */
+    double lm_df;     /**< its chi-square df */
+    double lm_p;
+    double f;         /**< F form (R^2/q)/((1-R^2)/(N-q-1)) */
+    double f_df1;
+    double f_df2;
+    double f_p;       /**< NaN for bp, which has no F form */
+} weft_hetero_result;
+
+/** Heteroskedasticity test of the model's residuals, form an enum weft_hetero_form.
+ *  Errors: WEFT_EINVAL (NULL, unknown form); WEFT_ECOMPUTE (too few rows for the
+ *  auxiliary regression, e.g. white-full with many regressors). */
+WEFT_API int weft_test_hetero(const weft_model *model, int form,
+                              weft_hetero_result *out);
+
+/** Result of the serial-correlation check (WEFT.SERIAL). */
+typedef struct weft_serial_result {
+    double slope;       /**< OLS slope of u_it on [1, u_i,t-1] over adjacent periods */
+    double se;          /**< its classical std error */
+    double t;
+    double p;           /**< two-sided, t(pairs - 2) */
+    double df;          /**< pairs - 2 */
+    double pairs;       /**< number of (t-1, t) residual pairs used */
+    double level_null;  /**< slope under no serial correlation in the level errors:
+                             -0.5 for fd, -1/(T-1) for within; NaN otherwise */
+    double level_se;    /**< cluster-by-unit (CR1) std error of the slope */
+    double level_f;     /**< ((slope - level_null) / level_se)^2 */
+    double level_df1;   /**< 1 */
+    double level_df2;   /**< clusters - 1 */
+    double level_p;     /**< upper tail of F(1, level_df2) */
+} weft_serial_result;
+
+/** AR(1) check of the residuals within units (gap-aware) and, for fd and within,
+ *  the level-error test. Errors: WEFT_EINVAL; WEFT_ECOMPUTE (fewer than 3 pairs). */
+WEFT_API int weft_test_serial(const weft_model *model, weft_serial_result *out);
+
+/** Result of the fixed- versus random-effects comparison (WEFT.HAUSMAN). */
+typedef struct weft_hausman_result {
+    double statistic;          /**< raw H (may be negative) */
+    double df;                 /**< number of slopes compared */
+    double p;                  /**< upper tail of chi-square(df) at H (1 if H <= 0) */
+    double rank;               /**< rank of V_within - V_random */
+    int positive_definite;     /**< 1 if V_within - V_random is positive definite */
+    weft_wald_result robust;   /**< auxiliary regression (unit means of X added to
+                                    the random-effects equation), cluster by unit */
+} weft_hausman_result;
+
+/** Fit within and random effects to the panel with *options (NULL: defaults; its
+ *  estimator and se fields are ignored: both estimators are fitted, the classical
+ *  form uses classical covariances, the robust form clusters by unit) and compare.
+ *  Errors: as weft_model_new; WEFT_ECOMPUTE (no slope common to both fits). */
+WEFT_API int weft_test_hausman(const weft_panel *panel, const weft_options *options,
+                               weft_hausman_result *out);
+
+/** Result of the unit-effects F test (WEFT.EFFECTS). */
+typedef struct weft_effects_result {
+    double f;
+    double df1;   /**< n - 1 when no regressor is time-invariant */
+    double df2;   /**< N - n - K */
+    double p;
+} weft_effects_result;
+
+/** F test that all unit effects are zero: within versus pooled on the same rows,
+ *  with *options (NULL: defaults; estimator and se ignored; period_effects and
+ *  intercept used). Errors: as weft_model_new. */
+WEFT_API int weft_test_effects(const weft_panel *panel, const weft_options *options,
+                               weft_effects_result *out);
+
+#ifdef __cplusplus
+}
+#endif
+
+#endif /* WEFT_H */
