@@ -1,0 +1,197 @@
+// weft/model.hpp -- estimated equations, covariances, fits.
+//
+// Contract (CONVENTIONS.md is the statistical specification):
+// - fit_model(data, spec) indexes the panel, drops rows listwise (a missing outcome,
+//   regressor, unit or period), builds the estimated equation of spec.estimator
+//   (pooled, fd, within, between, random), solves it by a tall-skinny Householder QR of
+//   the centred and scaled design followed by a column-pivoted QR of the small R (rank
+//   tolerance kRankTolerance below), refines the solution with residuals in long double,
+//   and computes the covariance of spec.covariance, t, p and intervals at spec.level.
+// - Term order: intercept (if any), regressors in input order, then period indicators
+//   "period <value>" in grid order. Terms that are a linear combination of earlier terms
+//   are dropped (DropReason::collinear); under within/fd a regressor with no variation
+//   within units is dropped with DropReason::no_within_variation. Dropped terms never
+//   appear in Equation::terms and are never given a number.
+// - Invalid input raises weft::Error (see error.hpp): length mismatch, NaN/Inf not marked
+//   missing (names column and row), repeated (unit, period), no usable rows, fewer
+//   equation rows than terms, within with a single unit, fewer than 2 clusters for a
+//   cluster covariance, period clusters / dk for between.
+// - Everything aligned to input rows (Fit::residuals, Fit::fitted) is a Series: defined
+//   only where the row entered the estimated equation (fd: the later row of each
+//   difference; between: every used row of the unit carries the unit's value).
+// - Optional statistics (std::optional) are empty when they do not apply or cannot be
+//   computed; a NaN is never stored as a result.
+// - For the tests (Wald, heteroskedasticity, serial, Hausman, effects): Fit::equation is
+//   the estimated equation itself (design X in original scale, y, coef, residuals,
+//   (X'X)^-1, the R factor of the working design, and the input row / unit / grid
+//   period of every equation row). compute_covariance() gives any other covariance of
+//   the same equation without refitting; solve_equation() runs an auxiliary OLS through
+//   the same solver (with units/periods so that cluster covariances work on it too).
+//
+// Stability: fields may be added; existing names and meanings do not change. Changes
+// are announced here:
+//   (none yet)
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include <Eigen/Core>
+
+#include "weft/options.hpp"
+#include "weft/panel.hpp"
+#include "weft/transforms.hpp"
+
+namespace weft {
+
+// Rank tolerance: after centring and scaling every working column to unit length, a
+// column whose distance from the span of the columns before it (|R_kk| of the pivoted
+// QR of R) is at most kRankTolerance is treated as collinear and dropped. 1e-10 keeps
+// NIST Filip (smallest such distance about 1e-8 after centring) while exact
+// collinearity in double (distances of order 1e-15) is caught.
+inline constexpr double kRankTolerance = 1e-10;
+
+enum class DropReason { collinear, no_within_variation };
+
+struct DroppedTerm {
+    std::string name;
+    DropReason reason;
+    std::string message;   // e.g. "capital has no variation within units; dropped by within"
+};
+
+// One estimated equation: y = X b + u over N equation rows and K terms.
+struct Equation {
+    Estimator estimator = Estimator::pooled;
+    std::vector<std::string> terms;     // K names, the columns of X
+    int intercept_column = -1;          // column of X acting as intercept (random: 1 - theta_i), -1 none
+    Eigen::MatrixXd X;                  // N x K, original scale, transformed by the estimator
+    Eigen::VectorXd y;                  // N
+    Eigen::VectorXd coef;               // K
+    Eigen::VectorXd residual;           // N, y - X coef (residual in long double, rounded)
+    Eigen::VectorXd fitted;             // N, X coef
+    double ssr = 0;                     // sum of squared residuals (accumulated in long double)
+    std::vector<DroppedTerm> dropped;   // terms removed before/while solving
+
+    // The factorisation (reused by covariances and tests). Working design Z:
+    //   Z_j = (X_j - shift[j] * X_c) / scale[j]   (c = intercept_column; shift[c] = 0)
+    // i.e. columns centred against the intercept column and scaled to unit length.
+    // Z = Q R with R upper-triangular K x K (Q is not stored). Then
+    // (X'X)^-1 = M^-1 (R'R)^-1 M^-T with X = Z M.
+    Eigen::VectorXd shift;              // K
+    Eigen::VectorXd scale;              // K
+    Eigen::MatrixXd r_factor;           // K x K
+    Eigen::MatrixXd xtx_inverse;        // K x K, (X'X)^-1 in the original scale
+
+    // Where each equation row comes from.
+    std::vector<std::size_t> input_row; // 0-based input row (fd: later row; between: first used row of the unit)
+    std::vector<std::int32_t> unit;     // unit number (PanelIndex numbering)
+    std::vector<std::int32_t> period;   // grid position (fd: the later period; between: -1)
+    std::size_t n_units = 0;            // distinct units among the equation rows
+    std::size_t n_periods = 0;          // distinct periods among the equation rows
+    std::size_t absorbed = 0;           // effects absorbed by the transform, counted in df (within: n_units)
+
+    std::size_t nobs() const { return static_cast<std::size_t>(X.rows()); }
+    std::size_t n_terms() const { return static_cast<std::size_t>(X.cols()); }
+    // N - K - absorbed
+    double df_residual() const {
+        return static_cast<double>(nobs()) - static_cast<double>(n_terms()) - static_cast<double>(absorbed);
+    }
+};
+
+// Input of solve_equation(): an explicit design. unit/period may be empty (then
+// cluster/period covariances raise weft::Error); if given they have N entries.
+struct EquationInput {
+    Estimator estimator = Estimator::pooled;   // only used for labels
+    Eigen::MatrixXd X;
+    Eigen::VectorXd y;
+    std::vector<std::string> terms;            // K names (empty: "x1", "x2", ...)
+    int intercept_column = -1;
+    std::vector<std::size_t> input_row;
+    std::vector<std::int32_t> unit;
+    std::vector<std::int32_t> period;
+    std::size_t absorbed = 0;
+};
+
+// OLS through weft's solver (centring, scaling, TSQR, pivoted rank decision,
+// refinement). Collinear columns are dropped and listed in Equation::dropped.
+// Throws weft::Error if there are fewer rows than kept terms or no rows.
+Equation solve_equation(EquationInput input);
+
+// h_ii = x_i' (X'X)^-1 x_i for every equation row (computed as ||R^-T z_i||^2).
+Eigen::VectorXd leverages(const Equation& equation);
+
+struct CovarianceResult {
+    Covariance kind = Covariance::classical;
+    Eigen::MatrixXd matrix;             // K x K, in term order
+    double factor = 1;                  // finite-sample factor applied (hc1, CR1, ...)
+    std::string factor_rule;            // e.g. "G/(G-1) * (N-1)/(N-K)"
+    double df = 0;                      // df for t, F and intervals
+    std::string df_rule;                // "N-K", "N-n-K", "G-1", "T-1", ...
+    std::size_t clusters = 0;           // G (unit), G_period, G_min (both), T (dk)
+    int dk_lag = -1;                    // lag used (dk only)
+    bool clipped = false;               // cluster_both: negative eigenvalues set to 0
+    double min_eigenvalue = 0;          // cluster_both: smallest eigenvalue before clipping
+    std::vector<std::string> warnings;
+    std::string label;                  // readable, e.g. "cluster by unit (CR1)"
+};
+
+// Any covariance of an estimated equation (CONVENTIONS.md "Standard errors").
+// dk_lag -1 = default floor(T^(1/4)). Throws weft::Error for fewer than 2 clusters or
+// when the equation has no units/periods for the requested clustering.
+CovarianceResult compute_covariance(const Equation& equation, Covariance kind, int dk_lag = -1);
+
+struct RandomEffectsInfo {
+    double sigma2_idiosyncratic = 0;    // SSR_within / (N - n - K_w)
+    double sigma2_unit = 0;             // Swamy-Arora, negative set to 0 (with a warning)
+    std::vector<double> theta_by_unit;  // per unit number (0 for units not in the equation)
+    bool balanced = true;
+};
+
+struct Fit {
+    ModelSpec spec;
+    Equation equation;
+    std::vector<DroppedTerm> dropped;   // = equation.dropped, with the estimator's own reasons
+    CovarianceResult covariance;
+
+    // per term, in Equation::terms order
+    Eigen::VectorXd coef, se, t, p, ci_low, ci_high;
+
+    // summary facts
+    std::size_t rows_input = 0;         // input rows
+    std::size_t rows_used = 0;          // input rows used (levels rows)
+    std::size_t rows_dropped = 0;       // rows dropped for a missing value (listwise)
+    std::size_t nobs = 0;               // equation rows N (fd: differences; between: units)
+    std::size_t n_units = 0;
+    std::size_t n_periods = 0;
+    std::size_t n_terms = 0;            // K
+    double df_residual = 0;             // N - K (within: N - n - K)
+    double ssr = 0;
+    double sigma = 0;                   // sqrt(ssr / df_residual)
+    std::optional<double> tss;          // of the estimated equation's y (centred, or uncentred without intercept; within: sum (y - ybar_i)^2)
+    std::optional<double> r2;           // 1 - ssr/tss (within: = r2_within)
+    std::optional<double> adj_r2;
+    std::optional<double> r2_within;    // within, random (random: corr^2 of demeaned y and demeaned X b)
+    std::optional<double> r2_between;   // within, random: corr^2(ybar_i, xbar_i' b) over units
+    std::optional<double> r2_overall;   // within, random: corr^2(y_it, x_it' b) over rows
+    std::optional<double> f, f_df1, f_df2, f_p;  // classical F on all slopes (all terms but the intercept)
+    std::string f_rule;
+    std::optional<RandomEffectsInfo> random_effects;
+    std::vector<double> unit_effects;   // within: ybar_i - xbar_i' b per unit number (empty otherwise)
+    std::vector<std::string> warnings;
+
+    Series residuals;                   // aligned to input rows
+    Series fitted;                      // fitted values of the estimated equation, aligned
+
+    PanelIndex index;
+
+    // Position of a term in Equation::terms, or empty.
+    std::optional<std::size_t> term_position(std::string_view name) const;
+};
+
+Fit fit_model(const PanelData& data, const ModelSpec& spec);
+
+}  // namespace weft

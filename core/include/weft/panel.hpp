@@ -1,0 +1,114 @@
+// weft/panel.hpp -- input columns, the panel index and the structure report.
+//
+// Contract:
+// - Input columns are copied by the host into these plain structs. A numeric Column is
+//   doubles plus an optional missing mask (empty = nothing missing; otherwise the same
+//   length, nonzero = the cell is missing/blank/non-numeric). A missing cell drops its
+//   row (listwise) and is counted. A NaN or infinity in a cell NOT marked missing is a
+//   weft::Error naming the column and the row.
+// - Unit ids are text OR numbers (UnitColumn: fill exactly one of `text`, `numbers`;
+//   a host with a mixed column converts the numbers to text). An empty text counts as
+//   missing. Periods are numbers (dates are numbers in the sheet).
+// - Row numbers in messages are first_row_number + (0-based position), so a host
+//   that passes first_row_number = 2 (data below a header in row 1) gets "row 12"
+//   meaning sheet row 12.
+// - PanelIndex (CONVENTIONS.md "Panel index"): the period grid is the sorted list of
+//   distinct period values among rows with a valid unit and period; two periods are
+//   adjacent when they are neighbours on that grid. Units are numbered in sorted order
+//   (numbers ascending, text by byte order). build_index() raises weft::Error on a
+//   repeated (unit, period) pair, naming the unit, the period and both rows.
+//   Missing values in outcome/regressors do NOT change the grid (only units/periods do).
+// - describe_structure() never throws on duplicates (it counts them); it still throws
+//   on a length mismatch or a NaN/Inf period not marked missing.
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <string>
+#include <vector>
+
+namespace weft {
+
+struct Column {
+    std::string name;                   // header text; used for term names and messages
+    std::vector<double> values;
+    std::vector<std::uint8_t> missing;  // empty = nothing missing
+
+    std::size_t size() const { return values.size(); }
+    bool is_missing(std::size_t row) const { return !missing.empty() && missing[row] != 0; }
+};
+
+struct UnitColumn {
+    std::string name;
+    std::vector<std::string> text;      // unit ids as text, or
+    std::vector<double> numbers;        // unit ids as numbers (exactly one is filled)
+    std::vector<std::uint8_t> missing;  // empty = nothing missing
+
+    bool is_text() const { return !text.empty(); }
+    std::size_t size() const { return is_text() ? text.size() : numbers.size(); }
+    bool is_missing(std::size_t row) const {
+        if (!missing.empty() && missing[row] != 0) return true;
+        return is_text() && text[row].empty();
+    }
+};
+
+// Everything a model function needs. All columns must have the same length.
+struct PanelData {
+    Column outcome;
+    std::vector<Column> regressors;     // term names: Column::name, or "x1", "x2", ... if empty
+    UnitColumn units;
+    Column periods;
+    std::size_t first_row_number = 1;   // number used in messages for input position 0
+};
+
+// Rows grouped by unit and placed on the period grid.
+struct PanelIndex {
+    std::size_t n_rows = 0;                  // input rows (all of them)
+    std::size_t first_row_number = 1;
+    std::vector<double> grid;                // sorted distinct period values (the time grid)
+    std::vector<std::string> unit_labels;    // one per unit, in unit-number order
+    std::vector<std::int32_t> unit_of_row;   // per input row: unit number, -1 = unit or period missing
+    std::vector<std::int32_t> period_of_row; // per input row: grid position, -1 = as above
+    // CSR layout: the rows of unit u, sorted by period, are
+    // rows_by_unit[unit_start[u] .. unit_start[u+1]).
+    std::vector<std::size_t> unit_start;     // size n_units() + 1
+    std::vector<std::size_t> rows_by_unit;
+
+    std::size_t n_units() const { return unit_labels.size(); }
+    std::size_t n_periods() const { return grid.size(); }
+    std::size_t row_number(std::size_t row) const { return first_row_number + row; }
+};
+
+// Build the index; throws weft::Error on length mismatch, NaN/Inf unit number or period
+// not marked missing, or a repeated (unit, period).
+PanelIndex build_index(const UnitColumn& units, const Column& periods,
+                       std::size_t first_row_number = 1);
+
+// Group rows by unit only (no periods): for demeaning and unit means. Rows whose unit is
+// missing get unit -1. grid is empty, rows within a unit keep input order.
+PanelIndex build_unit_groups(const UnitColumn& units, std::size_t first_row_number = 1);
+
+// WEFT.PANEL: structure facts over units and periods.
+struct StructureReport {
+    std::size_t rows_input = 0;        // all rows
+    std::size_t rows = 0;              // rows with a valid unit and period
+    std::size_t rows_missing = 0;      // rows whose unit or period is missing
+    std::size_t units = 0;
+    std::size_t periods = 0;           // size of the time grid
+    bool balanced = false;             // every unit has every grid period once, no duplicates
+    double min_periods = 0;            // distinct periods per unit
+    double median_periods = 0;
+    double max_periods = 0;
+    std::size_t gaps = 0;              // grid periods missing between a unit's first and last period, summed over units
+    std::size_t units_with_gaps = 0;
+    std::size_t duplicate_pairs = 0;   // rows repeating an earlier (unit, period) pair
+    std::size_t single_row_units = 0;  // units with exactly one row
+};
+
+StructureReport describe_structure(const UnitColumn& units, const Column& periods,
+                                   std::size_t first_row_number = 1);
+
+// Text of a number as used in labels ("period 1936", unit "7"): shortest round-trip form.
+std::string format_number(double value);
+
+}  // namespace weft
