@@ -258,9 +258,9 @@ WEFT_API int weft_panel_set_outcome(weft_panel *panel, const char *name,
 
 /** Append one regressor column (n_rows values, copied). name is its term name in
  *  every result; NULL or "" gives "x<k>" with k its 1-based position among the
- *  regressors. Names must be distinct and must not be "intercept".
- *  Errors: WEFT_EINVAL if panel or values is NULL; WEFT_EDATA for a repeated or
- *  reserved name (message names it). */
+ *  regressors. Names must be distinct and must not be "intercept" (checked when a
+ *  model is fitted: WEFT_EDATA naming the term).
+ *  Errors: WEFT_EINVAL if panel or values is NULL. */
 WEFT_API int weft_panel_add_regressor(weft_panel *panel, const char *name,
                                       const double *values, const unsigned char *missing);
 
@@ -282,6 +282,8 @@ typedef struct weft_structure {
     size_t gaps;              /**< grid periods skipped inside units' spans */
     size_t duplicates;        /**< rows that repeat an earlier (unit, period) pair */
     size_t single_row_units;  /**< units with one row */
+    size_t units_with_gaps;   /**< units that skip at least one grid period */
+    size_t rows_input;        /**< all rows (n_rows) */
 } weft_structure;
 
 /** Describe the panel's structure into *out. Repeated pairs are counted, not an
@@ -290,9 +292,10 @@ typedef struct weft_structure {
  *  row has both a unit and a period. */
 WEFT_API int weft_panel_structure(const weft_panel *panel, weft_structure *out);
 
-/** The period grid (sorted distinct period values) into buf[0..periods-1].
- *  Buffer convention as at the top. Errors: WEFT_EINVAL (NULL panel, periods not
- *  set), WEFT_EBUFFER, WEFT_EDATA as for weft_panel_structure. */
+/** The period grid (sorted distinct period values of the rows that have both a
+ *  unit and a period) into buf[0..periods-1]. Buffer convention as at the top.
+ *  Errors: WEFT_EINVAL (NULL panel, units or periods not set), WEFT_EBUFFER,
+ *  WEFT_EDATA as for weft_panel_structure. */
 WEFT_API int weft_panel_period_grid(const weft_panel *panel, double *buf,
                                     size_t capacity, size_t *needed);
 
@@ -307,17 +310,18 @@ WEFT_API int weft_panel_period_grid(const weft_panel *panel, double *buf,
  * checked for repeated unit-period pairs (WEFT_EDATA names unit, period and rows).
  * --------------------------------------------------------------------------- */
 
-/** k-th difference within unit between adjacent grid periods: out[i] = v(t) -
- *  v(t - k steps) when that row exists in the same unit, else no result. k >= 1.
- *  Errors: WEFT_EINVAL (NULL panel/values/out, units or periods not set, k < 1),
- *  WEFT_EBUFFER, WEFT_EDATA. */
+/** Difference k grid steps apart within the unit: out[i] = v(t) - v(t - k steps)
+ *  when that row exists in the same unit and its value is present, else no result
+ *  (so k = 1 is the first difference and never crosses a gap; k < 0 differences
+ *  against a later period). Errors: WEFT_EINVAL (NULL panel/values/out, units or
+ *  periods not set, k = 0), WEFT_EBUFFER, WEFT_EDATA. */
 WEFT_API int weft_panel_diff(const weft_panel *panel, const double *values,
                              const unsigned char *missing, int k, double *out,
                              unsigned char *out_missing, size_t capacity);
 
-/** Value k grid periods earlier in the same unit (negative k: later; k = 0: the
- *  value itself); no result where that period is absent. Errors as weft_panel_diff
- *  (any k is valid). */
+/** Value k grid periods earlier in the same unit (negative k: later); no result
+ *  where that period is absent or its value missing. Errors as weft_panel_diff
+ *  (k = 0 is WEFT_EINVAL). */
 WEFT_API int weft_panel_lag(const weft_panel *panel, const double *values,
                             const unsigned char *missing, int k, double *out,
                             unsigned char *out_missing, size_t capacity);
@@ -328,15 +332,19 @@ WEFT_API int weft_panel_demean(const weft_panel *panel, const double *values,
                                const unsigned char *missing, double *out,
                                unsigned char *out_missing, size_t capacity);
 
-/** Period indicator block, row-major: n_rows rows by C columns, one column per grid
- *  period (C = grid size, or grid size - 1 with omit_first != 0, dropping the first
- *  period); element [i * C + j] is 1 if row i is in that period, else 0; a row
- *  without a period holds NaN in every column. The column labels are the grid values
- *  (weft_panel_period_grid, skipping the first when omit_first). *needed = n_rows * C.
- *  Buffer convention as at the top. Errors: WEFT_EINVAL (NULL panel, periods not
- *  set), WEFT_EBUFFER, WEFT_EDATA. */
+/** Period indicator block, row-major: n_rows rows by C columns, one column per
+ *  distinct period among the rows that have a period (units are not needed), sorted;
+ *  with omit_first != 0 the first period's column is left out. Element [i * C + j]
+ *  is 1 if row i is in period j, else 0; a row without a period holds NaN in every
+ *  column. *needed = n_rows * C. Buffer convention as at the top.
+ *  Errors: WEFT_EINVAL (NULL panel, periods not set), WEFT_EBUFFER, WEFT_EDATA. */
 WEFT_API int weft_panel_dummies(const weft_panel *panel, int omit_first, double *buf,
                                 size_t capacity, size_t *needed);
+
+/** The period of each column of weft_panel_dummies (same omit_first), C values, for
+ *  the header row. Buffer convention as at the top. Errors as weft_panel_dummies. */
+WEFT_API int weft_panel_dummy_periods(const weft_panel *panel, int omit_first,
+                                      double *buf, size_t capacity, size_t *needed);
 
 /* ------------------------------------------------------------------------------
  * Model: one fitted model

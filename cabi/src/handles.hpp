@@ -1,0 +1,49 @@
+// handles.hpp -- what the opaque C handles hold.
+#pragma once
+
+#include "weft.h"
+
+#include <weft/model.hpp>
+#include <weft/panel.hpp>
+
+#include <memory>
+#include <string>
+#include <vector>
+
+// The caller's columns. The data are shared with the models fitted from them (a model
+// must outlive its panel), and copied before a change if a model still holds them.
+struct weft_panel {
+    std::size_t n_rows = 0;
+    std::shared_ptr<weft::PanelData> data;
+    bool has_units = false;
+    bool has_periods = false;
+    bool has_outcome = false;
+
+    weft::PanelData& writable() {
+        if (data.use_count() > 1) data = std::make_shared<weft::PanelData>(*data);
+        return *data;
+    }
+};
+
+struct SummaryEntry {
+    std::string label;
+    int kind = WEFT_ITEM_NUMBER;
+    double number = 0;
+    std::string text;
+};
+
+struct weft_model {
+    weft::Fit fit;
+    std::shared_ptr<const weft::PanelData> data;  // what the model was fitted to
+    weft_options options{};
+    std::vector<double> table;                     // K x WEFT_COEF_COLUMNS, row-major
+    std::vector<SummaryEntry> summary;
+};
+
+namespace weft_cabi {
+// The panel's data after checking that the columns a use needs are set.
+void require_units(const weft_panel* panel, const char* function);
+void require_periods(const weft_panel* panel, const char* function);
+void require_model_columns(const weft_panel* panel, const char* function);
+void require_model(const weft_model* model, const char* function);
+}  // namespace weft_cabi

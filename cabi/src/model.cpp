@@ -1,0 +1,382 @@
+// model.cpp -- the model handle: fitting, the coefficient table, summary items,
+// single values, residuals and fitted values.
+#include "boundary.hpp"
+#include "convert.hpp"
+#include "handles.hpp"
+
+#include <weft/model.hpp>
+#include <weft/options.hpp>
+
+#include <algorithm>
+#include <cmath>
+#include <cstring>
+#include <optional>
+#include <string>
+
+namespace weft_cabi {
+
+void require_model(const weft_model* model, const char* function) {
+    require(model, function, "model");
+}
+
+namespace {
+
+const char* estimator_text(weft::Estimator e) {
+    switch (e) {
+        case weft::Estimator::pooled: return "pooled OLS";
+        case weft::Estimator::fd: return "first differences";
+        case weft::Estimator::within: return "within (unit fixed effects)";
+        case weft::Estimator::random: return "random effects (Swamy-Arora)";
+        case weft::Estimator::between: return "between (unit means)";
+    }
+    return "unknown";
+}
+
+bool is_cluster(weft::Covariance c) {
+    return c == weft::Covariance::cluster || c == weft::Covariance::cluster0 ||
+           c == weft::Covariance::cluster_period || c == weft::Covariance::cluster_both;
+}
+
+// The rows of WEFT.SUMMARY (FUNCTIONS.md), built once at fit time so that every
+// borrowed label and text lives as long as the model.
+std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
+    std::vector<SummaryEntry> items;
+    auto number = [&](const char* label, double value) {
+        items.push_back(SummaryEntry{label, WEFT_ITEM_NUMBER, value, ""});
+    };
+    auto optional_number = [&](const char* label, const std::optional<double>& value) {
+        if (value) number(label, *value);
+    };
+    auto text = [&](const char* label, std::string value) {
+        items.push_back(SummaryEntry{label, WEFT_ITEM_TEXT, nan_value, std::move(value)});
+    };
+    const weft::CovarianceResult& cov = fit.covariance;
+    text("estimator", estimator_text(fit.spec.estimator));
+    text("model", weft::describe(fit.spec));
+    std::string se = cov.label;
+    if (!cov.factor_rule.empty())
+        se += ", factor " + cov.factor_rule + " = " + weft::format_number(cov.factor);
+    if (cov.kind == weft::Covariance::dk && cov.dk_lag >= 0) se += ", lag " + std::to_string(cov.dk_lag);
+    text("standard errors", se);
+    number("observations used", static_cast<double>(fit.nobs));
+    number("rows used", static_cast<double>(fit.rows_used));
+    number("rows dropped", static_cast<double>(fit.rows_dropped));
+    number("units", static_cast<double>(fit.n_units));
+    number("periods", static_cast<double>(fit.n_periods));
+    number("terms", static_cast<double>(fit.n_terms));
+    number("residual df", fit.df_residual);
+    text("df of t, F and intervals", weft::format_number(cov.df) + " (" + cov.df_rule + ")");
+    if (is_cluster(cov.kind) || cov.kind == weft::Covariance::dk)
+        number(cov.kind == weft::Covariance::dk ? "periods in the covariance" : "clusters",
+               static_cast<double>(cov.clusters));
+    number("confidence level", fit.spec.level);
+    optional_number("R-squared", fit.r2);
+    optional_number("adjusted R-squared", fit.adj_r2);
+    optional_number("R-squared within", fit.r2_within);
+    optional_number("R-squared between", fit.r2_between);
+    optional_number("R-squared overall", fit.r2_overall);
+    number("residual std deviation", fit.sigma);
+    if (fit.f) {
+        number("F on all slopes", *fit.f);
+        optional_number("F df1", fit.f_df1);
+        optional_number("F df2", fit.f_df2);
+        optional_number("F p-value", fit.f_p);
+    }
+    if (fit.random_effects) {
+        number("idiosyncratic variance", fit.random_effects->sigma2_idiosyncratic);
+        number("unit effect variance", fit.random_effects->sigma2_unit);
+    }
+    for (const weft::DroppedTerm& d : fit.dropped) text("term dropped", d.message);
+    for (const std::string& w : fit.warnings) text("warning", w);
+    for (const std::string& w : cov.warnings)
+        if (std::find(fit.warnings.begin(), fit.warnings.end(), w) == fit.warnings.end())
+            text("warning", w);
+    return items;
+}
+
+std::vector<double> build_table(const weft::Fit& fit) {
+    const std::size_t k = static_cast<std::size_t>(fit.coef.size());
+    std::vector<double> table(k * WEFT_COEF_COLUMNS);
+    for (std::size_t r = 0; r < k; ++r) {
+        const Eigen::Index i = static_cast<Eigen::Index>(r);
+        double* row = &table[r * WEFT_COEF_COLUMNS];
+        row[WEFT_COEF_ESTIMATE] = fit.coef[i];
+        row[WEFT_COEF_SE] = fit.se[i];
+        row[WEFT_COEF_T] = fit.t[i];
+        row[WEFT_COEF_P] = fit.p[i];
+        row[WEFT_COEF_CI_LOW] = fit.ci_low[i];
+        row[WEFT_COEF_CI_HIGH] = fit.ci_high[i];
+    }
+    return table;
+}
+
+int write_aligned(const weft::Series& series, double* buf, unsigned char* unused, size_t capacity,
+                  size_t* needed, const char* fn) {
+    if (!buffer_ready(fn, buf, capacity, needed, series.size())) return WEFT_OK;
+    write_series(series, buf, unused);
+    return WEFT_OK;
+}
+
+// A term named in a request that the model does not estimate: say whether it was
+// dropped, else list the terms there are.
+[[noreturn]] void unknown_term(const weft_model* model, const std::string& term, const char* fn) {
+    for (const weft::DroppedTerm& d : model->fit.dropped)
+        if (d.name == term)
+            fail(WEFT_ERANGE, std::string(fn) + ": term \"" + term + "\" was dropped from the model (" +
+                                  d.message + "), so it has no estimate");
+    std::string known;
+    for (const std::string& t : model->fit.equation.terms) known += (known.empty() ? "" : ", ") + t;
+    fail(WEFT_ERANGE, std::string(fn) + ": the model has no term \"" + term + "\"; its terms are: " + known);
+}
+
+std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
+    if (what == "n") return static_cast<double>(fit.nobs);
+    if (what == "units") return static_cast<double>(fit.n_units);
+    if (what == "periods") return static_cast<double>(fit.n_periods);
+    if (what == "r2") return fit.r2;
+    if (what == "adj-r2") return fit.adj_r2;
+    if (what == "r2-within") return fit.r2_within;
+    if (what == "r2-between") return fit.r2_between;
+    if (what == "r2-overall") return fit.r2_overall;
+    if (what == "sigma") return fit.sigma;
+    if (what == "df") return fit.covariance.df;
+    if (what == "df-residual") return fit.df_residual;
+    if (what == "f") return fit.f;
+    if (what == "f-df1") return fit.f_df1;
+    if (what == "f-df2") return fit.f_df2;
+    if (what == "f-p") return fit.f_p;
+    if (what == "ssr") return fit.ssr;
+    if (what == "clusters")
+        return is_cluster(fit.covariance.kind) ? std::optional<double>(static_cast<double>(fit.covariance.clusters))
+                                               : std::nullopt;
+    if (what == "rows-dropped") return static_cast<double>(fit.rows_dropped);
+    throw std::out_of_range(what);
+}
+
+constexpr const char* value_words =
+    "estimate, se, t, p, ci-low, ci-high (with a term), n, units, periods, r2, adj-r2, r2-within, "
+    "r2-between, r2-overall, sigma, df, df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped";
+
+}  // namespace
+
+// Fit and package a model; shared by weft_model_new and the tests that fit their own.
+weft_model* new_model(const weft_panel* panel, const weft::ModelSpec& spec, const char* fn) {
+    require_model_columns(panel, fn);
+    auto model = std::make_unique<weft_model>();
+    model->data = panel->data;
+    model->fit = weft::fit_model(*panel->data, spec);
+    model->options = from_spec(model->fit.spec);
+    model->table = build_table(model->fit);
+    model->summary = build_summary(model->fit);
+    return model.release();
+}
+
+}  // namespace weft_cabi
+
+using namespace weft_cabi;
+
+extern "C" {
+
+int weft_model_new(weft_model** out, const weft_panel* panel, const weft_options* options) {
+    return guarded(WEFT_EDATA, [&] {
+        const char* fn = "weft_model_new";
+        require(out, fn, "out");
+        *out = nullptr;
+        require(panel, fn, "panel");
+        const weft::ModelSpec spec = read_options(options, fn);
+        *out = new_model(panel, spec, fn);
+        return WEFT_OK;
+    });
+}
+
+int weft_model_new_text(weft_model** out, const weft_panel* panel, const char* model_text) {
+    return guarded(WEFT_EMODEL, [&] {
+        const char* fn = "weft_model_new_text";
+        require(out, fn, "out");
+        *out = nullptr;
+        require(panel, fn, "panel");
+        const weft::ModelSpec spec = weft::parse_model_text(model_text == nullptr ? "" : model_text);
+        return guarded(WEFT_EDATA, [&] {
+            *out = new_model(panel, spec, fn);
+            return WEFT_OK;
+        });
+    });
+}
+
+void weft_model_free(weft_model* model) { delete model; }
+
+int weft_model_options(const weft_model* model, weft_options* out) {
+    return guarded(WEFT_EINVAL, [&] {
+        const char* fn = "weft_model_options";
+        require_model(model, fn);
+        require(out, fn, "out");
+        if (out->size < offsetof(weft_options, level) + sizeof(double))
+            fail(WEFT_EINVAL, std::string(fn) + ": out->size is " + std::to_string(out->size) +
+                                  "; set it first, e.g. weft_options o = WEFT_OPTIONS_INIT");
+        std::memcpy(out, &model->options, std::min(out->size, sizeof(weft_options)));
+        return WEFT_OK;
+    });
+}
+
+int weft_model_term_count(const weft_model* model, size_t* n_terms) {
+    return guarded(WEFT_EINVAL, [&] {
+        require_model(model, "weft_model_term_count");
+        require(n_terms, "weft_model_term_count", "n_terms");
+        *n_terms = model->fit.equation.terms.size();
+        return WEFT_OK;
+    });
+}
+
+int weft_model_term_name(const weft_model* model, size_t index, const char** name) {
+    return guarded(WEFT_EINVAL, [&] {
+        const char* fn = "weft_model_term_name";
+        require_model(model, fn);
+        require(name, fn, "name");
+        *name = nullptr;
+        const auto& terms = model->fit.equation.terms;
+        if (index >= terms.size())
+            fail(WEFT_ERANGE, std::string(fn) + ": index " + std::to_string(index) + " is past the last term (the model has " +
+                                  std::to_string(terms.size()) + " terms, indexes 0 to " +
+                                  std::to_string(terms.size()) + " - 1)");
+        *name = terms[index].c_str();
+        return WEFT_OK;
+    });
+}
+
+int weft_model_coefficients(const weft_model* model, double* buf, size_t capacity, size_t* needed) {
+    return guarded(WEFT_EINVAL, [&] {
+        const char* fn = "weft_model_coefficients";
+        require_model(model, fn);
+        if (!buffer_ready(fn, buf, capacity, needed, model->table.size())) return WEFT_OK;
+        std::copy(model->table.begin(), model->table.end(), buf);
+        return WEFT_OK;
+    });
+}
+
+int weft_model_dropped_count(const weft_model* model, size_t* n_dropped) {
+    return guarded(WEFT_EINVAL, [&] {
+        require_model(model, "weft_model_dropped_count");
+        require(n_dropped, "weft_model_dropped_count", "n_dropped");
+        *n_dropped = model->fit.dropped.size();
+        return WEFT_OK;
+    });
+}
+
+int weft_model_dropped(const weft_model* model, size_t index, const char** term, const char** reason) {
+    return guarded(WEFT_EINVAL, [&] {
+        const char* fn = "weft_model_dropped";
+        require_model(model, fn);
+        if (term != nullptr) *term = nullptr;
+        if (reason != nullptr) *reason = nullptr;
+        const auto& dropped = model->fit.dropped;
+        if (index >= dropped.size())
+            fail(WEFT_ERANGE, std::string(fn) + ": index " + std::to_string(index) + " is past the last dropped term (" +
+                                  std::to_string(dropped.size()) + " terms were dropped)");
+        if (term != nullptr) *term = dropped[index].name.c_str();
+        if (reason != nullptr) *reason = dropped[index].message.c_str();
+        return WEFT_OK;
+    });
+}
+
+int weft_model_warning_count(const weft_model* model, size_t* n_warnings) {
+    return guarded(WEFT_EINVAL, [&] {
+        require_model(model, "weft_model_warning_count");
+        require(n_warnings, "weft_model_warning_count", "n_warnings");
+        std::size_t n = 0;
+        for (const SummaryEntry& e : model->summary) n += e.label == "warning" ? 1 : 0;
+        *n_warnings = n;
+        return WEFT_OK;
+    });
+}
+
+int weft_model_warning(const weft_model* model, size_t index, const char** text) {
+    return guarded(WEFT_EINVAL, [&]() -> int {
+        const char* fn = "weft_model_warning";
+        require_model(model, fn);
+        require(text, fn, "text");
+        *text = nullptr;
+        std::size_t seen = 0;
+        for (const SummaryEntry& e : model->summary) {
+            if (e.label != "warning") continue;
+            if (seen++ == index) {
+                *text = e.text.c_str();
+                return WEFT_OK;
+            }
+        }
+        fail(WEFT_ERANGE, std::string(fn) + ": index " + std::to_string(index) + " is past the last warning (the model has " +
+                              std::to_string(seen) + " warnings)");
+    });
+}
+
+int weft_model_summary_count(const weft_model* model, size_t* n_items) {
+    return guarded(WEFT_EINVAL, [&] {
+        require_model(model, "weft_model_summary_count");
+        require(n_items, "weft_model_summary_count", "n_items");
+        *n_items = model->summary.size();
+        return WEFT_OK;
+    });
+}
+
+int weft_model_summary_item(const weft_model* model, size_t index, weft_summary_item* out) {
+    return guarded(WEFT_EINVAL, [&] {
+        const char* fn = "weft_model_summary_item";
+        require_model(model, fn);
+        require(out, fn, "out");
+        if (index >= model->summary.size())
+            fail(WEFT_ERANGE, std::string(fn) + ": index " + std::to_string(index) + " is past the last summary item (the model has " +
+                                  std::to_string(model->summary.size()) + " items)");
+        const SummaryEntry& e = model->summary[index];
+        out->label = e.label.c_str();
+        out->kind = e.kind;
+        out->number = e.kind == WEFT_ITEM_NUMBER ? e.number : nan_value;
+        out->text = e.text.c_str();
+        return WEFT_OK;
+    });
+}
+
+int weft_model_value(const weft_model* model, const char* what, const char* term, double* value) {
+    return guarded(WEFT_EINVAL, [&] {
+        const char* fn = "weft_model_value";
+        if (value != nullptr) *value = nan_value;
+        require_model(model, fn);
+        require(what, fn, "what");
+        require(value, fn, "value");
+        const std::string word = what;
+        static const char* const term_words[] = {"estimate", "se", "t", "p", "ci-low", "ci-high"};
+        for (int column = 0; column < WEFT_COEF_COLUMNS; ++column) {
+            if (word != term_words[column]) continue;
+            if (term == nullptr || *term == '\0')
+                fail(WEFT_EINVAL, std::string(fn) + ": \"" + word + "\" needs a term name, e.g. \"" +
+                                      (model->fit.equation.terms.empty() ? "x1" : model->fit.equation.terms.back()) + "\"");
+            const std::optional<std::size_t> pos = model->fit.term_position(term);
+            if (!pos) unknown_term(model, term, fn);
+            *value = model->table[*pos * WEFT_COEF_COLUMNS + static_cast<std::size_t>(column)];
+            return WEFT_OK;
+        }
+        try {
+            const std::optional<double> v = value_of(model->fit, word);
+            if (v) *value = *v;
+        } catch (const std::out_of_range&) {
+            fail(WEFT_EMODEL, std::string(fn) + ": \"" + word + "\" is not a value weft knows; use one of: " + value_words);
+        }
+        return WEFT_OK;
+    });
+}
+
+int weft_model_residuals(const weft_model* model, double* buf, unsigned char* unused, size_t capacity,
+                         size_t* needed) {
+    return guarded(WEFT_EINVAL, [&] {
+        require_model(model, "weft_model_residuals");
+        return write_aligned(model->fit.residuals, buf, unused, capacity, needed, "weft_model_residuals");
+    });
+}
+
+int weft_model_fitted(const weft_model* model, double* buf, unsigned char* unused, size_t capacity,
+                      size_t* needed) {
+    return guarded(WEFT_EINVAL, [&] {
+        require_model(model, "weft_model_fitted");
+        return write_aligned(model->fit.fitted, buf, unused, capacity, needed, "weft_model_fitted");
+    });
+}
+
+}  // extern "C"
