@@ -1,0 +1,90 @@
+// Clock, medians and peak-memory probes for the benchmark programs.
+#pragma once
+
+#include <algorithm>
+#include <chrono>
+#include <cstddef>
+#include <cstdio>
+#include <cstring>
+#include <fstream>
+#include <functional>
+#include <string>
+#include <vector>
+
+#include <sys/types.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+namespace weft_bench {
+
+using Clock = std::chrono::steady_clock;
+
+inline double seconds_since(Clock::time_point start) {
+  return std::chrono::duration<double>(Clock::now() - start).count();
+}
+
+inline double median(std::vector<double> values) {
+  if (values.empty()) return 0.0;
+  std::sort(values.begin(), values.end());
+  const std::size_t mid = values.size() / 2;
+  return values.size() % 2 ? values[mid] : 0.5 * (values[mid - 1] + values[mid]);
+}
+
+// One line of /proc/self/status, e.g. "VmHWM", in bytes; -1 when unavailable.
+inline double status_bytes(const char* key) {
+  std::ifstream status("/proc/self/status");
+  std::string line;
+  const std::size_t key_length = std::strlen(key);
+  while (std::getline(status, line)) {
+    if (line.compare(0, key_length, key) == 0 && line.size() > key_length && line[key_length] == ':')
+      return 1024.0 * std::stod(line.substr(key_length + 1));  // reported in kB
+  }
+  return -1.0;
+}
+
+struct MemoryProbe {
+  double resident_before = -1.0;  // bytes resident when the work started (input included)
+  double peak = -1.0;             // high-water resident bytes during the work
+  bool ok() const { return resident_before > 0 && peak > 0; }
+};
+
+// Runs `work` in a forked child whose resident high-water mark is first reset to its
+// current size (Linux: "5" into /proc/self/clear_refs), so the peak belongs to this
+// work alone and not to earlier runs, dataset generation or freed heap of the parent.
+inline MemoryProbe probe_peak_memory(const std::function<void()>& work) {
+  MemoryProbe probe;
+  int fds[2];
+  if (pipe(fds) != 0) return probe;
+  std::fflush(nullptr);
+  const pid_t child = fork();
+  if (child < 0) {
+    close(fds[0]);
+    close(fds[1]);
+    return probe;
+  }
+  if (child == 0) {
+    close(fds[0]);
+    MemoryProbe mine;
+    {
+      std::ofstream clear("/proc/self/clear_refs");
+      clear << "5";
+    }
+    mine.resident_before = status_bytes("VmRSS");
+    const double hwm_after_reset = status_bytes("VmHWM");
+    bool reset_worked = hwm_after_reset > 0 && hwm_after_reset <= mine.resident_before * 1.01 + 4096.0;
+    work();
+    mine.peak = reset_worked ? status_bytes("VmHWM") : -1.0;
+    const ssize_t written = write(fds[1], &mine, sizeof mine);
+    _exit(written == static_cast<ssize_t>(sizeof mine) ? 0 : 1);
+  }
+  close(fds[1]);
+  const ssize_t got = read(fds[0], &probe, sizeof probe);
+  close(fds[0]);
+  int status = 0;
+  waitpid(child, &status, 0);
+  if (got != static_cast<ssize_t>(sizeof probe) || !WIFEXITED(status) || WEXITSTATUS(status) != 0)
+    return MemoryProbe{};
+  return probe;
+}
+
+}  // namespace weft_bench
