@@ -32,6 +32,8 @@ oracle_packages=(
   r-cran-sandwich
   r-cran-lmtest
   python3-statsmodels
+  r-cran-data.table    # bench: compare.py reads the 1M-row CSV quickly in R
+  r-cran-jsonlite      # bench: compare_reference.R writes its results as JSON
 )
 
 # --- tools: sanitizers, fuzzing, memory checks, benchmarks, the demo's PDF text dump
@@ -41,6 +43,7 @@ tool_packages=(
   libclang-rt-14-dev   # sanitizer and libFuzzer runtimes for clang
   poppler-utils        # pdftotext/pdftoppm: the demo and tests read the exported PDF
   hyperfine            # benchmarks time whole commands
+  time                 # bench: /usr/bin/time -f %M for the reference libraries' peak memory
 )
 
 all_packages=("${build_packages[@]}" "${office_packages[@]}" "${oracle_packages[@]}" "${tool_packages[@]}")
