@@ -358,12 +358,12 @@ typedef struct weft_model weft_model;
  *  Rows with a missing outcome, regressor, unit or period are dropped listwise and
  *  counted. On success *out receives a new model the caller must free with
  *  weft_model_free; on failure *out is NULL.
- *  Errors: WEFT_EINVAL (out or panel NULL, options size/version unknown or a field
- *  out of range, outcome/units/periods not set); WEFT_EDATA (repeated unit-period
- *  pair, non-finite value, too few usable rows); WEFT_EMODEL (options that conflict,
- *  e.g. dk_lag < -1, level outside (0, 1)); WEFT_ECOMPUTE (valid data from which
- *  this model cannot be estimated, e.g. two-way clustering with one period);
- *  WEFT_ENOMEM. */
+ *  Errors: WEFT_EINVAL (out or panel NULL, options size/version unknown, an
+ *  estimator or se value that is not in its enum, outcome/units/periods not set);
+ *  WEFT_EMODEL (dk_lag < -1, level outside (0, 1)); WEFT_EDATA (whatever the data
+ *  do not allow: a repeated unit-period pair, a non-finite value not marked
+ *  missing, a repeated term name, no usable rows, fewer rows than terms, fewer than
+ *  2 clusters for cluster standard errors; the message says which); WEFT_ENOMEM. */
 WEFT_API int weft_model_new(weft_model **out, const weft_panel *panel,
                             const weft_options *options);
 
@@ -463,9 +463,12 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
 /* --- single numbers (WEFT.VALUE) --------------------------------------------- */
 
 /** One number by name, as WEFT.VALUE: `what` is one of "estimate", "se", "t", "p",
- *  "ci-low", "ci-high" (these need `term`, a term name), or "n", "units", "periods",
- *  "r2", "r2-within", "r2-between", "r2-overall", "sigma", "df", "f", "f-df1",
- *  "f-df2", "f-p", "clusters", "rows-dropped" (term ignored, may be NULL).
+ *  "ci-low", "ci-high" (these need `term`, a term name), or (term ignored, may be
+ *  NULL) "n" (observations in the estimated equation), "units", "periods", "r2",
+ *  "adj-r2", "r2-within", "r2-between", "r2-overall", "sigma" (residual std
+ *  deviation), "df" (df of t, F and intervals under the model's standard errors),
+ *  "df-residual", "f", "f-df1", "f-df2", "f-p" (F on all slopes), "ssr",
+ *  "clusters", "rows-dropped".
  *  *value receives the number (NaN on failure or when it does not apply to this
  *  estimator, e.g. "r2-within" for pooled, which is still WEFT_OK).
  *  Errors: WEFT_EINVAL (NULL model/what/value, or a term-wise word without term);
@@ -540,10 +543,12 @@ typedef struct weft_hetero_result {
     double lm;        /**< LM statistic */
     double lm_df;     /**< its chi-square df */
     double lm_p;
-    double f;         /**< F form (R^2/q)/((1-R^2)/(N-q-1)) */
+    double f;         /**< F form (R^2/q)/((1-R^2)/(N-q-1)) of the same auxiliary
+                           regression (for bp too) */
     double f_df1;
     double f_df2;
-    double f_p;       /**< NaN for bp, which has no F form */
+    double f_p;       /**< upper tail of F(f_df1, f_df2) */
+    double aux_r2;    /**< R^2 of the auxiliary regression of u^2 */
 } weft_hetero_result;
 
 /** Heteroskedasticity test of the model's residuals, form an enum weft_hetero_form.
@@ -554,14 +559,17 @@ WEFT_API int weft_test_hetero(const weft_model *model, int form,
 
 /** Result of the serial-correlation check (WEFT.SERIAL). */
 typedef struct weft_serial_result {
+    double intercept;   /**< intercept of that regression */
     double slope;       /**< OLS slope of u_it on [1, u_i,t-1] over adjacent periods */
     double se;          /**< its classical std error */
     double t;
     double p;           /**< two-sided, t(pairs - 2) */
     double df;          /**< pairs - 2 */
     double pairs;       /**< number of (t-1, t) residual pairs used */
+    double units;       /**< units contributing a pair (the clusters G) */
     double level_null;  /**< slope under no serial correlation in the level errors:
-                             -0.5 for fd, -1/(T-1) for within; NaN otherwise */
+                             -0.5 for fd, -1/(T-1) for within; this and every level_
+                             field is NaN for other estimators */
     double level_se;    /**< cluster-by-unit (CR1) std error of the slope */
     double level_f;     /**< ((slope - level_null) / level_se)^2 */
     double level_df1;   /**< 1 */
@@ -581,7 +589,10 @@ typedef struct weft_hausman_result {
     double rank;               /**< rank of V_within - V_random */
     int positive_definite;     /**< 1 if V_within - V_random is positive definite */
     weft_wald_result robust;   /**< auxiliary regression (unit means of X added to
-                                    the random-effects equation), cluster by unit */
+                                    the random-effects equation), cluster by unit
+                                    (CR1), F on (q, G-1) */
+    weft_wald_result auxiliary_classical;  /**< the same regression with classical
+                                    covariance, F on (q, N-K) */
 } weft_hausman_result;
 
 /** Fit within and random effects to the panel with *options (NULL: defaults; its
@@ -597,6 +608,8 @@ typedef struct weft_effects_result {
     double df1;   /**< n - 1 when no regressor is time-invariant */
     double df2;   /**< N - n - K */
     double p;
+    double ssr_pooled;   /**< residual sum of squares of the pooled comparator */
+    double ssr_within;   /**< residual sum of squares of the within fit */
 } weft_effects_result;
 
 /** F test that all unit effects are zero: within versus pooled on the same rows,

@@ -1,32 +1,86 @@
 // tests.cpp -- the specification tests: Wald, heteroskedasticity, serial correlation,
-// Hausman and unit effects. The statistics live in core; this file checks arguments
-// and copies results.
+// Hausman and unit effects. The statistics live in core (weft/spec.hpp); this file
+// checks arguments, maps errors to status codes and copies results.
 #include "boundary.hpp"
 #include "convert.hpp"
 #include "handles.hpp"
 
-#include <cctype>
+#include <weft/spec.hpp>
+
 #include <string>
 #include <vector>
 
 using namespace weft_cabi;
 
+namespace weft_cabi {
+weft_model* new_model(const weft_panel* panel, const weft::ModelSpec& spec, const char* fn);
+}
+
 namespace {
 
-[[noreturn]] void not_yet(const char* fn) {
-    fail(WEFT_EINTERNAL, std::string(fn) + ": this test is not available in this build of weft yet");
+weft_wald_result to_c(const weft::WaldResult& r) {
+    weft_wald_result out;
+    out.f = r.f;
+    out.f_df1 = r.f_df1;
+    out.f_df2 = r.f_df2;
+    out.f_p = r.f_p;
+    out.chi2 = r.chi2;
+    out.chi2_df = r.chi2_df;
+    out.chi2_p = r.chi2_p;
+    return out;
 }
 
-std::string lower(std::string s) {
-    for (char& c : s) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
-    return s;
+weft_wald_result nan_wald() {
+    return weft_wald_result{nan_value, nan_value, nan_value, nan_value, nan_value, nan_value, nan_value};
 }
 
-std::string trim(const std::string& s) {
-    const auto first = s.find_first_not_of(" \t\r\n");
-    if (first == std::string::npos) return "";
-    const auto last = s.find_last_not_of(" \t\r\n");
-    return s.substr(first, last - first + 1);
+// Names are checked here, before core, so that a name the model lacks is WEFT_ERANGE
+// and a repeated name WEFT_EINVAL; what core then refuses is a computation problem.
+void check_terms(const weft_model* model, const std::vector<std::string>& names, const char* fn) {
+    if (names.empty())
+        fail(WEFT_EINVAL, std::string(fn) + ": no term is named; give one or more terms, e.g. \"" +
+                              (model->fit.equation.terms.empty() ? "x1" : model->fit.equation.terms.back()) + "\"");
+    for (std::size_t i = 0; i < names.size(); ++i) {
+        for (std::size_t j = 0; j < i; ++j)
+            if (names[j] == names[i])
+                fail(WEFT_EINVAL, std::string(fn) + ": term \"" + names[i] +
+                                      "\" is named twice; name each term once");
+        if (model->fit.term_position(names[i])) continue;
+        for (const weft::DroppedTerm& d : model->fit.dropped)
+            if (d.name == names[i])
+                fail(WEFT_ERANGE, std::string(fn) + ": term \"" + names[i] + "\" was dropped from the model (" +
+                                      d.message + "), so it cannot be tested");
+        std::string known;
+        for (const std::string& t : model->fit.equation.terms) known += (known.empty() ? "" : ", ") + t;
+        fail(WEFT_ERANGE, std::string(fn) + ": the model has no term \"" + names[i] + "\"; its terms are: " + known);
+    }
+}
+
+int joint(const weft_model* model, const std::vector<std::string>& names, weft_wald_result* out,
+          const char* fn) {
+    *out = nan_wald();
+    check_terms(model, names, fn);
+    *out = to_c(weft::wald_test_terms(model->fit, names));
+    return WEFT_OK;
+}
+
+// Fit the two models a comparison needs. A failure here is about the data (EDATA);
+// the caller's comparison itself maps core's errors to WEFT_ECOMPUTE.
+std::unique_ptr<weft_model> fit_for_test(const weft_panel* panel, weft::ModelSpec spec,
+                                         weft::Estimator estimator, const char* fn) {
+    spec.estimator = estimator;
+    spec.covariance = weft::Covariance::classical;
+    spec.dk_lag = -1;
+    std::unique_ptr<weft_model> model;
+    const int status = guarded(WEFT_EDATA, [&] {
+        model.reset(new_model(panel, spec, fn));
+        return WEFT_OK;
+    });
+    if (status != WEFT_OK) {
+        std::string message = weft_last_error();
+        fail(status, message.substr(6));  // drop "weft: ": fail() adds it again
+    }
+    return model;
 }
 
 }  // namespace
@@ -35,95 +89,125 @@ extern "C" {
 
 int weft_hetero_form_parse(const char* word, int* form) {
     return guarded(WEFT_EMODEL, [&] {
-        const char* fn = "weft_hetero_form_parse";
-        require(form, fn, "form");
-        const std::string w = lower(trim(word == nullptr ? "" : word));
-        if (w.empty() || w == "koenker") *form = WEFT_HETERO_KOENKER;
-        else if (w == "bp") *form = WEFT_HETERO_BP;
-        else if (w == "white-special") *form = WEFT_HETERO_WHITE_SPECIAL;
-        else if (w == "white-full") *form = WEFT_HETERO_WHITE_FULL;
-        else
-            fail(WEFT_EMODEL, "heteroskedasticity test form \"" + std::string(word) +
-                                  "\" is not known; use one of: koenker, bp, white-special, white-full");
+        require(form, "weft_hetero_form_parse", "form");
+        switch (weft::parse_hetero_form(word == nullptr ? "" : word)) {
+            case weft::HeteroForm::koenker: *form = WEFT_HETERO_KOENKER; break;
+            case weft::HeteroForm::bp: *form = WEFT_HETERO_BP; break;
+            case weft::HeteroForm::white_special: *form = WEFT_HETERO_WHITE_SPECIAL; break;
+            case weft::HeteroForm::white_full: *form = WEFT_HETERO_WHITE_FULL; break;
+        }
         return WEFT_OK;
     });
 }
 
 int weft_test_joint(const weft_model* model, const char* const* terms, size_t n_terms,
                     weft_wald_result* out) {
-    return guarded(WEFT_ECOMPUTE, [&]() -> int {
+    return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_joint";
         require_model(model, fn);
         require(terms, fn, "terms");
         require(out, fn, "out");
-        (void)n_terms;
-        not_yet(fn);
+        std::vector<std::string> names;
+        for (std::size_t i = 0; i < n_terms; ++i) {
+            if (terms[i] == nullptr)
+                fail(WEFT_EINVAL, std::string(fn) + ": terms[" + std::to_string(i) + "] is NULL");
+            names.emplace_back(terms[i]);
+        }
+        return joint(model, names, out, fn);
     });
 }
 
 int weft_test_joint_list(const weft_model* model, const char* term_list, weft_wald_result* out) {
-    return guarded(WEFT_ECOMPUTE, [&]() -> int {
+    return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_joint_list";
         require_model(model, fn);
         require(term_list, fn, "term_list");
         require(out, fn, "out");
-        std::vector<std::string> names;
-        std::string rest = term_list;
-        std::size_t start = 0;
-        while (start <= rest.size()) {
-            const std::size_t comma = rest.find(',', start);
-            const std::string name =
-                trim(rest.substr(start, comma == std::string::npos ? std::string::npos : comma - start));
-            if (!name.empty()) names.push_back(name);
-            if (comma == std::string::npos) break;
-            start = comma + 1;
-        }
-        if (names.empty())
-            fail(WEFT_EINVAL, std::string(fn) + ": the term list \"" + rest +
-                                  "\" names no term; give names separated by commas, e.g. \"value, capital\"");
-        std::vector<const char*> pointers;
-        for (const std::string& n : names) pointers.push_back(n.c_str());
-        const int status = weft_test_joint(model, pointers.data(), pointers.size(), out);
-        return status;
+        return joint(model, weft::split_term_list(term_list), out, fn);
     });
 }
 
 int weft_test_hetero(const weft_model* model, int form, weft_hetero_result* out) {
-    return guarded(WEFT_ECOMPUTE, [&]() -> int {
+    return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_hetero";
         require_model(model, fn);
         require(out, fn, "out");
-        (void)form;
-        not_yet(fn);
+        weft::HeteroForm core_form = weft::HeteroForm::koenker;
+        switch (form) {
+            case WEFT_HETERO_KOENKER: core_form = weft::HeteroForm::koenker; break;
+            case WEFT_HETERO_BP: core_form = weft::HeteroForm::bp; break;
+            case WEFT_HETERO_WHITE_SPECIAL: core_form = weft::HeteroForm::white_special; break;
+            case WEFT_HETERO_WHITE_FULL: core_form = weft::HeteroForm::white_full; break;
+            default:
+                fail(WEFT_EINVAL, std::string(fn) + ": form is " + std::to_string(form) +
+                                      ", which is not a weft_hetero_form value (0 to 3)");
+        }
+        const weft::HeteroResult r = weft::hetero_test(model->fit, core_form);
+        *out = weft_hetero_result{r.lm, r.lm_df, r.lm_p, r.f, r.f_df1, r.f_df2, r.f_p, r.aux_r2};
+        return WEFT_OK;
     });
 }
 
 int weft_test_serial(const weft_model* model, weft_serial_result* out) {
-    return guarded(WEFT_ECOMPUTE, [&]() -> int {
+    return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_serial";
         require_model(model, fn);
         require(out, fn, "out");
-        not_yet(fn);
+        const weft::SerialResult r = weft::serial_test(model->fit);
+        weft_serial_result s;
+        s.intercept = r.intercept;
+        s.slope = r.slope;
+        s.se = r.se;
+        s.t = r.t;
+        s.p = r.p;
+        s.df = r.df;
+        s.pairs = static_cast<double>(r.pairs);
+        s.units = static_cast<double>(r.units);
+        s.level_null = r.level ? r.level->null_value : nan_value;
+        s.level_se = r.level ? r.level->se : nan_value;
+        s.level_f = r.level ? r.level->f : nan_value;
+        s.level_df1 = r.level ? r.level->f_df1 : nan_value;
+        s.level_df2 = r.level ? r.level->f_df2 : nan_value;
+        s.level_p = r.level ? r.level->f_p : nan_value;
+        *out = s;
+        return WEFT_OK;
     });
 }
 
 int weft_test_hausman(const weft_panel* panel, const weft_options* options, weft_hausman_result* out) {
-    return guarded(WEFT_ECOMPUTE, [&]() -> int {
+    return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_hausman";
         require(panel, fn, "panel");
         require(out, fn, "out");
-        (void)options;
-        not_yet(fn);
+        const weft::ModelSpec spec = read_options(options, fn);
+        const auto within = fit_for_test(panel, spec, weft::Estimator::within, fn);
+        const auto random = fit_for_test(panel, spec, weft::Estimator::random, fn);
+        const weft::HausmanResult r = weft::hausman_test(within->fit, random->fit);
+        weft_hausman_result h;
+        h.statistic = r.statistic;
+        h.df = r.df;
+        h.p = r.p;
+        h.rank = static_cast<double>(r.rank);
+        h.positive_definite = r.positive_definite ? 1 : 0;
+        h.robust = to_c(r.robust);
+        h.auxiliary_classical = to_c(r.auxiliary_classical);
+        *out = h;
+        return WEFT_OK;
     });
 }
 
 int weft_test_effects(const weft_panel* panel, const weft_options* options, weft_effects_result* out) {
-    return guarded(WEFT_ECOMPUTE, [&]() -> int {
+    return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_effects";
         require(panel, fn, "panel");
         require(out, fn, "out");
-        (void)options;
-        not_yet(fn);
+        weft::ModelSpec spec = read_options(options, fn);
+        const auto within = fit_for_test(panel, spec, weft::Estimator::within, fn);
+        spec.intercept = true;  // the comparator is pooled OLS with an intercept
+        const auto pooled = fit_for_test(panel, spec, weft::Estimator::pooled, fn);
+        const weft::EffectsResult r = weft::effects_test(within->fit, pooled->fit);
+        *out = weft_effects_result{r.f, r.df1, r.df2, r.p, r.ssr_pooled, r.ssr_within};
+        return WEFT_OK;
     });
 }
 
