@@ -1,0 +1,243 @@
+// Fixed versus random effects (Hausman 1978; Mundlak 1978 auxiliary regression,
+// Wooldridge 2010 section 10.7.3) and the F test that all unit effects are zero.
+#include <algorithm>
+#include <cmath>
+#include <string>
+#include <unordered_set>
+#include <vector>
+
+#include <Eigen/Dense>
+
+#include "weft/distributions.hpp"
+#include "weft/error.hpp"
+#include "weft/panel.hpp"
+#include "weft/spec.hpp"
+
+namespace weft {
+
+namespace {
+
+bool same_rows(const Equation& a, const Equation& b) {
+    if (a.nobs() != b.nobs()) return false;
+    std::vector<std::size_t> ra = a.input_row, rb = b.input_row;
+    std::sort(ra.begin(), ra.end());
+    std::sort(rb.begin(), rb.end());
+    return ra == rb;
+}
+
+// Labels of the period indicators a fit can carry: "period <value>" for grid values.
+std::unordered_set<std::string> period_labels(const Fit& fit) {
+    std::unordered_set<std::string> out;
+    if (!fit.spec.period_effects) return out;
+    for (double g : fit.index.grid) out.insert("period " + format_number(g));
+    return out;
+}
+
+CovarianceResult classical_of(const Fit& fit) {
+    if (fit.covariance.kind == Covariance::classical) return fit.covariance;
+    return compute_covariance(fit.equation, Covariance::classical);
+}
+
+}  // namespace
+
+HausmanResult hausman_test(const Fit& within, const Fit& random) {
+    if (within.spec.estimator != Estimator::within || random.spec.estimator != Estimator::random)
+        throw Error(std::string("Hausman test: needs a within fit and a random fit of the same "
+                                "rows, got ") + to_word(within.spec.estimator) + " and " +
+                    to_word(random.spec.estimator) + "; fit the model with within and with random");
+    if (within.spec.period_effects != random.spec.period_effects)
+        throw Error("Hausman test: one fit has period indicators and the other not; fit both "
+                    "with the same period effects");
+    const Equation& ew = within.equation;
+    const Equation& er = random.equation;
+    if (!same_rows(ew, er))
+        throw Error("Hausman test: the within fit uses " + std::to_string(ew.nobs()) +
+                    " rows and the random fit " + std::to_string(er.nobs()) +
+                    " (or other rows); fit both to the same panel");
+
+    // Slopes common to both fits: regressors, not the intercept nor period indicators.
+    const auto periods = period_labels(random);
+    std::vector<std::string> terms;
+    std::vector<Eigen::Index> pos_w, pos_r;
+    for (std::size_t j = 0; j < er.terms.size(); ++j) {
+        if (static_cast<int>(j) == er.intercept_column) continue;
+        if (periods.count(er.terms[j])) continue;
+        const auto pw = within.term_position(er.terms[j]);
+        if (!pw) continue;
+        terms.push_back(er.terms[j]);
+        pos_w.push_back(static_cast<Eigen::Index>(*pw));
+        pos_r.push_back(static_cast<Eigen::Index>(j));
+    }
+    if (terms.empty())
+        throw Error("Hausman test: no regressor is estimated by both within and random (a "
+                    "regressor that does not vary within units is dropped by within); add a "
+                    "regressor that varies over time");
+
+    const CovarianceResult vw = classical_of(within);
+    const CovarianceResult vr = classical_of(random);
+    const auto q = static_cast<Eigen::Index>(terms.size());
+    Eigen::VectorXd d(q);
+    Eigen::MatrixXd vd(q, q);
+    for (Eigen::Index a = 0; a < q; ++a) {
+        d(a) = ew.coef(pos_w[static_cast<std::size_t>(a)]) - er.coef(pos_r[static_cast<std::size_t>(a)]);
+        for (Eigen::Index b = 0; b < q; ++b)
+            vd(a, b) = vw.matrix(pos_w[static_cast<std::size_t>(a)], pos_w[static_cast<std::size_t>(b)]) -
+                       vr.matrix(pos_r[static_cast<std::size_t>(a)], pos_r[static_cast<std::size_t>(b)]);
+    }
+    vd = 0.5 * (vd + vd.transpose());
+
+    HausmanResult r;
+    r.terms = terms;
+    r.difference = d;
+    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig(vd);
+    const Eigen::VectorXd lambda = eig.eigenvalues();  // ascending
+    const double largest = lambda.cwiseAbs().maxCoeff();
+    const double tiny = 1e-10 * largest;
+    const Eigen::VectorXd projected = eig.eigenvectors().transpose() * d;
+    double h = 0;
+    std::size_t rank = 0, positive = 0;
+    for (Eigen::Index j = 0; j < q; ++j) {
+        if (std::abs(lambda(j)) > tiny) {
+            ++rank;
+            // Over the non-null eigenvalues: the inverse when V_W - V_R has full rank, a
+            // generalised inverse otherwise. A negative eigenvalue is kept with its sign:
+            // the statistic is the raw quadratic form.
+            h += projected(j) * projected(j) / lambda(j);
+        }
+        if (lambda(j) > tiny) ++positive;
+    }
+    for (Eigen::Index j = q - 1; j >= 0; --j) r.eigenvalues.push_back(lambda(j));
+    r.rank = rank;
+    r.positive_definite = positive == static_cast<std::size_t>(q);
+    if (rank == 0)
+        throw Error("Hausman test: the within and random covariances are equal (V_within - "
+                    "V_random is zero), so the contrast has no variance; there is nothing to test");
+    r.statistic = h;
+    r.df = static_cast<double>(rank);
+    r.p = h > 0 ? chi2_upper(h, r.df) : 1.0;
+    if (rank < static_cast<std::size_t>(q))
+        r.warnings.push_back("V_within - V_random has rank " + std::to_string(rank) + " of " +
+                             std::to_string(q) + "; a generalised inverse is used and df = rank");
+    if (!r.positive_definite)
+        r.warnings.push_back("V_within - V_random is not positive definite (" +
+                             std::to_string(positive) + " of " + std::to_string(q) +
+                             " eigenvalues positive); the statistic is reported as computed and "
+                             "may be negative: use the robust (auxiliary-regression) form");
+
+    // Mundlak: the unit mean of a quasi-demeaned column x - theta_i xbar_i over the unit's
+    // rows is (1 - theta_i) xbar_i, so the added columns come from the random equation
+    // itself.
+    const auto n = static_cast<Eigen::Index>(er.nobs());
+    const auto kr = static_cast<Eigen::Index>(er.n_terms());
+    std::int32_t max_unit = 0;
+    for (auto u : er.unit) max_unit = std::max(max_unit, u);
+    std::vector<double> count(static_cast<std::size_t>(max_unit) + 1, 0.0);
+    for (auto u : er.unit) count[static_cast<std::size_t>(u)] += 1.0;
+    EquationInput aux;
+    aux.estimator = Estimator::random;
+    aux.X.resize(n, kr + q);
+    aux.X.leftCols(kr) = er.X;
+    aux.terms = er.terms;
+    for (Eigen::Index a = 0; a < q; ++a) {
+        std::vector<long double> sum(count.size(), 0.0L);
+        const Eigen::Index col = pos_r[static_cast<std::size_t>(a)];
+        for (Eigen::Index i = 0; i < n; ++i) sum[static_cast<std::size_t>(er.unit[static_cast<std::size_t>(i)])] += er.X(i, col);
+        for (Eigen::Index i = 0; i < n; ++i) {
+            const auto u = static_cast<std::size_t>(er.unit[static_cast<std::size_t>(i)]);
+            aux.X(i, kr + a) = static_cast<double>(sum[u] / static_cast<long double>(count[u]));
+        }
+        aux.terms.push_back("mean " + terms[static_cast<std::size_t>(a)]);
+    }
+    aux.y = er.y;
+    aux.intercept_column = er.intercept_column;
+    aux.input_row = er.input_row;
+    aux.unit = er.unit;
+    aux.period = er.period;
+    const Equation mundlak = solve_equation(std::move(aux));
+
+    std::vector<std::string> mean_terms;
+    Eigen::MatrixXd restriction = Eigen::MatrixXd::Zero(q, static_cast<Eigen::Index>(mundlak.n_terms()));
+    Eigen::Index row = 0;
+    for (Eigen::Index a = 0; a < q; ++a) {
+        const std::string name = "mean " + terms[static_cast<std::size_t>(a)];
+        const auto it = std::find(mundlak.terms.begin(), mundlak.terms.end(), name);
+        if (it == mundlak.terms.end()) continue;
+        restriction(row++, static_cast<Eigen::Index>(it - mundlak.terms.begin())) = 1.0;
+        mean_terms.push_back(name);
+    }
+    if (row == 0)
+        throw Error("Hausman test: the unit means of the regressors are collinear with the "
+                    "random-effects design, so the auxiliary regression cannot separate them");
+    if (row < q)
+        r.warnings.push_back("auxiliary regression: " + std::to_string(q - row) +
+                             " unit-mean column(s) dropped as collinear");
+    restriction.conservativeResize(row, Eigen::NoChange);
+    const Eigen::VectorXd zero = Eigen::VectorXd::Zero(row);
+    const CovarianceResult vc = compute_covariance(mundlak, Covariance::cluster);
+    r.robust = wald_test(mundlak.coef, vc.matrix, vc.df, restriction, zero);
+    r.robust.terms = mean_terms;
+    r.robust.covariance_label = vc.label;
+    r.robust.df_rule = vc.df_rule;
+    const CovarianceResult vcl = compute_covariance(mundlak, Covariance::classical);
+    r.auxiliary_classical = wald_test(mundlak.coef, vcl.matrix, vcl.df, restriction, zero);
+    r.auxiliary_classical.terms = mean_terms;
+    r.auxiliary_classical.covariance_label = vcl.label;
+    r.auxiliary_classical.df_rule = vcl.df_rule;
+    return r;
+}
+
+HausmanResult hausman_test(const PanelData& data, const ModelSpec& spec) {
+    ModelSpec s = spec;
+    s.covariance = Covariance::classical;
+    s.estimator = Estimator::within;
+    const Fit within = fit_model(data, s);
+    s.estimator = Estimator::random;
+    const Fit random = fit_model(data, s);
+    return hausman_test(within, random);
+}
+
+EffectsResult effects_test(const Fit& within, const Fit& pooled) {
+    if (within.spec.estimator != Estimator::within || pooled.spec.estimator != Estimator::pooled ||
+        pooled.equation.intercept_column < 0)
+        throw Error(std::string("unit-effects test: needs a within fit and a pooled fit with "
+                                "intercept of the same rows, got ") +
+                    to_word(within.spec.estimator) + " and " + to_word(pooled.spec.estimator) +
+                    "; fit the model with within");
+    if (within.spec.period_effects != pooled.spec.period_effects)
+        throw Error("unit-effects test: one fit has period indicators and the other not; fit "
+                    "both with the same period effects");
+    if (!same_rows(within.equation, pooled.equation))
+        throw Error("unit-effects test: the within and pooled fits use different rows; fit "
+                    "both to the same panel");
+    EffectsResult r;
+    r.ssr_within = within.equation.ssr;
+    r.ssr_pooled = pooled.equation.ssr;
+    const double df_w = within.equation.df_residual();
+    const double df_p = pooled.equation.df_residual();
+    r.df1 = df_p - df_w;
+    r.df2 = df_w;
+    if (!(r.df1 >= 1) || !(r.df2 >= 1))
+        throw Error("unit-effects test: no degrees of freedom left (within df " +
+                    std::to_string(static_cast<long>(df_w)) + ", pooled df " +
+                    std::to_string(static_cast<long>(df_p)) + "); the test needs at least two "
+                    "units and more rows than units plus terms");
+    r.f = ((r.ssr_pooled - r.ssr_within) / r.df1) / (r.ssr_within / r.df2);
+    r.p = f_upper(r.f, r.df1, r.df2);
+    if (r.f < 0)
+        r.warnings.push_back("SSR of the pooled fit is below that of the within fit "
+                             "(rounding); F is reported as computed");
+    return r;
+}
+
+EffectsResult effects_test(const PanelData& data, const ModelSpec& spec) {
+    ModelSpec s = spec;
+    s.covariance = Covariance::classical;
+    s.estimator = Estimator::within;
+    const Fit within = fit_model(data, s);
+    s.estimator = Estimator::pooled;
+    s.intercept = true;
+    const Fit pooled = fit_model(data, s);
+    return effects_test(within, pooled);
+}
+
+}  // namespace weft
