@@ -119,14 +119,14 @@ int write_aligned(const weft::Series& series, double* buf, unsigned char* unused
 
 // A term named in a request that the model does not estimate: say whether it was
 // dropped, else list the terms there are.
-[[noreturn]] void unknown_term(const weft_model* model, const std::string& term, const char* fn) {
+[[noreturn]] void unknown_term(const weft_model* model, const std::string& term) {
     for (const weft::DroppedTerm& d : model->fit.dropped)
         if (d.name == term)
-            fail(WEFT_ERANGE, std::string(fn) + ": term \"" + term + "\" was dropped from the model (" +
+            fail(WEFT_ERANGE, "term \"" + term + "\" was dropped from the model (" +
                                   d.message + "), so it has no estimate");
     std::string known;
     for (const std::string& t : model->fit.equation.terms) known += (known.empty() ? "" : ", ") + t;
-    fail(WEFT_ERANGE, std::string(fn) + ": the model has no term \"" + term + "\"; its terms are: " + known);
+    fail(WEFT_ERANGE, "the model has no term \"" + term + "\"; its terms are: " + known);
 }
 
 std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
@@ -346,10 +346,10 @@ int weft_model_value(const weft_model* model, const char* what, const char* term
         for (int column = 0; column < WEFT_COEF_COLUMNS; ++column) {
             if (word != term_words[column]) continue;
             if (term == nullptr || *term == '\0')
-                fail(WEFT_EINVAL, std::string(fn) + ": \"" + word + "\" needs a term name, e.g. \"" +
+                fail(WEFT_EINVAL, "\"" + word + "\" needs a term name, e.g. \"" +
                                       (model->fit.equation.terms.empty() ? "x1" : model->fit.equation.terms.back()) + "\"");
             const std::optional<std::size_t> pos = model->fit.term_position(term);
-            if (!pos) unknown_term(model, term, fn);
+            if (!pos) unknown_term(model, term);
             *value = model->table[*pos * WEFT_COEF_COLUMNS + static_cast<std::size_t>(column)];
             return WEFT_OK;
         }
@@ -357,7 +357,7 @@ int weft_model_value(const weft_model* model, const char* what, const char* term
             const std::optional<double> v = value_of(model->fit, word);
             if (v) *value = *v;
         } catch (const std::out_of_range&) {
-            fail(WEFT_EMODEL, std::string(fn) + ": \"" + word + "\" is not a value weft knows; use one of: " + value_words);
+            fail(WEFT_EMODEL, "\"" + word + "\" is not a value weft knows; use one of: " + value_words);
         }
         return WEFT_OK;
     });

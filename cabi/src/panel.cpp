@@ -67,10 +67,10 @@ void check_transform(const weft_panel* panel, const double* values, const double
                                " rows; pass a buffer of at least " + std::to_string(panel->n_rows));
 }
 
-void check_k(int k, const char* function) {
+void check_k(int k) {
     if (k == 0)
-        fail(WEFT_EINVAL, std::string(function) +
-                              ": k is 0; use 1 for one period back, 2 for two, or a negative k for later periods");
+        fail(WEFT_EINVAL, std::string(
+                              "k is 0; use 1 for one period back, 2 for two, or a negative k for later periods"));
 }
 
 weft::PeriodIndicators indicators(const weft_panel* panel, int omit_first, const char* function) {
@@ -246,7 +246,7 @@ int weft_panel_diff(const weft_panel* panel, const double* values, const unsigne
         require_units(panel, fn);
         require_periods(panel, fn);
         check_transform(panel, values, out, capacity, fn);
-        check_k(k, fn);
+        check_k(k);
         const weft::PanelData& d = *panel->data;
         write_series(weft::difference(copy_column("values", values, missing, panel->n_rows), d.units,
                                       d.periods, k, d.first_row_number),
@@ -262,7 +262,7 @@ int weft_panel_lag(const weft_panel* panel, const double* values, const unsigned
         require_units(panel, fn);
         require_periods(panel, fn);
         check_transform(panel, values, out, capacity, fn);
-        check_k(k, fn);
+        check_k(k);
         const weft::PanelData& d = *panel->data;
         write_series(weft::lag(copy_column("values", values, missing, panel->n_rows), d.units,
                                d.periods, k, d.first_row_number),

@@ -36,30 +36,29 @@ weft_wald_result nan_wald() {
 
 // Names are checked here, before core, so that a name the model lacks is WEFT_ERANGE
 // and a repeated name WEFT_EINVAL; what core then refuses is a computation problem.
-void check_terms(const weft_model* model, const std::vector<std::string>& names, const char* fn) {
+void check_terms(const weft_model* model, const std::vector<std::string>& names) {
     if (names.empty())
-        fail(WEFT_EINVAL, std::string(fn) + ": no term is named; give one or more terms, e.g. \"" +
-                              (model->fit.equation.terms.empty() ? "x1" : model->fit.equation.terms.back()) + "\"");
+        fail(WEFT_EINVAL, "no term is named; give one or more terms, e.g. \"" +
+                              (model->fit.equation.terms.empty() ? std::string("x1") : model->fit.equation.terms.back()) + "\"");
     for (std::size_t i = 0; i < names.size(); ++i) {
         for (std::size_t j = 0; j < i; ++j)
             if (names[j] == names[i])
-                fail(WEFT_EINVAL, std::string(fn) + ": term \"" + names[i] +
+                fail(WEFT_EINVAL, "term \"" + names[i] +
                                       "\" is named twice; name each term once");
         if (model->fit.term_position(names[i])) continue;
         for (const weft::DroppedTerm& d : model->fit.dropped)
             if (d.name == names[i])
-                fail(WEFT_ERANGE, std::string(fn) + ": term \"" + names[i] + "\" was dropped from the model (" +
+                fail(WEFT_ERANGE, "term \"" + names[i] + "\" was dropped from the model (" +
                                       d.message + "), so it cannot be tested");
         std::string known;
         for (const std::string& t : model->fit.equation.terms) known += (known.empty() ? "" : ", ") + t;
-        fail(WEFT_ERANGE, std::string(fn) + ": the model has no term \"" + names[i] + "\"; its terms are: " + known);
+        fail(WEFT_ERANGE, "the model has no term \"" + names[i] + "\"; its terms are: " + known);
     }
 }
 
-int joint(const weft_model* model, const std::vector<std::string>& names, weft_wald_result* out,
-          const char* fn) {
+int joint(const weft_model* model, const std::vector<std::string>& names, weft_wald_result* out) {
     *out = nan_wald();
-    check_terms(model, names, fn);
+    check_terms(model, names);
     *out = to_c(weft::wald_test_terms(model->fit, names));
     return WEFT_OK;
 }
@@ -113,7 +112,7 @@ int weft_test_joint(const weft_model* model, const char* const* terms, size_t n_
                 fail(WEFT_EINVAL, std::string(fn) + ": terms[" + std::to_string(i) + "] is NULL");
             names.emplace_back(terms[i]);
         }
-        return joint(model, names, out, fn);
+        return joint(model, names, out);
     });
 }
 
@@ -123,7 +122,7 @@ int weft_test_joint_list(const weft_model* model, const char* term_list, weft_wa
         require_model(model, fn);
         require(term_list, fn, "term_list");
         require(out, fn, "out");
-        return joint(model, weft::split_term_list(term_list), out, fn);
+        return joint(model, weft::split_term_list(term_list), out);
     });
 }
 
