@@ -1,0 +1,229 @@
+// Panel index: unit numbering, the period grid, duplicate rule, structure report.
+#include "weft/panel.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <numeric>
+#include <string>
+
+#include "weft/error.hpp"
+#include "internal.hpp"
+
+namespace weft {
+
+std::string format_number(double value) {
+    if (value == 0) return "0";
+    char buffer[40];
+    for (int digits = 1; digits <= 17; ++digits) {
+        std::snprintf(buffer, sizeof buffer, "%.*g", digits, value);
+        if (std::strtod(buffer, nullptr) == value) break;
+    }
+    return buffer;
+}
+
+namespace detail {
+
+std::string column_label(const std::string& name, const char* fallback) {
+    if (!name.empty()) return "\"" + name + "\"";
+    return fallback;
+}
+
+void check_length(std::size_t expected, const char* expected_what, std::size_t got,
+                  const std::string& what) {
+    if (expected != got)
+        throw Error(what + " has " + std::to_string(got) + " rows but " + expected_what + " has " +
+                    std::to_string(expected) + "; give all columns the same rows");
+}
+
+void check_column(const Column& column, std::size_t n_rows, const char* expected_what,
+                  const std::string& what, std::size_t first_row_number) {
+    check_length(n_rows, expected_what, column.values.size(), what);
+    if (!column.missing.empty() && column.missing.size() != column.values.size())
+        throw Error(what + ": the missing-value mask has " + std::to_string(column.missing.size()) +
+                    " entries for " + std::to_string(column.values.size()) + " rows");
+    for (std::size_t i = 0; i < column.values.size(); ++i) {
+        if (column.is_missing(i)) continue;
+        if (!std::isfinite(column.values[i]))
+            throw Error(what + ", row " + std::to_string(first_row_number + i) +
+                        ": the value is not a finite number (NaN or infinity); leave the cell "
+                        "blank or enter a number");
+    }
+}
+
+namespace {
+
+void check_units(const UnitColumn& units, std::size_t first_row_number) {
+    if (units.is_text() && !units.numbers.empty())
+        throw Error("units: give the unit ids either as text or as numbers, not both");
+    const std::size_t n = units.size();
+    if (!units.missing.empty() && units.missing.size() != n)
+        throw Error("units: the missing-value mask has " + std::to_string(units.missing.size()) +
+                    " entries for " + std::to_string(n) + " rows");
+    if (!units.is_text()) {
+        for (std::size_t i = 0; i < n; ++i) {
+            if (units.is_missing(i)) continue;
+            if (!std::isfinite(units.numbers[i]))
+                throw Error("units, row " + std::to_string(first_row_number + i) +
+                            ": the unit id is not a finite number; leave the cell blank or "
+                            "enter an id");
+        }
+    }
+}
+
+// Sort rows with a valid unit (and period, when given) by (unit, period, row).
+// Returns the sorted rows; fills unit numbers and labels.
+std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* periods,
+                                    PanelIndex& index) {
+    const std::size_t n = units.size();
+    std::vector<std::size_t> rows;
+    rows.reserve(n);
+    for (std::size_t i = 0; i < n; ++i) {
+        if (units.is_missing(i)) continue;
+        if (periods != nullptr && periods->is_missing(i)) continue;
+        rows.push_back(i);
+    }
+    auto period_of = [&](std::size_t i) { return periods != nullptr ? periods->values[i] : 0.0; };
+    if (units.is_text()) {
+        auto less = [&](std::size_t a, std::size_t b) {
+            const int c = units.text[a].compare(units.text[b]);
+            if (c != 0) return c < 0;
+            const double pa = period_of(a), pb = period_of(b);
+            if (pa != pb) return pa < pb;
+            return a < b;
+        };
+        if (!std::is_sorted(rows.begin(), rows.end(), less)) std::sort(rows.begin(), rows.end(), less);
+    } else {
+        auto less = [&](std::size_t a, std::size_t b) {
+            const double ua = units.numbers[a], ub = units.numbers[b];
+            if (ua != ub) return ua < ub;
+            const double pa = period_of(a), pb = period_of(b);
+            if (pa != pb) return pa < pb;
+            return a < b;
+        };
+        if (!std::is_sorted(rows.begin(), rows.end(), less)) std::sort(rows.begin(), rows.end(), less);
+    }
+    index.n_rows = n;
+    index.unit_of_row.assign(n, -1);
+    index.period_of_row.assign(n, -1);
+    index.unit_labels.clear();
+    index.unit_start.clear();
+    auto same_unit = [&](std::size_t a, std::size_t b) {
+        return units.is_text() ? units.text[a] == units.text[b] : units.numbers[a] == units.numbers[b];
+    };
+    for (std::size_t k = 0; k < rows.size(); ++k) {
+        const std::size_t i = rows[k];
+        if (k == 0 || !same_unit(rows[k - 1], i)) {
+            index.unit_start.push_back(k);
+            index.unit_labels.push_back(units.is_text() ? units.text[i] : format_number(units.numbers[i]));
+        }
+        index.unit_of_row[i] = static_cast<std::int32_t>(index.unit_labels.size() - 1);
+    }
+    index.unit_start.push_back(rows.size());
+    return rows;
+}
+
+}  // namespace
+
+// Index with a choice of what to do with repeated (unit, period) pairs.
+PanelIndex make_index(const UnitColumn& units, const Column& periods, std::size_t first_row_number,
+                      bool reject_duplicates, std::size_t* duplicate_count) {
+    check_units(units, first_row_number);
+    check_column(periods, units.size(), "units", "periods", first_row_number);
+    PanelIndex index;
+    index.first_row_number = first_row_number;
+    std::vector<std::size_t> rows = group_rows(units, &periods, index);
+
+    std::vector<double> grid;
+    grid.reserve(64);
+    for (std::size_t i : rows) grid.push_back(periods.values[i]);
+    std::sort(grid.begin(), grid.end());
+    grid.erase(std::unique(grid.begin(), grid.end()), grid.end());
+    index.grid = std::move(grid);
+
+    std::size_t duplicates = 0;
+    for (std::size_t k = 0; k < rows.size(); ++k) {
+        const std::size_t i = rows[k];
+        const double p = periods.values[i];
+        index.period_of_row[i] = static_cast<std::int32_t>(
+            std::lower_bound(index.grid.begin(), index.grid.end(), p) - index.grid.begin());
+        if (k > 0) {
+            const std::size_t prev = rows[k - 1];
+            if (index.unit_of_row[prev] == index.unit_of_row[i] && periods.values[prev] == p) {
+                ++duplicates;
+                if (reject_duplicates)
+                    throw Error("unit \"" + index.unit_labels[static_cast<std::size_t>(index.unit_of_row[i])] +
+                                "\" has two rows for period " + format_number(p) + " (rows " +
+                                std::to_string(first_row_number + prev) + " and " +
+                                std::to_string(first_row_number + i) +
+                                "); keep one row per unit and period");
+            }
+        }
+    }
+    if (duplicate_count != nullptr) *duplicate_count = duplicates;
+    index.rows_by_unit = std::move(rows);
+    return index;
+}
+
+}  // namespace detail
+
+PanelIndex build_index(const UnitColumn& units, const Column& periods, std::size_t first_row_number) {
+    return detail::make_index(units, periods, first_row_number, true, nullptr);
+}
+
+PanelIndex build_unit_groups(const UnitColumn& units, std::size_t first_row_number) {
+    detail::check_units(units, first_row_number);
+    PanelIndex index;
+    index.first_row_number = first_row_number;
+    index.rows_by_unit = detail::group_rows(units, nullptr, index);
+    return index;
+}
+
+StructureReport describe_structure(const UnitColumn& units, const Column& periods,
+                                   std::size_t first_row_number) {
+    std::size_t duplicates = 0;
+    const PanelIndex index = detail::make_index(units, periods, first_row_number, false, &duplicates);
+    StructureReport report;
+    report.rows_input = index.n_rows;
+    report.rows = index.rows_by_unit.size();
+    report.rows_missing = report.rows_input - report.rows;
+    report.units = index.n_units();
+    report.periods = index.n_periods();
+    report.duplicate_pairs = duplicates;
+    std::vector<double> distinct_per_unit;
+    distinct_per_unit.reserve(index.n_units());
+    bool all_full = true;
+    for (std::size_t u = 0; u < index.n_units(); ++u) {
+        const std::size_t begin = index.unit_start[u], end = index.unit_start[u + 1];
+        if (end - begin == 1) ++report.single_row_units;
+        std::size_t distinct = 0;
+        std::int32_t last = -1;
+        for (std::size_t k = begin; k < end; ++k) {
+            const std::int32_t p = index.period_of_row[index.rows_by_unit[k]];
+            if (p != last) ++distinct;
+            last = p;
+        }
+        const std::int32_t first_p = index.period_of_row[index.rows_by_unit[begin]];
+        const std::int32_t last_p = index.period_of_row[index.rows_by_unit[end - 1]];
+        const std::size_t span = static_cast<std::size_t>(last_p - first_p) + 1;
+        if (span > distinct) {
+            report.gaps += span - distinct;
+            ++report.units_with_gaps;
+        }
+        if (distinct != index.n_periods()) all_full = false;
+        distinct_per_unit.push_back(static_cast<double>(distinct));
+    }
+    report.balanced = report.units > 0 && all_full && duplicates == 0;
+    if (!distinct_per_unit.empty()) {
+        std::sort(distinct_per_unit.begin(), distinct_per_unit.end());
+        const std::size_t m = distinct_per_unit.size();
+        report.min_periods = distinct_per_unit.front();
+        report.max_periods = distinct_per_unit.back();
+        report.median_periods = (m % 2 == 1) ? distinct_per_unit[m / 2]
+                                             : 0.5 * (distinct_per_unit[m / 2 - 1] + distinct_per_unit[m / 2]);
+    }
+    return report;
+}
+
+}  // namespace weft
