@@ -1,0 +1,78 @@
+// Plain C++ images of what cells deliver and what a function returns, so that
+// the functions themselves know nothing of UNO (component.cxx converts).
+#pragma once
+
+#include <cstddef>
+#include <stdexcept>
+#include <string>
+#include <vector>
+
+namespace weft_addin {
+
+// One input cell. Calc hands numbers and booleans as doubles, text as text and
+// a blank cell as an empty text; we keep blank apart from text.
+struct Cell {
+    enum class Kind : unsigned char { blank, number, text };
+    Kind kind = Kind::blank;
+    double number = 0.0;
+    std::string text;
+
+    bool is_number() const { return kind == Kind::number; }
+    bool is_text() const { return kind == Kind::text; }
+    bool is_blank() const { return kind == Kind::blank; }
+};
+
+// A rectangular range, row-major.
+struct Table {
+    std::size_t rows = 0;        // rows kept (trailing empty rows trimmed)
+    std::size_t cols = 0;
+    std::size_t given_rows = 0;  // rows as the sheet passed them, for size checks
+    std::vector<Cell> cells;
+
+    const Cell& at(std::size_t r, std::size_t c) const { return cells[r * cols + c]; }
+};
+
+// An optional scalar-or-range argument: given == false when it was omitted.
+struct Arg {
+    bool given = false;
+    Table table;  // a scalar arrives as a 1 x 1 table
+
+    bool is_scalar() const { return given && table.rows == 1 && table.cols == 1; }
+    // The scalar cell, or a blank cell when omitted.
+    const Cell& scalar() const;
+};
+
+// One result cell: blank (returned as an empty text), a number or a text.
+struct OutCell {
+    enum class Kind : unsigned char { blank, number, text };
+    Kind kind = Kind::blank;
+    double number = 0.0;
+    std::string text;
+};
+
+struct OutTable {
+    std::size_t rows = 0;
+    std::size_t cols = 0;
+    std::vector<OutCell> cells;
+
+    OutTable() = default;
+    OutTable(std::size_t r, std::size_t c) : rows(r), cols(c), cells(r * c) {}
+    void set(std::size_t r, std::size_t c, double v);
+    void set(std::size_t r, std::size_t c, std::string v);
+    // A number, or a blank when v is not finite (never a silent NaN in a cell).
+    void set_number_or_blank(std::size_t r, std::size_t c, double v);
+};
+
+// A failure the user can fix; what() is the full cell text and starts "weft: ".
+class UserError : public std::runtime_error {
+public:
+    explicit UserError(const std::string& message_after_prefix);
+    // For a message that already carries the prefix (weft_last_error's text).
+    struct FullText {};
+    UserError(FullText, const std::string& full_text);
+};
+
+// A one-cell result holding a message.
+OutTable message_table(const std::string& text);
+
+}  // namespace weft_addin

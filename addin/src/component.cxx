@@ -1,0 +1,435 @@
+// The UNO component that Calc sees: XCalcFunctions (the cell functions), XAddIn
+// (function-wizard texts), XServiceName (the name stored in files) and
+// XServiceInfo. Every method converts the cells to plain tables, calls
+// functions.cxx and converts back, and catches everything: nothing may escape
+// into the office, and only a returned text reaches the user.
+
+#include "cells.hpp"
+#include "functions.hpp"
+#include "texts.hpp"
+
+#include <org/weft/XCalcFunctions.hpp>
+
+#include <com/sun/star/lang/Locale.hpp>
+#include <com/sun/star/lang/XServiceInfo.hpp>
+#include <com/sun/star/lang/XServiceName.hpp>
+#include <com/sun/star/sheet/XAddIn.hpp>
+#include <com/sun/star/uno/XComponentContext.hpp>
+#include <cppuhelper/implbase4.hxx>
+#include <cppuhelper/supportsservice.hxx>
+#include <rtl/ustring.hxx>
+#include <sal/types.h>
+
+#include <exception>
+#include <new>
+#include <string>
+#include <vector>
+
+namespace css = com::sun::star;
+using css::uno::Any;
+using css::uno::Sequence;
+using rtl::OUString;
+
+namespace weft_addin {
+
+namespace {
+
+// File-format contract: formulas are stored as this service name plus the
+// method name (ORG.WEFT.CALCFUNCTIONS.ESTIMATES). Never change it.
+const char* const service_name = "org.weft.CalcFunctions";
+const char* const implementation_name = "org.weft.CalcFunctions";
+const char* const addin_service = "com.sun.star.sheet.AddIn";
+
+using AnyRows = Sequence<Sequence<Any>>;
+
+OUString to_ou(const std::string& s) {
+    return OUString(s.data(), static_cast<sal_Int32>(s.size()), RTL_TEXTENCODING_UTF8);
+}
+
+OUString to_ou(const char* s) { return OUString::createFromAscii(s); }
+
+std::string to_utf8(const OUString& s) {
+    const rtl::OString o = rtl::OUStringToOString(s, RTL_TEXTENCODING_UTF8);
+    return std::string(o.getStr(), static_cast<std::size_t>(o.getLength()));
+}
+
+// A blank cell arrives as an empty text (or void for an omitted argument).
+bool is_blank(const Any& a) {
+    switch (a.getValueTypeClass()) {
+    case css::uno::TypeClass_VOID:
+        return true;
+    case css::uno::TypeClass_STRING:
+        return static_cast<const OUString*>(a.getValue())->isEmpty();
+    default:
+        return false;
+    }
+}
+
+Cell to_cell(const Any& a) {
+    Cell c;
+    switch (a.getValueTypeClass()) {
+    case css::uno::TypeClass_DOUBLE:
+    case css::uno::TypeClass_FLOAT:
+    case css::uno::TypeClass_LONG:
+    case css::uno::TypeClass_SHORT:
+    case css::uno::TypeClass_HYPER:
+    case css::uno::TypeClass_BYTE:
+    case css::uno::TypeClass_UNSIGNED_LONG:
+    case css::uno::TypeClass_UNSIGNED_SHORT:
+    case css::uno::TypeClass_UNSIGNED_HYPER: {
+        double v = 0.0;
+        if (a >>= v) {
+            c.kind = Cell::Kind::number;
+            c.number = v;
+        }
+        break;
+    }
+    case css::uno::TypeClass_BOOLEAN: {
+        bool b = false;
+        a >>= b;
+        c.kind = Cell::Kind::number;
+        c.number = b ? 1.0 : 0.0;
+        break;
+    }
+    case css::uno::TypeClass_STRING: {
+        OUString s;
+        a >>= s;
+        if (!s.isEmpty()) {
+            c.kind = Cell::Kind::text;
+            c.text = to_utf8(s);
+        }
+        break;
+    }
+    default:
+        break;  // nothing else comes from cells; treat it as blank
+    }
+    return c;
+}
+
+// Rows up to and including the last row that holds a non-blank cell. A
+// whole-column reference passes all 1,048,576 rows; scanning from the bottom
+// stops at the data, so the cost is the blank tail, not a conversion of it.
+std::size_t used_rows(const AnyRows& rows) {
+    for (sal_Int32 r = rows.getLength(); r > 0; --r) {
+        const Sequence<Any>& row = rows[r - 1];
+        for (sal_Int32 c = 0; c < row.getLength(); ++c)
+            if (!is_blank(row[c])) return static_cast<std::size_t>(r);
+    }
+    return 0;
+}
+
+Table to_table(const AnyRows& rows, std::size_t keep) {
+    Table t;
+    t.given_rows = static_cast<std::size_t>(rows.getLength());
+    t.rows = keep;
+    for (std::size_t r = 0; r < keep; ++r)
+        t.cols = std::max(t.cols, static_cast<std::size_t>(rows[static_cast<sal_Int32>(r)].getLength()));
+    if (keep == 0 && rows.getLength() > 0) t.cols = static_cast<std::size_t>(rows[0].getLength());
+    t.cells.resize(t.rows * t.cols);
+    for (std::size_t r = 0; r < keep; ++r) {
+        const Sequence<Any>& row = rows[static_cast<sal_Int32>(r)];
+        for (sal_Int32 c = 0; c < row.getLength(); ++c)
+            t.cells[r * t.cols + static_cast<std::size_t>(c)] = to_cell(row[c]);
+    }
+    return t;
+}
+
+// Convert ranges that must line up row by row. Trailing rows blank in every
+// range are dropped together, so a blank outcome at the bottom is still a
+// dropped row when other ranges have data there.
+std::vector<Table> to_tables(std::initializer_list<const AnyRows*> ranges) {
+    bool same = true;
+    std::size_t keep = 0;
+    for (const AnyRows* r : ranges) {
+        if (r->getLength() != (*ranges.begin())->getLength()) same = false;
+        keep = std::max(keep, used_rows(*r));
+    }
+    std::vector<Table> out;
+    for (const AnyRows* r : ranges) out.push_back(to_table(*r, same ? keep : used_rows(*r)));
+    return out;
+}
+
+Arg to_arg(const Any& a) {
+    Arg arg;
+    if (a.getValueTypeClass() == css::uno::TypeClass_VOID) return arg;
+    arg.given = true;
+    AnyRows rows;
+    if (a >>= rows) {
+        arg.table = to_table(rows, used_rows(rows));
+        if (arg.table.rows == 0) {  // a blank range: same as a blank cell
+            arg.table.rows = arg.table.cols = 1;
+            arg.table.cells.assign(1, Cell());
+        }
+    } else {
+        arg.table.rows = arg.table.cols = arg.table.given_rows = 1;
+        arg.table.cells.push_back(to_cell(a));
+    }
+    return arg;
+}
+
+Any to_any(const OutCell& c) {
+    switch (c.kind) {
+    case OutCell::Kind::number:
+        return Any(c.number);
+    case OutCell::Kind::text:
+        return Any(to_ou(c.text));
+    default:
+        return Any(OUString());
+    }
+}
+
+AnyRows to_rows(const OutTable& t) {
+    if (t.rows == 0 || t.cols == 0) return to_rows(message_table(""));
+    AnyRows rows(static_cast<sal_Int32>(t.rows));
+    Sequence<Any>* out = rows.getArray();
+    for (std::size_t r = 0; r < t.rows; ++r) {
+        Sequence<Any> row(static_cast<sal_Int32>(t.cols));
+        Any* cells = row.getArray();
+        for (std::size_t c = 0; c < t.cols; ++c) cells[c] = to_any(t.cells[r * t.cols + c]);
+        out[r] = row;
+    }
+    return rows;
+}
+
+// The one catch-all boundary: returns the text for any failure, never throws.
+template <class F>
+std::string guarded(F&& body) noexcept {
+    try {
+        body();
+        return std::string();
+    } catch (const UserError& e) {
+        return e.what();
+    } catch (const std::bad_alloc&) {
+        return "weft: out of memory; use smaller ranges or close other documents";
+    } catch (const css::uno::Exception& e) {
+        try {
+            return "weft: internal error in the add-in (" + to_utf8(e.Message) +
+                   "); please report it with the workbook";
+        } catch (...) {
+            return "weft: internal error in the add-in; please report it with the workbook";
+        }
+    } catch (const std::exception& e) {
+        try {
+            return std::string("weft: internal error in the add-in (") + e.what() +
+                   "); please report it with the workbook";
+        } catch (...) {
+            return "weft: internal error in the add-in; please report it with the workbook";
+        }
+    } catch (...) {
+        return "weft: internal error in the add-in; please report it with the workbook";
+    }
+}
+
+// Runs a table-valued function; a failure becomes a one-cell text result.
+template <class F>
+AnyRows table_result(F&& compute) {
+    AnyRows result;
+    const std::string error = guarded([&] { result = to_rows(compute()); });
+    if (!error.empty()) {
+        try {
+            return to_rows(message_table(error));
+        } catch (...) {
+            return AnyRows();
+        }
+    }
+    return result;
+}
+
+class CalcFunctions
+    : public cppu::WeakImplHelper4<org::weft::XCalcFunctions, css::sheet::XAddIn,
+                                   css::lang::XServiceName, css::lang::XServiceInfo> {
+public:
+    CalcFunctions() = default;
+
+    // ---- XCalcFunctions ------------------------------------------------------
+    AnyRows SAL_CALL estimates(const AnyRows& y, const AnyRows& x, const AnyRows& u,
+                               const AnyRows& t, const Any& model) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
+            return fn_estimates({r[0], r[1], r[2], r[3]}, to_arg(model));
+        });
+    }
+    AnyRows SAL_CALL summary(const AnyRows& y, const AnyRows& x, const AnyRows& u,
+                             const AnyRows& t, const Any& model) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
+            return fn_summary({r[0], r[1], r[2], r[3]}, to_arg(model));
+        });
+    }
+    Any SAL_CALL value(const AnyRows& y, const AnyRows& x, const AnyRows& u, const AnyRows& t,
+                       const Any& model, const Any& what, const Any& term) override {
+        Any result;
+        const std::string error = guarded([&] {
+            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
+            result = to_any(fn_value({r[0], r[1], r[2], r[3]}, to_arg(model), to_arg(what),
+                                     to_arg(term)));
+        });
+        if (!error.empty()) {
+            try {
+                return Any(to_ou(error));
+            } catch (...) {
+                return Any();
+            }
+        }
+        return result;
+    }
+    AnyRows SAL_CALL residuals(const AnyRows& y, const AnyRows& x, const AnyRows& u,
+                               const AnyRows& t, const Any& model) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
+            return fn_residuals({r[0], r[1], r[2], r[3]}, to_arg(model));
+        });
+    }
+    AnyRows SAL_CALL fitted(const AnyRows& y, const AnyRows& x, const AnyRows& u,
+                            const AnyRows& t, const Any& model) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
+            return fn_fitted({r[0], r[1], r[2], r[3]}, to_arg(model));
+        });
+    }
+    AnyRows SAL_CALL joint(const AnyRows& y, const AnyRows& x, const AnyRows& u,
+                           const AnyRows& t, const Any& model, const Any& terms) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
+            return fn_joint({r[0], r[1], r[2], r[3]}, to_arg(model), to_arg(terms));
+        });
+    }
+    AnyRows SAL_CALL hetero(const AnyRows& y, const AnyRows& x, const AnyRows& u,
+                            const AnyRows& t, const Any& model, const Any& form) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
+            return fn_hetero({r[0], r[1], r[2], r[3]}, to_arg(model), to_arg(form));
+        });
+    }
+    AnyRows SAL_CALL serial(const AnyRows& y, const AnyRows& x, const AnyRows& u,
+                            const AnyRows& t, const Any& model) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
+            return fn_serial({r[0], r[1], r[2], r[3]}, to_arg(model));
+        });
+    }
+    AnyRows SAL_CALL hausman(const AnyRows& y, const AnyRows& x, const AnyRows& u,
+                             const AnyRows& t, const Any& model) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
+            return fn_hausman({r[0], r[1], r[2], r[3]}, to_arg(model));
+        });
+    }
+    AnyRows SAL_CALL effects(const AnyRows& y, const AnyRows& x, const AnyRows& u,
+                             const AnyRows& t, const Any& model) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
+            return fn_effects({r[0], r[1], r[2], r[3]}, to_arg(model));
+        });
+    }
+    AnyRows SAL_CALL diff(const AnyRows& v, const AnyRows& u, const AnyRows& t,
+                          const Any& k) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&v, &u, &t});
+            return fn_diff(r[0], r[1], r[2], to_arg(k));
+        });
+    }
+    AnyRows SAL_CALL lag(const AnyRows& v, const AnyRows& u, const AnyRows& t,
+                         const Any& k) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&v, &u, &t});
+            return fn_lag(r[0], r[1], r[2], to_arg(k));
+        });
+    }
+    AnyRows SAL_CALL demean(const AnyRows& v, const AnyRows& u) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&v, &u});
+            return fn_demean(r[0], r[1]);
+        });
+    }
+    AnyRows SAL_CALL dummies(const AnyRows& t, const Any& omit_first) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&t});
+            return fn_dummies(r[0], to_arg(omit_first));
+        });
+    }
+    AnyRows SAL_CALL panel(const AnyRows& u, const AnyRows& t) override {
+        return table_result([&] {
+            const std::vector<Table> r = to_tables({&u, &t});
+            return fn_panel(r[0], r[1]);
+        });
+    }
+    OUString SAL_CALL version() override {
+        std::string text;
+        const std::string error = guarded([&] { text = fn_version(); });
+        try {
+            return to_ou(error.empty() ? text : error);
+        } catch (...) {
+            return OUString();
+        }
+    }
+
+    // ---- XAddIn ----------------------------------------------------------------
+    // (The misspelling is the interface's own.)
+    OUString SAL_CALL getProgrammaticFuntionName(const OUString& display) override {
+        const FunctionText* f = find_by_display(to_utf8(display));
+        return f ? to_ou(f->method) : OUString();
+    }
+    OUString SAL_CALL getDisplayFunctionName(const OUString& method) override {
+        const FunctionText* f = find_by_method(to_utf8(method));
+        return f ? to_ou(f->display) : OUString();
+    }
+    OUString SAL_CALL getFunctionDescription(const OUString& method) override {
+        const FunctionText* f = find_by_method(to_utf8(method));
+        return f ? to_ou(f->description) : OUString();
+    }
+    OUString SAL_CALL getDisplayArgumentName(const OUString& method, sal_Int32 index) override {
+        const ArgumentText* a = argument(method, index);
+        return a ? to_ou(a->name) : OUString();
+    }
+    OUString SAL_CALL getArgumentDescription(const OUString& method, sal_Int32 index) override {
+        const ArgumentText* a = argument(method, index);
+        return a ? to_ou(a->description) : OUString();
+    }
+    OUString SAL_CALL getProgrammaticCategoryName(const OUString&) override {
+        return to_ou(programmatic_category);
+    }
+    OUString SAL_CALL getDisplayCategoryName(const OUString&) override {
+        return to_ou(display_category);
+    }
+
+    // ---- XLocalizable (through XAddIn): the texts are English only ------------
+    void SAL_CALL setLocale(const css::lang::Locale& locale) override { locale_ = locale; }
+    css::lang::Locale SAL_CALL getLocale() override { return locale_; }
+
+    // ---- XServiceName, XServiceInfo ------------------------------------------
+    OUString SAL_CALL getServiceName() override { return to_ou(service_name); }
+    OUString SAL_CALL getImplementationName() override { return to_ou(implementation_name); }
+    sal_Bool SAL_CALL supportsService(const OUString& name) override {
+        return cppu::supportsService(this, name);
+    }
+    Sequence<OUString> SAL_CALL getSupportedServiceNames() override {
+        Sequence<OUString> names(2);
+        names.getArray()[0] = to_ou(service_name);
+        names.getArray()[1] = to_ou(addin_service);
+        return names;
+    }
+
+private:
+    static const ArgumentText* argument(const OUString& method, sal_Int32 index) {
+        const FunctionText* f = find_by_method(to_utf8(method));
+        if (f == nullptr || index < 0 || static_cast<std::size_t>(index) >= f->arguments.size())
+            return nullptr;
+        return &f->arguments[static_cast<std::size_t>(index)];
+    }
+
+    css::lang::Locale locale_;
+};
+
+}  // namespace
+}  // namespace weft_addin
+
+// Constructor named in weft.components; the office calls it to make the add-in.
+extern "C" SAL_DLLPUBLIC_EXPORT css::uno::XInterface* org_weft_CalcFunctions_get_implementation(
+    css::uno::XComponentContext*, const css::uno::Sequence<css::uno::Any>&) {
+    try {
+        return cppu::acquire(new weft_addin::CalcFunctions());
+    } catch (...) {
+        return nullptr;
+    }
+}

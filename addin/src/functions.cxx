@@ -1,0 +1,847 @@
+#include "functions.hpp"
+
+#include "cache.hpp"
+
+#include <weft.h>
+
+#include <algorithm>
+#include <cctype>
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <limits>
+#include <memory>
+#include <mutex>
+#include <string>
+#include <vector>
+
+namespace weft_addin {
+
+namespace {
+
+// ---------------------------------------------------------------- small helpers
+
+[[noreturn]] void fail(const std::string& message_after_prefix) {
+    throw UserError(message_after_prefix);
+}
+
+// Turn a failed weft call into a UserError carrying weft's own message.
+void check(int status) {
+    if (status != WEFT_OK) throw UserError(UserError::FullText{}, weft_last_error());
+}
+
+std::string format_number(double v) {
+    char buf[64];
+    if (std::isfinite(v) && v == std::floor(v) && std::fabs(v) < 1e15)
+        std::snprintf(buf, sizeof buf, "%.0f", v);
+    else
+        std::snprintf(buf, sizeof buf, "%.15g", v);
+    return buf;
+}
+
+std::string lower(std::string s) {
+    for (char& c : s) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+    return s;
+}
+
+std::string trim(const std::string& s) {
+    std::size_t b = 0, e = s.size();
+    while (b < e && std::isspace(static_cast<unsigned char>(s[b]))) ++b;
+    while (e > b && std::isspace(static_cast<unsigned char>(s[e - 1]))) --e;
+    return s.substr(b, e - b);
+}
+
+std::string quoted(const std::string& s) { return "\"" + s + "\""; }
+
+// The text of a header cell: its text, a number written out, or "" for a blank.
+std::string header_text(const Cell& c) {
+    if (c.is_text()) return trim(c.text);
+    if (c.is_number()) return format_number(c.number);
+    return "";
+}
+
+struct PanelDeleter {
+    void operator()(weft_panel* p) const { weft_panel_free(p); }
+};
+struct ModelDeleter {
+    void operator()(weft_model* m) const { weft_model_free(m); }
+};
+using PanelPtr = std::unique_ptr<weft_panel, PanelDeleter>;
+using ModelPtr = std::unique_ptr<weft_model, ModelDeleter>;
+
+// ------------------------------------------------------------- reading columns
+
+struct NumericColumn {
+    std::vector<double> values;
+    std::vector<unsigned char> missing;
+};
+
+struct UnitColumn {
+    bool text = false;
+    std::vector<std::string> ids;  // when text
+    std::vector<double> numbers;   // when numbers
+    std::vector<unsigned char> missing;
+};
+
+// Rows start..end-1 of column c; anything but a number (blank, text) is missing.
+NumericColumn read_numbers(const Table& t, std::size_t c, std::size_t start, std::size_t end) {
+    NumericColumn col;
+    const std::size_t n = end - start;
+    col.values.assign(n, 0.0);
+    col.missing.assign(n, 1);
+    for (std::size_t i = 0; i < n; ++i) {
+        const Cell& cell = t.at(start + i, c);
+        if (cell.is_number()) {
+            col.values[i] = cell.number;
+            col.missing[i] = 0;
+        }
+    }
+    return col;
+}
+
+// Unit ids are text when any id is text (numbers are then written out, so that
+// a column mixing 7 and "North 7" still names two different units).
+UnitColumn read_units(const Table& t, std::size_t start, std::size_t end) {
+    UnitColumn col;
+    const std::size_t n = end - start;
+    for (std::size_t i = 0; i < n && !col.text; ++i)
+        if (t.at(start + i, 0).is_text()) col.text = true;
+    col.missing.assign(n, 1);
+    if (col.text) {
+        col.ids.assign(n, std::string());
+        for (std::size_t i = 0; i < n; ++i) {
+            const Cell& cell = t.at(start + i, 0);
+            if (cell.is_text()) {
+                col.ids[i] = cell.text;
+                col.missing[i] = 0;
+            } else if (cell.is_number()) {
+                col.ids[i] = format_number(cell.number);
+                col.missing[i] = 0;
+            }
+        }
+    } else {
+        col.numbers.assign(n, 0.0);
+        for (std::size_t i = 0; i < n; ++i) {
+            const Cell& cell = t.at(start + i, 0);
+            if (cell.is_number()) {
+                col.numbers[i] = cell.number;
+                col.missing[i] = 0;
+            }
+        }
+    }
+    return col;
+}
+
+void set_units(weft_panel* p, const UnitColumn& u) {
+    if (u.text) {
+        std::vector<const char*> ptrs(u.ids.size());
+        for (std::size_t i = 0; i < u.ids.size(); ++i) ptrs[i] = u.ids[i].c_str();
+        check(weft_panel_set_units_text(p, ptrs.data(), u.missing.data()));
+    } else {
+        check(weft_panel_set_units_number(p, u.numbers.data(), u.missing.data()));
+    }
+}
+
+void hash_numbers(Hasher& h, const NumericColumn& c) {
+    h.add_u64(c.values.size());
+    for (std::size_t i = 0; i < c.values.size(); ++i) {
+        h.add_u64(c.missing[i]);
+        if (!c.missing[i]) h.add_double(c.values[i]);
+    }
+}
+
+void hash_units(Hasher& h, const UnitColumn& u) {
+    h.add_u64(u.text ? 1 : 0);
+    const std::size_t n = u.missing.size();
+    for (std::size_t i = 0; i < n; ++i) {
+        h.add_u64(u.missing[i]);
+        if (u.missing[i]) continue;
+        if (u.text)
+            h.add_string(u.ids[i]);
+        else
+            h.add_double(u.numbers[i]);
+    }
+}
+
+void require_one_column(const Table& t, const char* name, const char* what) {
+    if (t.cols != 1)
+        fail(std::string(name) + " has " + std::to_string(t.cols) +
+             " columns; give one column (" + what + ")");
+}
+
+void require_same_rows(const Table& t, const char* name, const Table& ref, const char* ref_name) {
+    if (t.given_rows != ref.given_rows)
+        fail(std::string(name) + " has " + std::to_string(t.given_rows) + " rows but " + ref_name +
+             " has " + std::to_string(ref.given_rows) +
+             "; give all ranges the same rows (the same first and last row)");
+}
+
+void require_data_rows(std::size_t rows, bool header) {
+    if (rows == 0) fail("the ranges are empty; select the cells that hold the data");
+    if (header && rows == 1)
+        fail("the ranges hold only a header row; select the data rows below it too");
+}
+
+// ------------------------------------------------------------ the model input
+
+// The four model ranges read into columns, with their names and a hash that
+// identifies them for the cache.
+struct PanelInput {
+    bool header = false;
+    std::size_t n = 0;          // data rows
+    std::size_t first_row = 1;  // position of the first data row within the ranges
+    std::string outcome_name;
+    std::vector<std::string> regressor_names;
+    NumericColumn outcome;
+    std::vector<NumericColumn> regressors;
+    UnitColumn units;
+    NumericColumn periods;
+    Hash128 hash;
+};
+
+PanelInput read_panel(const PanelRanges& in) {
+    require_one_column(in.outcome, "outcome", "the dependent variable");
+    require_one_column(in.units, "units", "the unit id of each row");
+    require_one_column(in.periods, "periods", "the period of each row");
+    if (in.regressors.cols == 0) fail("regressors is empty; give one column per regressor");
+    require_same_rows(in.regressors, "regressors", in.outcome, "outcome");
+    require_same_rows(in.units, "units", in.outcome, "outcome");
+    require_same_rows(in.periods, "periods", in.outcome, "outcome");
+
+    PanelInput p;
+    const std::size_t rows = std::min({in.outcome.rows, in.regressors.rows, in.units.rows,
+                                       in.periods.rows});
+    p.header = rows > 0 && in.outcome.at(0, 0).is_text();
+    require_data_rows(rows, p.header);
+    const std::size_t start = p.header ? 1 : 0;
+    p.n = rows - start;
+    p.first_row = start + 1;
+
+    // Trimming made the four row counts equal; `rows` guards the rest.
+    const Table &outcome = in.outcome, &regressors = in.regressors, &units = in.units,
+                &periods = in.periods;
+
+    if (p.header) {
+        p.outcome_name = header_text(outcome.at(0, 0));
+        for (std::size_t c = 0; c < regressors.cols; ++c)
+            p.regressor_names.push_back(header_text(regressors.at(0, c)));
+    } else {
+        p.regressor_names.assign(regressors.cols, std::string());
+    }
+    p.outcome = read_numbers(outcome, 0, start, rows);
+    for (std::size_t c = 0; c < regressors.cols; ++c)
+        p.regressors.push_back(read_numbers(regressors, c, start, rows));
+    p.units = read_units(units, start, rows);
+    p.periods = read_numbers(periods, 0, start, rows);
+
+    Hasher h;
+    h.add_u64(p.first_row);
+    h.add_string(p.outcome_name);
+    h.add_u64(p.regressor_names.size());
+    for (const std::string& name : p.regressor_names) h.add_string(name);
+    hash_numbers(h, p.outcome);
+    for (const NumericColumn& x : p.regressors) hash_numbers(h, x);
+    hash_units(h, p.units);
+    hash_numbers(h, p.periods);
+    p.hash = h.digest();
+    return p;
+}
+
+PanelPtr make_panel(const PanelInput& in) {
+    weft_panel* raw = nullptr;
+    check(weft_panel_new(&raw, in.n, in.first_row));
+    PanelPtr p(raw);
+    set_units(p.get(), in.units);
+    check(weft_panel_set_periods(p.get(), in.periods.values.data(), in.periods.missing.data()));
+    check(weft_panel_set_outcome(p.get(), in.outcome_name.empty() ? nullptr : in.outcome_name.c_str(),
+                                 in.outcome.values.data(), in.outcome.missing.data()));
+    for (std::size_t k = 0; k < in.regressors.size(); ++k)
+        check(weft_panel_add_regressor(p.get(), in.regressor_names[k].c_str(),
+                                       in.regressors[k].values.data(),
+                                       in.regressors[k].missing.data()));
+    return p;
+}
+
+// The model text: omitted, a blank reference (which Calc passes as 0) or "" give
+// the defaults; a range of words is read as the words of its cells.
+std::string model_text(const Arg& model) {
+    if (!model.given) return "";
+    std::string text;
+    for (const Cell& c : model.table.cells) {
+        if (c.is_blank()) continue;
+        if (c.is_number()) {
+            if (c.number == 0.0 && model.is_scalar()) continue;
+            fail("model is the number " + format_number(c.number) +
+                 "; give the model as text, e.g. \"within cluster\"");
+        }
+        if (!text.empty()) text += ' ';
+        text += c.text;
+    }
+    return text;
+}
+
+// ------------------------------------------------------------------ the cache
+
+void log_line(const std::string& line) {
+    const char* path = std::getenv("WEFT_ADDIN_LOG");
+    if (path == nullptr || *path == '\0') return;
+    if (std::FILE* f = std::fopen(path, "a")) {
+        std::fputs((line + "\n").c_str(), f);
+        std::fclose(f);
+    }
+}
+
+struct PanelEntry {
+    PanelPtr panel;
+    std::string error;  // the "weft: " text when the panel was rejected
+};
+
+struct ModelEntry {
+    ModelPtr model;
+    std::string error;
+};
+
+// Calc does not call add-ins from several threads, but one handle must never be
+// used by two threads, so every function holds this lock while it uses weft.
+std::mutex cache_mutex;
+LruCache<PanelEntry> panel_cache(4);
+LruCache<ModelEntry> model_cache(8);
+
+std::shared_ptr<PanelEntry> cached_panel(const PanelInput& in) {
+    if (auto hit = panel_cache.find(in.hash)) return hit;
+    auto entry = std::make_shared<PanelEntry>();
+    try {
+        entry->panel = make_panel(in);
+    } catch (const UserError& e) {
+        entry->error = e.what();
+    }
+    panel_cache.put(in.hash, entry);
+    return entry;
+}
+
+const weft_panel* panel_or_throw(const PanelEntry& e) {
+    if (!e.error.empty()) throw UserError(UserError::FullText{}, e.error);
+    return e.panel.get();
+}
+
+// The fitted model for these ranges and model text: from the cache, or fitted now.
+// A rejected fit is cached as its message, so twenty cells over one bad input do
+// not refit twenty times either.
+std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string& text) {
+    Hasher h;
+    h.add_u64(in.hash.a);
+    h.add_u64(in.hash.b);
+    h.add_string(text);
+    const Hash128 key = h.digest();
+    if (auto hit = model_cache.find(key)) {
+        log_line("hit " + key.hex());
+        return hit;
+    }
+    auto entry = std::make_shared<ModelEntry>();
+    try {
+        const weft_panel* panel = panel_or_throw(*cached_panel(in));
+        weft_model* raw = nullptr;
+        check(weft_model_new_text(&raw, panel, text.c_str()));
+        entry->model.reset(raw);
+    } catch (const UserError& e) {
+        entry->error = e.what();
+    }
+    log_line("fit " + key.hex());
+    model_cache.put(key, entry);
+    return entry;
+}
+
+// Everything a model function needs: the input (for row alignment and names)
+// and the fitted model. Holds the lock while the model is used.
+struct Fitted {
+    std::unique_lock<std::mutex> lock{cache_mutex};
+    PanelInput input;
+    std::shared_ptr<ModelEntry> entry;
+    const weft_model* model = nullptr;
+
+    Fitted(const PanelRanges& ranges, const Arg& model_arg) {
+        input = read_panel(ranges);
+        entry = cached_model(input, model_text(model_arg));
+        if (!entry->error.empty()) throw UserError(UserError::FullText{}, entry->error);
+        model = entry->model.get();
+    }
+};
+
+// ----------------------------------------------------------- result layouts
+
+// Two columns, label and value; a value that cannot be computed (NaN) says so
+// in words rather than showing #NUM! or a blank that looks like zero.
+class LabelValue {
+public:
+    void number(const std::string& label, double v) { rows_.push_back({label, true, v, ""}); }
+    void text(const std::string& label, const std::string& v) {
+        rows_.push_back({label, false, 0.0, v});
+    }
+    OutTable table() const {
+        OutTable t(rows_.size(), 2);
+        for (std::size_t r = 0; r < rows_.size(); ++r) {
+            t.set(r, 0, rows_[r].label);
+            if (!rows_[r].is_number)
+                t.set(r, 1, rows_[r].text);
+            else if (std::isfinite(rows_[r].number))
+                t.set(r, 1, rows_[r].number);
+            else
+                t.set(r, 1, std::string("not available"));
+        }
+        return t;
+    }
+
+private:
+    struct Row {
+        std::string label;
+        bool is_number;
+        double number;
+        std::string text;
+    };
+    std::vector<Row> rows_;
+};
+
+// One column aligned to the input rows: a label in the header row (if the
+// ranges had one), then value or blank per data row.
+OutTable aligned_column(bool header, const std::string& label, const std::vector<double>& v,
+                        const std::vector<unsigned char>& none) {
+    const std::size_t start = header ? 1 : 0;
+    OutTable t(v.size() + start, 1);
+    if (header) t.set(0, 0, label);
+    for (std::size_t i = 0; i < v.size(); ++i)
+        if (!none[i]) t.set_number_or_blank(start + i, 0, v[i]);
+    return t;
+}
+
+using RowValues = int (*)(const weft_model*, double*, unsigned char*, size_t, size_t*);
+
+OutTable model_column(const PanelRanges& ranges, const Arg& model_arg, RowValues get,
+                      const char* label) {
+    Fitted f(ranges, model_arg);
+    std::vector<double> v(f.input.n);
+    std::vector<unsigned char> none(f.input.n, 1);
+    size_t needed = 0;
+    check(get(f.model, v.data(), none.data(), v.size(), &needed));
+    return aligned_column(f.input.header, label, v, none);
+}
+
+// Optional text argument: omitted, blank or a blank reference (0) give "".
+std::string optional_word(const Arg& a, const char* name, const char* example) {
+    const Cell& c = a.scalar();
+    if (!a.given || c.is_blank()) return "";
+    if (a.given && !a.is_scalar())
+        fail(std::string(name) + " is a range of several cells; give one word, e.g. " + example);
+    if (c.is_number()) {
+        if (c.number == 0.0) return "";
+        fail(std::string(name) + " is the number " + format_number(c.number) +
+             "; give a word, e.g. " + example);
+    }
+    return trim(c.text);
+}
+
+weft_options parse_options(const std::string& text) {
+    weft_options o = WEFT_OPTIONS_INIT;
+    check(weft_options_parse(&o, text.c_str()));
+    return o;
+}
+
+// Whole number argument k of DIFF and LAG.
+int integer_arg(const Arg& a, const char* name, int fallback) {
+    if (!a.given) return fallback;
+    if (!a.is_scalar()) fail(std::string(name) + " is a range; give one whole number");
+    const Cell& c = a.scalar();
+    if (c.is_blank()) return fallback;
+    if (c.is_text()) {
+        char* end = nullptr;
+        const std::string s = trim(c.text);
+        const double v = std::strtod(s.c_str(), &end);
+        if (s.empty() || end == nullptr || *end != '\0')
+            fail(std::string(name) + " is the text " + quoted(c.text) + "; give a whole number, e.g. 1");
+        Cell n;
+        n.kind = Cell::Kind::number;
+        n.number = v;
+        Arg again;
+        again.given = true;
+        again.table.rows = again.table.cols = 1;
+        again.table.cells.push_back(n);
+        return integer_arg(again, name, fallback);
+    }
+    if (c.number != std::floor(c.number) || std::fabs(c.number) > 1e6)
+        fail(std::string(name) + " is " + format_number(c.number) +
+             "; give a whole number of periods, e.g. 1");
+    return static_cast<int>(c.number);
+}
+
+// ------------------------------------------------------ transforms' input
+
+struct TransformInput {
+    bool header = false;
+    std::size_t n = 0;
+    std::size_t first_row = 1;
+    std::string values_name;
+    NumericColumn values;
+};
+
+// The header rule of the helper functions: row 1 is a header when the first cell
+// of the column that must be numeric (values, or periods) is text.
+std::size_t common_rows(std::initializer_list<const Table*> tables) {
+    std::size_t rows = std::numeric_limits<std::size_t>::max();
+    for (const Table* t : tables) rows = std::min(rows, t->rows);
+    return rows;
+}
+
+PanelPtr transform_panel(std::size_t start, std::size_t end, const Table* units,
+                         const Table* periods) {
+    weft_panel* raw = nullptr;
+    check(weft_panel_new(&raw, end - start, start + 1));
+    PanelPtr p(raw);
+    if (units != nullptr) set_units(p.get(), read_units(*units, start, end));
+    if (periods != nullptr) {
+        NumericColumn t = read_numbers(*periods, 0, start, end);
+        check(weft_panel_set_periods(p.get(), t.values.data(), t.missing.data()));
+    }
+    return p;
+}
+
+using Transform = int (*)(const weft_panel*, const double*, const unsigned char*, int, double*,
+                          unsigned char*, size_t);
+
+OutTable run_transform(const Table& values_in, const Table& units_in, const Table* periods_in,
+                       int k, bool use_k, const std::string& label_prefix) {
+    require_one_column(values_in, "values", "the numbers to transform");
+    require_one_column(units_in, "units", "the unit id of each row");
+    require_same_rows(units_in, "units", values_in, "values");
+    if (periods_in != nullptr) {
+        require_one_column(*periods_in, "periods", "the period of each row");
+        require_same_rows(*periods_in, "periods", values_in, "values");
+    }
+    const std::size_t rows = periods_in != nullptr
+                                 ? common_rows({&values_in, &units_in, periods_in})
+                                 : common_rows({&values_in, &units_in});
+    const Table &values = values_in, &units = units_in;
+    const bool header = rows > 0 && values.at(0, 0).is_text();
+    require_data_rows(rows, header);
+    const std::size_t start = header ? 1 : 0;
+    const std::size_t n = rows - start;
+
+    std::unique_lock<std::mutex> lock(cache_mutex);
+    PanelPtr p = transform_panel(start, rows, &units, periods_in);
+    NumericColumn v = read_numbers(values, 0, start, rows);
+    std::vector<double> out(n);
+    std::vector<unsigned char> none(n, 1);
+    if (use_k) {
+        const Transform f = label_prefix.rfind("diff", 0) == 0 ? weft_panel_diff : weft_panel_lag;
+        check(f(p.get(), v.values.data(), v.missing.data(), k, out.data(), none.data(), n));
+    } else {
+        check(weft_panel_demean(p.get(), v.values.data(), v.missing.data(), out.data(),
+                                none.data(), n));
+    }
+    const std::string name = header ? header_text(values.at(0, 0)) : std::string();
+    return aligned_column(header, label_prefix + " " + name, out, none);
+}
+
+}  // namespace
+
+// =================================================================== functions
+
+OutTable fn_estimates(const PanelRanges& in, const Arg& model) {
+    Fitted f(in, model);
+    size_t n_terms = 0, n_dropped = 0;
+    check(weft_model_term_count(f.model, &n_terms));
+    check(weft_model_dropped_count(f.model, &n_dropped));
+    std::vector<double> coef(n_terms * WEFT_COEF_COLUMNS);
+    size_t needed = 0;
+    check(weft_model_coefficients(f.model, coef.data(), coef.size(), &needed));
+
+    OutTable t(1 + n_terms + n_dropped, 1 + WEFT_COEF_COLUMNS);
+    const char* headers[] = {"term", "estimate", "std error", "t", "p-value", "ci low", "ci high"};
+    for (std::size_t c = 0; c < 7; ++c) t.set(0, c, std::string(headers[c]));
+    for (std::size_t r = 0; r < n_terms; ++r) {
+        const char* name = nullptr;
+        check(weft_model_term_name(f.model, r, &name));
+        t.set(1 + r, 0, std::string(name));
+        for (std::size_t c = 0; c < WEFT_COEF_COLUMNS; ++c) {
+            const double v = coef[r * WEFT_COEF_COLUMNS + c];
+            if (std::isfinite(v))
+                t.set(1 + r, 1 + c, v);
+            else
+                t.set(1 + r, 1 + c, std::string("not available"));
+        }
+    }
+    // Dropped terms are listed, never printed as numbers, so nobody wonders
+    // where a regressor went.
+    for (std::size_t d = 0; d < n_dropped; ++d) {
+        const char* term = nullptr;
+        const char* reason = nullptr;
+        check(weft_model_dropped(f.model, d, &term, &reason));
+        t.set(1 + n_terms + d, 0, std::string(term ? term : ""));
+        t.set(1 + n_terms + d, 1, std::string("dropped: ") + (reason ? reason : ""));
+    }
+    return t;
+}
+
+OutTable fn_summary(const PanelRanges& in, const Arg& model) {
+    Fitted f(in, model);
+    size_t n_items = 0;
+    check(weft_model_summary_count(f.model, &n_items));
+    LabelValue lv;
+    for (std::size_t i = 0; i < n_items; ++i) {
+        weft_summary_item item;
+        check(weft_model_summary_item(f.model, i, &item));
+        const std::string label = item.label ? item.label : "";
+        if (item.kind == WEFT_ITEM_NUMBER)
+            lv.number(label, item.number);
+        else
+            lv.text(label, item.text ? item.text : "");
+    }
+    return lv.table();
+}
+
+OutCell fn_value(const PanelRanges& in, const Arg& model, const Arg& what_arg, const Arg& term_arg) {
+    const std::string what = lower(optional_word(what_arg, "what", "\"estimate\""));
+    if (what.empty())
+        fail("WEFT.VALUE needs what: one of estimate, se, t, p, ci-low, ci-high (with a term), "
+             "n, units, periods, r2, r2-within, r2-between, r2-overall, sigma, df, f, f-df1, "
+             "f-df2, f-p, clusters, rows-dropped");
+    std::string term;
+    if (term_arg.given && !term_arg.is_scalar())
+        fail("term is a range of several cells; give one term name, e.g. \"intercept\"");
+    const Cell& tc = term_arg.scalar();
+    if (tc.is_text()) term = trim(tc.text);
+    else if (tc.is_number() && term_arg.given) term = format_number(tc.number);
+
+    Fitted f(in, model);
+    double v = std::numeric_limits<double>::quiet_NaN();
+    check(weft_model_value(f.model, what.c_str(), term.empty() ? nullptr : term.c_str(), &v));
+    OutCell out;
+    if (std::isfinite(v)) {
+        out.kind = OutCell::Kind::number;
+        out.number = v;
+    } else {
+        weft_options o = WEFT_OPTIONS_INIT;
+        check(weft_model_options(f.model, &o));
+        static const char* const names[] = {"pooled", "fd", "within", "random", "between"};
+        const char* est = (o.estimator >= 0 && o.estimator <= 4) ? names[o.estimator] : "this";
+        out.kind = OutCell::Kind::text;
+        out.text = "weft: " + what + " is not available for the " + est +
+                   " model; use WEFT.SUMMARY to see what this model reports";
+    }
+    return out;
+}
+
+OutTable fn_residuals(const PanelRanges& in, const Arg& model) {
+    return model_column(in, model, weft_model_residuals, "residual");
+}
+
+OutTable fn_fitted(const PanelRanges& in, const Arg& model) {
+    return model_column(in, model, weft_model_fitted, "fitted");
+}
+
+OutTable fn_joint(const PanelRanges& in, const Arg& model, const Arg& terms) {
+    // Collect the names first, so a bad terms argument is reported before a fit.
+    std::vector<std::string> names;
+    bool single_list = false;
+    if (terms.given) {
+        for (const Cell& c : terms.table.cells) {
+            if (c.is_text() && !trim(c.text).empty()) names.push_back(trim(c.text));
+            else if (c.is_number() && !(terms.is_scalar() && c.number == 0.0))
+                names.push_back(format_number(c.number));
+        }
+        single_list = terms.is_scalar();
+    }
+    if (names.empty())
+        fail("WEFT.JOINT needs terms: the terms to test, as a text such as \"value, capital\" or "
+             "a range of term names");
+
+    Fitted f(in, model);
+    weft_wald_result r;
+    if (single_list) {
+        check(weft_test_joint_list(f.model, names[0].c_str(), &r));
+    } else {
+        std::vector<const char*> ptrs;
+        for (const std::string& s : names) ptrs.push_back(s.c_str());
+        check(weft_test_joint(f.model, ptrs.data(), ptrs.size(), &r));
+    }
+    LabelValue lv;
+    lv.number("F", r.f);
+    lv.number("F df1", r.f_df1);
+    lv.number("F df2", r.f_df2);
+    lv.number("F p-value", r.f_p);
+    lv.number("chi-square", r.chi2);
+    lv.number("chi-square df", r.chi2_df);
+    lv.number("chi-square p-value", r.chi2_p);
+    return lv.table();
+}
+
+OutTable fn_hetero(const PanelRanges& in, const Arg& model, const Arg& form_arg) {
+    const std::string word = lower(optional_word(form_arg, "form", "\"koenker\""));
+    int form = WEFT_HETERO_KOENKER;
+    check(weft_hetero_form_parse(word.c_str(), &form));
+    Fitted f(in, model);
+    weft_hetero_result r;
+    check(weft_test_hetero(f.model, form, &r));
+    LabelValue lv;
+    lv.number("LM", r.lm);
+    lv.number("LM df", r.lm_df);
+    lv.number("LM p-value", r.lm_p);
+    lv.number("F", r.f);
+    lv.number("F df1", r.f_df1);
+    lv.number("F df2", r.f_df2);
+    lv.number("F p-value", r.f_p);
+    return lv.table();
+}
+
+OutTable fn_serial(const PanelRanges& in, const Arg& model) {
+    Fitted f(in, model);
+    weft_serial_result r;
+    check(weft_test_serial(f.model, &r));
+    LabelValue lv;
+    lv.number("AR(1) slope", r.slope);
+    lv.number("std error", r.se);
+    lv.number("t", r.t);
+    lv.number("p-value", r.p);
+    lv.number("df", r.df);
+    lv.number("pairs", r.pairs);
+    lv.number("level errors: slope if uncorrelated", r.level_null);
+    lv.number("level errors: cluster std error", r.level_se);
+    lv.number("level errors: F", r.level_f);
+    lv.number("level errors: F df1", r.level_df1);
+    lv.number("level errors: F df2", r.level_df2);
+    lv.number("level errors: F p-value", r.level_p);
+    return lv.table();
+}
+
+OutTable fn_hausman(const PanelRanges& in, const Arg& model) {
+    std::unique_lock<std::mutex> lock(cache_mutex);
+    const PanelInput input = read_panel(in);
+    const weft_options o = parse_options(model_text(model));
+    const weft_panel* panel = panel_or_throw(*cached_panel(input));
+    weft_hausman_result r;
+    check(weft_test_hausman(panel, &o, &r));
+    LabelValue lv;
+    lv.number("statistic", r.statistic);
+    lv.number("df", r.df);
+    lv.number("p-value", r.p);
+    lv.number("rank of variance difference", r.rank);
+    lv.text("variance difference positive definite", r.positive_definite ? "yes" : "no");
+    lv.number("robust F", r.robust.f);
+    lv.number("robust F df1", r.robust.f_df1);
+    lv.number("robust F df2", r.robust.f_df2);
+    lv.number("robust F p-value", r.robust.f_p);
+    lv.number("robust chi-square", r.robust.chi2);
+    lv.number("robust chi-square df", r.robust.chi2_df);
+    lv.number("robust chi-square p-value", r.robust.chi2_p);
+    return lv.table();
+}
+
+OutTable fn_effects(const PanelRanges& in, const Arg& model) {
+    std::unique_lock<std::mutex> lock(cache_mutex);
+    const PanelInput input = read_panel(in);
+    const weft_options o = parse_options(model_text(model));
+    const weft_panel* panel = panel_or_throw(*cached_panel(input));
+    weft_effects_result r;
+    check(weft_test_effects(panel, &o, &r));
+    LabelValue lv;
+    lv.number("F", r.f);
+    lv.number("df1", r.df1);
+    lv.number("df2", r.df2);
+    lv.number("p-value", r.p);
+    return lv.table();
+}
+
+OutTable fn_diff(const Table& values, const Table& units, const Table& periods, const Arg& k) {
+    const int steps = integer_arg(k, "k", 1);
+    return run_transform(values, units, &periods, steps, true, "diff");
+}
+
+OutTable fn_lag(const Table& values, const Table& units, const Table& periods, const Arg& k) {
+    const int steps = integer_arg(k, "k", 1);
+    return run_transform(values, units, &periods, steps, true, "lag " + std::to_string(steps));
+}
+
+OutTable fn_demean(const Table& values, const Table& units) {
+    return run_transform(values, units, nullptr, 0, false, "demeaned");
+}
+
+OutTable fn_dummies(const Table& periods_in, const Arg& omit_first) {
+    require_one_column(periods_in, "periods", "the period of each row");
+    int omit = 0;
+    if (omit_first.given) {
+        if (!omit_first.is_scalar()) fail("omit_first is a range; give TRUE, FALSE, 1 or 0");
+        const Cell& c = omit_first.scalar();
+        if (c.is_number())
+            omit = c.number != 0.0 ? 1 : 0;
+        else if (c.is_text()) {
+            const std::string w = lower(trim(c.text));
+            if (w == "true" || w == "yes") omit = 1;
+            else if (w == "false" || w == "no" || w.empty()) omit = 0;
+            else fail("omit_first is the text " + quoted(c.text) + "; give TRUE, FALSE, 1 or 0");
+        }
+    }
+    const std::size_t rows = periods_in.rows;
+    const bool header = rows > 0 && periods_in.at(0, 0).is_text();
+    require_data_rows(rows, header);
+    const std::size_t start = header ? 1 : 0;
+    const std::size_t n = rows - start;
+
+    std::unique_lock<std::mutex> lock(cache_mutex);
+    PanelPtr p = transform_panel(start, rows, nullptr, &periods_in);
+    size_t n_grid = 0;
+    check(weft_panel_period_grid(p.get(), nullptr, 0, &n_grid));
+    std::vector<double> grid(n_grid);
+    check(weft_panel_period_grid(p.get(), grid.data(), grid.size(), &n_grid));
+    size_t needed = 0;
+    check(weft_panel_dummies(p.get(), omit, nullptr, 0, &needed));
+    std::vector<double> block(needed);
+    check(weft_panel_dummies(p.get(), omit, block.data(), block.size(), &needed));
+    const std::size_t cols = n_grid - (omit ? 1 : 0);
+    if (cols == 0) fail("periods has a single period; with omit_first there is no column left");
+
+    // The header row of labels takes the place of the input's header row, so the
+    // block lines up with the data when the ranges have a header.
+    OutTable t(1 + n, cols);
+    for (std::size_t j = 0; j < cols; ++j)
+        t.set(0, j, "period " + format_number(grid[j + (omit ? 1 : 0)]));
+    for (std::size_t i = 0; i < n; ++i)
+        for (std::size_t j = 0; j < cols; ++j) t.set_number_or_blank(1 + i, j, block[i * cols + j]);
+    return t;
+}
+
+OutTable fn_panel(const Table& units_in, const Table& periods_in) {
+    require_one_column(units_in, "units", "the unit id of each row");
+    require_one_column(periods_in, "periods", "the period of each row");
+    require_same_rows(periods_in, "periods", units_in, "units");
+    const std::size_t rows = common_rows({&units_in, &periods_in});
+    const Table &units = units_in, &periods = periods_in;
+    const bool header = rows > 0 && periods.at(0, 0).is_text();
+    require_data_rows(rows, header);
+    const std::size_t start = header ? 1 : 0;
+
+    std::unique_lock<std::mutex> lock(cache_mutex);
+    PanelPtr p = transform_panel(start, rows, &units, &periods);
+    weft_structure s;
+    check(weft_panel_structure(p.get(), &s));
+    LabelValue lv;
+    lv.number("units", static_cast<double>(s.units));
+    lv.number("periods", static_cast<double>(s.periods));
+    lv.number("rows", static_cast<double>(s.rows));
+    lv.text("balanced", s.balanced ? "yes" : "no");
+    lv.number("min periods per unit", static_cast<double>(s.min_periods));
+    lv.number("median periods per unit", s.median_periods);
+    lv.number("max periods per unit", static_cast<double>(s.max_periods));
+    lv.number("gaps", static_cast<double>(s.gaps));
+    lv.number("duplicate unit-period pairs", static_cast<double>(s.duplicates));
+    lv.number("single-row units", static_cast<double>(s.single_row_units));
+    lv.number("rows without unit or period", static_cast<double>(s.rows_missing));
+    return lv.table();
+}
+
+std::string fn_version() {
+    std::string text = std::string("weft library ") + weft_version_text() + ", Calc add-in " +
+                       WEFT_ADDIN_VERSION;
+    if (weft_version_number() != WEFT_VERSION_NUMBER)
+        text += " (built against weft.h " WEFT_VERSION "; reinstall the matching add-in)";
+    return text;
+}
+
+}  // namespace weft_addin

@@ -1,0 +1,150 @@
+#include "texts.hpp"
+
+#include <algorithm>
+#include <cctype>
+
+namespace weft_addin {
+
+const char* const programmatic_category = "Add-In";
+const char* const display_category = "weft panel data";
+
+namespace {
+
+const ArgumentText outcome_arg{
+    "outcome",
+    "One column: the dependent variable. If its first cell is text, row 1 of all four ranges "
+    "is a header row that names the variables."};
+const ArgumentText regressors_arg{
+    "regressors",
+    "One or more adjacent columns, one explanatory variable each; header cells give the term "
+    "names (else x1, x2, ...)."};
+const ArgumentText units_arg{
+    "units", "One column: the unit (entity) id of each row, text or number."};
+const ArgumentText periods_arg{
+    "periods", "One column: the period of each row, a number (year, quarter index) or a date."};
+const ArgumentText model_arg{
+    "model",
+    "Optional model words, e.g. \"within cluster\": pooled, fd, within, random, between; "
+    "classical, hc0-hc3, cluster, cluster0, cluster-period, cluster-both, dk or dk=L; "
+    "periods; level=0.90; no-intercept."};
+
+std::vector<ArgumentText> panel_args() {
+    return {outcome_arg, regressors_arg, units_arg, periods_arg, model_arg};
+}
+
+std::vector<ArgumentText> panel_args_plus(std::vector<ArgumentText> extra) {
+    std::vector<ArgumentText> all = panel_args();
+    all.insert(all.end(), extra.begin(), extra.end());
+    return all;
+}
+
+std::vector<FunctionText> make_texts() {
+    std::vector<FunctionText> t;
+    t.push_back({"estimates", "WEFT.ESTIMATES",
+                 "Estimates a panel regression. Returns a table: header row, then one row per term "
+                 "with term, estimate, std error, t, p-value, ci low, ci high.",
+                 panel_args()});
+    t.push_back({"summary", "WEFT.SUMMARY",
+                 "Summary of a panel regression in two columns, label and value: estimator, standard "
+                 "errors, observations, rows dropped, units, periods, R-squared, F test, warnings.",
+                 panel_args()});
+    t.push_back({"value", "WEFT.VALUE",
+                 "One number from a panel regression, e.g. the estimate or p-value of one term, "
+                 "or n, r2, sigma.",
+                 panel_args_plus(
+                     {{"what",
+                       "Which number: estimate, se, t, p, ci-low, ci-high (these need term), n, "
+                       "units, r2, r2-within, sigma, df, f, f-p."},
+                      {"term", "The term's name (a regressor header, x1, intercept, period 1990) "
+                               "for estimate, se, t, p, ci-low, ci-high."}})});
+    t.push_back({"residuals", "WEFT.RESIDUALS",
+                 "Residuals of a panel regression, one per input row in input order; blank where "
+                 "the row was not used.",
+                 panel_args()});
+    t.push_back({"fitted", "WEFT.FITTED",
+                 "Fitted values of the estimated equation, one per input row in input order; blank "
+                 "where the row was not used.",
+                 panel_args()});
+    t.push_back({"joint", "WEFT.JOINT",
+                 "Wald test that the named terms are all zero, with the model's standard errors: "
+                 "F, df1, df2, p-value, then chi-square, df, p-value.",
+                 panel_args_plus({{"terms", "The terms to test: a text list such as \"value, "
+                                            "capital\" or a range of term names."}})});
+    t.push_back({"hetero", "WEFT.HETERO",
+                 "Heteroskedasticity test on the model's residuals: LM, df, p-value, then the F "
+                 "form with its df and p-value.",
+                 panel_args_plus({{"form", "Optional: koenker (studentized Breusch-Pagan, default), "
+                                           "bp, white-special or white-full."}})});
+    t.push_back({"serial", "WEFT.SERIAL",
+                 "AR(1) check of the residuals within units: slope, std error, t, p-value, then the "
+                 "test of serially uncorrelated level errors (fd, within).",
+                 panel_args()});
+    t.push_back({"hausman", "WEFT.HAUSMAN",
+                 "Fixed versus random effects: statistic, df, p-value, rank of the variance "
+                 "difference, then the cluster-robust auxiliary-regression version.",
+                 panel_args()});
+    t.push_back({"effects", "WEFT.EFFECTS",
+                 "F test that all unit effects are zero (within versus pooled): F, df1, df2, "
+                 "p-value.",
+                 panel_args()});
+    t.push_back({"diff", "WEFT.DIFF",
+                 "k-th difference within each unit between adjacent periods, aligned to the input "
+                 "rows; blank at a unit's first period and across gaps.",
+                 {{"values", "One column of numbers to difference."},
+                  units_arg,
+                  periods_arg,
+                  {"k", "Optional: how many periods apart (default 1)."}}});
+    t.push_back({"lag", "WEFT.LAG",
+                 "The value k periods earlier within the unit (negative k: later), aligned to the "
+                 "input rows; blank where that period is absent.",
+                 {{"values", "One column of numbers."},
+                  units_arg,
+                  periods_arg,
+                  {"k", "Optional: how many periods back (default 1; negative looks ahead)."}}});
+    t.push_back({"demean", "WEFT.DEMEAN",
+                 "Deviation of each value from its unit's mean, aligned to the input rows.",
+                 {{"values", "One column of numbers."}, units_arg}});
+    t.push_back({"dummies", "WEFT.DUMMIES",
+                 "Period indicator block: a header row of period labels, then one 0/1 row per input "
+                 "row.",
+                 {periods_arg,
+                  {"omit_first", "Optional: TRUE (or 1) leaves out the first period's column."}}});
+    t.push_back({"panel", "WEFT.PANEL",
+                 "Structure of the panel in two columns, label and value: units, periods, rows, "
+                 "balanced, periods per unit, gaps, duplicates, single-row units.",
+                 {units_arg, periods_arg}});
+    t.push_back({"version", "WEFT.VERSION", "The versions of the weft library and of this add-in.",
+                 {}});
+    return t;
+}
+
+bool equal_ignoring_case(const std::string& a, const char* b) {
+    std::size_t i = 0;
+    for (; i < a.size() && b[i] != '\0'; ++i) {
+        if (std::tolower(static_cast<unsigned char>(a[i])) !=
+            std::tolower(static_cast<unsigned char>(b[i])))
+            return false;
+    }
+    return i == a.size() && b[i] == '\0';
+}
+
+}  // namespace
+
+const std::vector<FunctionText>& function_texts() {
+    static const std::vector<FunctionText> texts = make_texts();
+    return texts;
+}
+
+const FunctionText* find_by_method(const std::string& method) {
+    for (const FunctionText& f : function_texts())
+        if (method == f.method) return &f;
+    return nullptr;
+}
+
+const FunctionText* find_by_display(const std::string& display) {
+    for (const FunctionText& f : function_texts())
+        if (equal_ignoring_case(display, f.display)) return &f;
+    return nullptr;
+}
+
+}  // namespace weft_addin
