@@ -16,6 +16,11 @@ namespace weft {
 std::string format_number(double value) {
     if (value == 0) return "0";
     char buffer[40];
+    // whole numbers (years, ids, date serials) in plain digits, never "1.94e+03"
+    if (std::fabs(value) < 1e15 && value == std::floor(value)) {
+        std::snprintf(buffer, sizeof buffer, "%.0f", value);
+        return buffer;
+    }
     for (int digits = 1; digits <= 17; ++digits) {
         std::snprintf(buffer, sizeof buffer, "%.*g", digits, value);
         if (std::strtod(buffer, nullptr) == value) break;

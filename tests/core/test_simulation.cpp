@@ -1,0 +1,1 @@
+#include "core_support.hpp"
