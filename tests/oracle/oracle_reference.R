@@ -271,15 +271,19 @@ serial <- function(eq, fit, est) {
   cr0 <- sandwich::vcovCL(a, cluster = g, type = "HC0", cadjust = FALSE)
   se1 <- sqrt(cr0[2, 2] * G / (G - 1) * (np - 1) / (np - 2))
   se0 <- sqrt(cr0[2, 2])
-  Tn <- length(unique(d$gi))
-  r0 <- switch(est, fd = -0.5, within = -1 / (Tn - 1), 0)
   slope <- unname(coef(a)[2])
-  Fv <- ((slope - r0) / se1)^2
-  list(slope = slope, se = s[2, 2], t = s[2, 3], df = np - 2, p = s[2, 4],
-       pairs = np, units = G,
-       level_null = r0, level_se = se1, level_f = Fv, level_df1 = 1, level_df2 = G - 1,
-       level_p = pf(Fv, 1, G - 1, lower.tail = FALSE),
-       level_se_cluster0 = se0)
+  out <- list(slope = slope, se = s[2, 2], t = s[2, 3], df = np - 2, p = s[2, 4],
+              pairs = np, units = G)
+  if (est %in% c("fd", "within")) {
+    # T = periods among the rows of the estimated equation
+    Tn <- length(unique(eq$gi))
+    r0 <- if (est == "fd") -0.5 else -1 / (Tn - 1)
+    Fv <- ((slope - r0) / se1)^2
+    out <- c(out, list(level_null = r0, level_se = se1, level_f = Fv, level_df1 = 1,
+                       level_df2 = G - 1, level_p = pf(Fv, 1, G - 1, lower.tail = FALSE),
+                       level_se_cluster0 = se0))
+  }
+  out
 }
 
 # Hausman (1978) contrast of the one-way within fit with the random-effects fit on the
