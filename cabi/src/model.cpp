@@ -162,6 +162,18 @@ constexpr const char* value_words =
 // Fit and package a model; shared by weft_model_new and the tests that fit their own.
 weft_model* new_model(const weft_panel* panel, const weft::ModelSpec& spec, const char* fn) {
     require_model_columns(panel, fn);
+    // Term names are how every result is addressed, so they must be unambiguous.
+    const std::vector<weft::Column>& regressors = panel->data->regressors;
+    for (std::size_t i = 0; i < regressors.size(); ++i) {
+        const std::string& name = regressors[i].name;
+        if (name == "intercept")
+            throw weft::Error("regressor " + std::to_string(i + 1) +
+                              " is named \"intercept\", the name of the constant term; rename that column");
+        for (std::size_t j = 0; j < i; ++j)
+            if (regressors[j].name == name)
+                throw weft::Error("regressors " + std::to_string(j + 1) + " and " + std::to_string(i + 1) +
+                                  " are both named \"" + name + "\"; give each regressor its own name");
+    }
     auto model = std::make_unique<weft_model>();
     model->data = panel->data;
     model->fit = weft::fit_model(*panel->data, spec);
