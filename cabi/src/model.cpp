@@ -9,6 +9,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <cstring>
 #include <optional>
 #include <string>
@@ -53,10 +54,15 @@ std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
     const weft::CovarianceResult& cov = fit.covariance;
     text("estimator", estimator_text(fit.spec.estimator));
     text("model", weft::describe(fit.spec));
+    // The finite-sample factor is named only when one is applied (CONVENTIONS.md).
     std::string se = cov.label;
-    if (!cov.factor_rule.empty())
-        se += ", factor " + cov.factor_rule + " = " + weft::format_number(cov.factor);
-    if (cov.kind == weft::Covariance::dk && cov.dk_lag >= 0) se += ", lag " + std::to_string(cov.dk_lag);
+    if (!cov.factor_rule.empty() && cov.factor != 1.0) {
+        char factor[32];
+        std::snprintf(factor, sizeof factor, "%.6g", cov.factor);
+        se += ", factor " + cov.factor_rule + " = " + factor;
+    }
+    if (cov.kind == weft::Covariance::dk && cov.dk_lag >= 0 && se.find("lag") == std::string::npos)
+        se += ", lag " + std::to_string(cov.dk_lag);
     text("standard errors", se);
     number("observations used", static_cast<double>(fit.nobs));
     number("rows used", static_cast<double>(fit.rows_used));
