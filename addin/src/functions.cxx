@@ -786,6 +786,11 @@ OutTable fn_dummies(const Table& periods_in, const Arg& omit_first) {
 
     std::unique_lock<std::mutex> lock(cache_mutex);
     PanelPtr p = transform_panel(start, rows, nullptr, &periods_in);
+    // The period grid needs units; each row as its own unit gives the grid of all
+    // rows without making a repeated period look like a repeated unit-period pair.
+    std::vector<double> row_units(n);
+    for (std::size_t i = 0; i < n; ++i) row_units[i] = static_cast<double>(i);
+    check(weft_panel_set_units_number(p.get(), row_units.data(), nullptr));
     size_t n_grid = 0;
     check(weft_panel_period_grid(p.get(), nullptr, 0, &n_grid));
     std::vector<double> grid(n_grid);

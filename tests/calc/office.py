@@ -169,6 +169,9 @@ class Office:
                 self._kill()
                 self.proc.wait(timeout=20)
             self.proc = None
+        if getattr(self, "_log", None) is not None:
+            self._log.close()
+            self._log = None
         if self.tmpdir and not self.keep_profile:
             shutil.rmtree(self.tmpdir, ignore_errors=True)
         self.tmpdir = None
