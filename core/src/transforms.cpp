@@ -37,6 +37,7 @@ Series lag(const Column& values, const PanelIndex& index, int k) {
         throw Error("lag: periods are needed to find earlier rows");
     check_values(values, index);
     Series out = undefined_series(index.n_rows);
+    if (static_cast<std::size_t>(k > 0 ? std::int64_t{k} : -std::int64_t{k}) >= index.grid.size()) return out;  // no period that far; keeps period - k and -k from overflowing (fuzz: k = INT_MIN)
     for (std::size_t u = 0; u + 1 < index.unit_start.size(); ++u) {
         const std::size_t begin = index.unit_start[u], end = index.unit_start[u + 1];
         for (std::size_t j = begin; j < end; ++j) {
