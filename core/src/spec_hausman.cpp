@@ -186,13 +186,25 @@ HausmanResult hausman_test(const Fit& within, const Fit& random) {
     return r;
 }
 
+namespace {
+
+// Fit one side of a two-fit test, saying which side failed and why.
+Fit fit_side(const PanelData& data, ModelSpec spec, Estimator estimator, const char* test) {
+    spec.covariance = Covariance::classical;
+    spec.estimator = estimator;
+    try {
+        return fit_model(data, spec);
+    } catch (const Error& e) {
+        throw Error(std::string(test) + ": the " + to_word(estimator) +
+                    " fit it needs is not possible: " + e.what());
+    }
+}
+
+}  // namespace
+
 HausmanResult hausman_test(const PanelData& data, const ModelSpec& spec) {
-    ModelSpec s = spec;
-    s.covariance = Covariance::classical;
-    s.estimator = Estimator::within;
-    const Fit within = fit_model(data, s);
-    s.estimator = Estimator::random;
-    const Fit random = fit_model(data, s);
+    const Fit within = fit_side(data, spec, Estimator::within, "Hausman test");
+    const Fit random = fit_side(data, spec, Estimator::random, "Hausman test");
     return hausman_test(within, random);
 }
 
@@ -231,12 +243,9 @@ EffectsResult effects_test(const Fit& within, const Fit& pooled) {
 
 EffectsResult effects_test(const PanelData& data, const ModelSpec& spec) {
     ModelSpec s = spec;
-    s.covariance = Covariance::classical;
-    s.estimator = Estimator::within;
-    const Fit within = fit_model(data, s);
-    s.estimator = Estimator::pooled;
     s.intercept = true;
-    const Fit pooled = fit_model(data, s);
+    const Fit within = fit_side(data, s, Estimator::within, "unit-effects test");
+    const Fit pooled = fit_side(data, s, Estimator::pooled, "unit-effects test");
     return effects_test(within, pooled);
 }
 

@@ -444,9 +444,13 @@ plm_case <- function(text) {
       # with period indicators phtest contrasts them too (df differs): compare only
       # without them
       out$hausman <- list(abs_stat = unname(ht$statistic), df = unname(ht$parameter))
-      # plm's auxiliary form adds unit means of every regressor (here only x)
-      ha <- phtest(fml, data = pdf, method = "aux")
-      out$hausman_aux_classical_chi2 <- unname(ha$statistic)
+      # plm's auxiliary regression adds the plain unit means xbar_i rather than the
+      # quasi-demeaned (1 - theta_i) xbar_i of Wooldridge (2010, 10.7.3); the two span
+      # the same columns only when theta is one number, i.e. on balanced panels
+      if (length(unique(table(d$unit))) == 1) {
+        ha <- phtest(fml, data = pdf, method = "aux")
+        out$hausman_aux_classical_chi2 <- unname(ha$statistic)
+      }
     }
   }
   if (est == "pooled" && !periods) {

@@ -251,7 +251,10 @@ def main():
                                              "max rel", "worst at"))
     for (route, case, grp), (mx, n, where) in sorted(table.items()):
         print("%-9s %-15s %-22s %6d %11.3g  %s" % (route, case, grp, n, mx, where))
-    print("\n%d numbers compared" % compared)
+    if table:
+        (route, case, grp), (mx, n, where) = max(table.items(), key=lambda kv: kv[1][0])
+        print("\nlargest relative difference: %.3g (%s, %s, %s)" % (mx, route, case, where))
+    print("%d numbers compared" % compared)
     if compared == 0:
         print("FAIL: nothing was compared")
         return 1
