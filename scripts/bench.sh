@@ -46,7 +46,7 @@ echo "== weft_bench (median of repeated runs; ratios to the floor)"
 if [[ $quick -eq 1 ]]; then
   "$bench" --sizes 100k --json "$out_dir/weft_bench.json" | tee "$out_dir/weft_bench.txt"
 else
-  "$bench" --sizes 100k,1M --json "$out_dir/weft_bench.json" | tee "$out_dir/weft_bench.txt"
+  "$bench" --sizes 100k,1Mk5,1M --json "$out_dir/weft_bench.json" | tee "$out_dir/weft_bench.txt"
 fi
 
 if [[ $compare -eq 1 ]]; then

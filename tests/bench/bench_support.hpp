@@ -13,6 +13,7 @@
 
 #include <sys/types.h>
 #include <sys/wait.h>
+#include <time.h>
 #include <unistd.h>
 
 namespace weft_bench {
@@ -23,11 +24,45 @@ inline double seconds_since(Clock::time_point start) {
   return std::chrono::duration<double>(Clock::now() - start).count();
 }
 
+// CPU seconds of the whole process (all threads). On a shared machine the wall clock
+// also counts time spent waiting for a core; CPU time does not, so both are reported.
+inline double cpu_seconds() {
+  timespec ts{};
+  clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &ts);
+  return static_cast<double>(ts.tv_sec) + 1e-9 * static_cast<double>(ts.tv_nsec);
+}
+
+// Wall and CPU time of one call.
+struct Timing {
+  double wall = 0, cpu = 0;
+};
+
+template <class F>
+Timing time_once(F&& f) {
+  const double cpu_start = cpu_seconds();
+  const auto start = Clock::now();
+  f();
+  return {seconds_since(start), cpu_seconds() - cpu_start};
+}
+
 inline double median(std::vector<double> values) {
   if (values.empty()) return 0.0;
   std::sort(values.begin(), values.end());
   const std::size_t mid = values.size() / 2;
   return values.size() % 2 ? values[mid] : 0.5 * (values[mid - 1] + values[mid]);
+}
+
+// Medians of wall and CPU time over `reps` calls after one uncounted warm-up call.
+template <class F>
+Timing time_median(int reps, F&& f) {
+  std::vector<double> wall, cpu;
+  for (int r = 0; r < reps + 1; ++r) {
+    const Timing t = time_once(f);
+    if (r == 0) continue;
+    wall.push_back(t.wall);
+    cpu.push_back(t.cpu);
+  }
+  return {median(wall), median(cpu)};
 }
 
 // One line of /proc/self/status, e.g. "VmHWM", in bytes; -1 when unavailable.
@@ -71,7 +106,9 @@ inline MemoryProbe probe_peak_memory(const std::function<void()>& work) {
     }
     mine.resident_before = status_bytes("VmRSS");
     const double hwm_after_reset = status_bytes("VmHWM");
-    bool reset_worked = hwm_after_reset > 0 && hwm_after_reset <= mine.resident_before * 1.01 + 4096.0;
+    // Reading /proc itself touches a few pages, hence the small allowance.
+    const bool reset_worked =
+        hwm_after_reset > 0 && hwm_after_reset <= mine.resident_before * 1.01 + 4.0 * 1048576.0;
     work();
     mine.peak = reset_worked ? status_bytes("VmHWM") : -1.0;
     const ssize_t written = write(fds[1], &mine, sizeof mine);

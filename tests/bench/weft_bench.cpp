@@ -31,6 +31,8 @@ struct Size {
 const Size size_smoke{"smoke", 60, 6, 3};
 const Size size_small{"100k", 10000, 10, 5};
 const Size size_large{"1M", 50000, 20, 20};
+// The 100k shape ten times over: with K fixed, CPU per million rows must match 100k's.
+const Size size_large_k5{"1Mk5", 100000, 10, 5};
 
 struct WeftFit {
   std::vector<std::string> terms;
@@ -109,7 +111,7 @@ double floor_pass(const SyntheticPanel& data) {
 }
 
 struct Options {
-  std::vector<Size> sizes{size_small, size_large};
+  std::vector<Size> sizes{size_small, size_large_k5, size_large};
   std::vector<std::string> estimators{"pooled", "fd", "within"};
   std::vector<std::string> ses{"classical", "hc1", "cluster", "dk"};
   std::vector<Layout> layouts{Layout::balanced, Layout::unbalanced};
@@ -134,6 +136,7 @@ Size parse_size(const std::string& word) {
   if (word == "smoke") return size_smoke;
   if (word == "100k" || word == "small") return size_small;
   if (word == "1M" || word == "1m" || word == "large") return size_large;
+  if (word == "1Mk5" || word == "1mk5") return size_large_k5;
   // UNITSxPERIODSxK, e.g. 20000x10x5
   Size size{word, 0, 0, 0};
   if (std::sscanf(word.c_str(), "%zux%zux%zu", &size.units, &size.periods, &size.regressors) == 3 &&
@@ -151,7 +154,8 @@ void usage() {
       "       weft_bench --write-csv FILE [--sizes S] [--layouts L]   write one dataset\n"
       "       weft_bench --read-csv FILE [--model \"fd cluster\"] [--reps N] [--json FILE]\n"
       "sizes: smoke (60x6, K=3), 100k (10,000 units x 10 periods, K=5),\n"
-      "       1M (50,000 x 20, K=20), or UNITSxPERIODSxK");
+      "       1M (50,000 x 20, K=20), 1Mk5 (100,000 x 10, K=5: the linear-scaling\n"
+      "       partner of 100k), or UNITSxPERIODSxK. Default: 100k,1Mk5,1M");
 }
 
 Options parse_options(int argc, char** argv) {
@@ -294,25 +298,30 @@ struct Row {
   std::string size, layout, estimator, se;
   std::size_t rows = 0, units = 0, periods = 0, regressors = 0;
   double input_bytes = 0;
-  double floor_seconds = 0;
+  double floor_seconds = 0, floor_cpu = 0;
+  double cpu_seconds = 0;
   double total_seconds = 0, panel_seconds = 0, fit_seconds = 0;
   double peak_bytes = -1, extra_bytes = -1;
   int reps = 0;
 };
 
 void print_header() {
-  std::printf("%-6s %-10s %9s %-7s %-9s %9s %9s %9s %8s %8s %9s %8s\n", "size", "layout", "rows",
-              "estim", "se", "median_s", "s_per_Mrow", "x_floor", "panel_s", "fit_s", "peak_MiB",
-              "peak/in");
+  std::printf("%-6s %-10s %8s %-6s %-9s %8s %8s %8s %7s %7s %8s %7s %8s %7s\n", "size", "layout", "rows",
+              "estim", "se", "wall_s", "cpu_s", "cpu/Mrow", "x_floor", "x_fl_cpu", "panel_s", "fit_s",
+              "peak_MiB", "peak/in");
 }
 
 void print_row(const Row& r) {
-  const double per_million = r.total_seconds / (static_cast<double>(r.rows) / 1e6);
-  std::printf("%-6s %-10s %9zu %-7s %-9s %9.4f %9.4f %9.1f %8.4f %8.4f %9s %8s\n", r.size.c_str(),
-              r.layout.c_str(), r.rows, r.estimator.c_str(), r.se.c_str(), r.total_seconds, per_million,
-              r.total_seconds / r.floor_seconds, r.panel_seconds, r.fit_seconds,
-              r.peak_bytes > 0 ? std::to_string(static_cast<long>(r.peak_bytes / 1048576.0)).c_str() : "n/a",
-              r.peak_bytes > 0 ? (std::to_string(r.peak_bytes / r.input_bytes).substr(0, 4)).c_str() : "n/a");
+  const double millions = static_cast<double>(r.rows) / 1e6;
+  char peak[32] = "n/a", ratio[32] = "n/a";
+  if (r.peak_bytes > 0) {
+    std::snprintf(peak, sizeof peak, "%.0f", r.peak_bytes / 1048576.0);
+    std::snprintf(ratio, sizeof ratio, "%.2f", r.peak_bytes / r.input_bytes);
+  }
+  std::printf("%-6s %-10s %8zu %-6s %-9s %8.4f %8.4f %8.4f %7.1f %7.1f %8.4f %7.4f %8s %7s\n", r.size.c_str(),
+              r.layout.c_str(), r.rows, r.estimator.c_str(), r.se.c_str(), r.total_seconds, r.cpu_seconds,
+              r.cpu_seconds / millions, r.total_seconds / r.floor_seconds, r.cpu_seconds / r.floor_cpu,
+              r.panel_seconds, r.fit_seconds, peak, ratio);
   std::fflush(stdout);
 }
 
@@ -327,6 +336,10 @@ void write_json(const std::string& path, const std::vector<Row>& rows) {
         << ", \"regressors\": " << r.regressors << ", \"reps\": " << r.reps
         << ", \"input_bytes\": " << json_number(r.input_bytes)
         << ", \"floor_seconds\": " << json_number(r.floor_seconds)
+        << ", \"floor_cpu_seconds\": " << json_number(r.floor_cpu)
+        << ", \"cpu_seconds\": " << json_number(r.cpu_seconds)
+        << ", \"ratio_to_floor_cpu\": " << json_number(r.cpu_seconds / r.floor_cpu)
+        << ", \"cpu_seconds_per_million_rows\": " << json_number(r.cpu_seconds / (static_cast<double>(r.rows) / 1e6))
         << ", \"median_seconds\": " << json_number(r.total_seconds)
         << ", \"panel_seconds\": " << json_number(r.panel_seconds)
         << ", \"fit_seconds\": " << json_number(r.fit_seconds)
@@ -348,21 +361,15 @@ int run_timings(const Options& o) {
     for (Layout layout : o.layouts) {
       const SyntheticPanel data = make_panel({size.units, size.periods, size.regressors, layout, 20261202});
       const int reps = o.reps > 0 ? o.reps : (data.rows > 500000 ? 5 : 7);
-      std::vector<double> floor_times;
       double sink = 0;
-      for (int r = 0; r < reps + 1; ++r) {  // first run warms caches and is not counted
-        const auto start = Clock::now();
-        sink += floor_pass(data);
-        if (r > 0) floor_times.push_back(seconds_since(start));
-      }
-      const double floor_seconds = median(floor_times);
-      std::printf("%-6s %-10s %9zu floor     %19.4f %9.4f       1.0   (checksum %.3g)\n", size.name.c_str(),
-                  layout_name(layout).c_str(), data.rows, floor_seconds,
-                  floor_seconds / (static_cast<double>(data.rows) / 1e6), sink);
+      const Timing floor = time_median(reps, [&] { sink += floor_pass(data); });
+      std::printf("%-6s %-10s %8zu floor  %-9s %8.4f %8.4f %8.4f %7.1f %7.1f   (checksum %.3g)\n", size.name.c_str(),
+                  layout_name(layout).c_str(), data.rows, "", floor.wall, floor.cpu,
+                  floor.cpu / (static_cast<double>(data.rows) / 1e6), 1.0, 1.0, sink);
       for (const auto& estimator : o.estimators) {
         for (const auto& se : o.ses) {
           Row row{size.name, layout_name(layout), estimator, se, data.rows, size.units, size.periods,
-                  size.regressors, static_cast<double>(data.input_bytes()), floor_seconds};
+                  size.regressors, static_cast<double>(data.input_bytes()), floor.wall, floor.cpu};
           const std::string model = estimator + " " + se;
           if (o.memory) {
             const MemoryProbe probe = probe_peak_memory([&] { run_weft(data, model); });
@@ -371,15 +378,18 @@ int run_timings(const Options& o) {
               row.extra_bytes = probe.peak - probe.resident_before;
             }
           }
-          std::vector<double> total, panel, fit;
+          std::vector<double> total, cpu, panel, fit;
+          run_weft(data, model);  // warm-up, not counted
           for (int r = 0; r < reps; ++r) {
-            const auto start = Clock::now();
-            const WeftFit w = run_weft(data, model);
-            total.push_back(seconds_since(start));
+            WeftFit w;
+            const Timing t = time_once([&] { w = run_weft(data, model); });
+            total.push_back(t.wall);
+            cpu.push_back(t.cpu);
             panel.push_back(w.panel_seconds);
             fit.push_back(w.fit_seconds);
           }
           row.total_seconds = median(total);
+          row.cpu_seconds = median(cpu);
           row.panel_seconds = median(panel);
           row.fit_seconds = median(fit);
           row.reps = reps;
@@ -389,9 +399,11 @@ int run_timings(const Options& o) {
       }
     }
   }
-  std::printf("s_per_Mrow: median seconds per million input rows (equal at both sizes = linear);\n"
-              "x_floor: median / floor; peak/in: process high-water resident bytes during one fit\n"
-              "(input arrays included) / input bytes (y, X, unit and period as doubles).\n");
+  std::printf("wall_s, cpu_s: medians of wall-clock and process CPU seconds (columns in, fit, table out);\n"
+              "cpu/Mrow: CPU seconds per million input rows (equal across sizes of one K = linear);\n"
+              "x_floor, x_fl_cpu: wall and CPU time over the floor's; panel_s, fit_s: wall split into\n"
+              "copying the columns and fitting; peak/in: process high-water resident bytes during one\n"
+              "fit (input arrays included) over the input's bytes (y, X, unit, period as doubles).\n");
   if (!o.json_path.empty()) write_json(o.json_path, rows);
   return 0;
 }
@@ -400,26 +412,18 @@ int run_timings(const Options& o) {
 int run_csv(const Options& o) {
   const SyntheticPanel data = read_csv(o.read_csv_path);
   const int reps = o.reps > 0 ? o.reps : 5;
-  std::vector<double> times;
   WeftFit last;
-  for (int r = 0; r < reps + 1; ++r) {
-    const auto start = Clock::now();
-    last = run_weft(data, o.model_text);
-    if (r > 0) times.push_back(seconds_since(start));
-  }
-  std::vector<double> floor_times;
+  const Timing weft_time = time_median(reps, [&] { last = run_weft(data, o.model_text); });
   double sink = 0;
-  for (int r = 0; r < reps + 1; ++r) {
-    const auto start = Clock::now();
-    sink += floor_pass(data);
-    if (r > 0) floor_times.push_back(seconds_since(start));
-  }
+  const Timing floor = time_median(reps, [&] { sink += floor_pass(data); });
   const MemoryProbe probe = probe_peak_memory([&] { run_weft(data, o.model_text); });
   std::ostringstream json;
   json << "{\"library\": \"weft " << weft_version_text() << "\", \"model\": \"" << o.model_text
        << "\", \"rows\": " << data.rows << ", \"reps\": " << reps
-       << ", \"median_seconds\": " << json_number(median(times))
-       << ", \"floor_seconds\": " << json_number(median(floor_times))
+       << ", \"median_seconds\": " << json_number(weft_time.wall)
+       << ", \"cpu_seconds\": " << json_number(weft_time.cpu)
+       << ", \"floor_seconds\": " << json_number(floor.wall)
+       << ", \"floor_cpu_seconds\": " << json_number(floor.cpu)
        << ", \"input_bytes\": " << json_number(static_cast<double>(data.input_bytes()))
        << ", \"peak_bytes\": " << json_number(probe.ok() ? probe.peak : NAN)
        << ", \"floor_checksum\": " << json_number(sink) << ", \"terms\": [";
