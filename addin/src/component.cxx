@@ -20,6 +20,7 @@
 #include <rtl/ustring.hxx>
 #include <sal/types.h>
 
+#include <chrono>
 #include <exception>
 #include <new>
 #include <string>
@@ -138,6 +139,7 @@ Table to_table(const AnyRows& rows, std::size_t keep) {
 // range are dropped together, so a blank outcome at the bottom is still a
 // dropped row when other ranges have data there.
 std::vector<Table> to_tables(std::initializer_list<const AnyRows*> ranges) {
+    const auto start = std::chrono::steady_clock::now();
     bool same = true;
     std::size_t keep = 0;
     for (const AnyRows* r : ranges) {
@@ -146,6 +148,11 @@ std::vector<Table> to_tables(std::initializer_list<const AnyRows*> ranges) {
     }
     std::vector<Table> out;
     for (const AnyRows* r : ranges) out.push_back(to_table(*r, same ? keep : used_rows(*r)));
+    const double ms = std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() -
+                                                                start).count();
+    log_line("convert " + std::to_string(ms) + " ms, " +
+             std::to_string((*ranges.begin())->getLength()) + " rows given, " +
+             std::to_string(out.front().rows) + " kept");
     return out;
 }
 

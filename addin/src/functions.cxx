@@ -282,6 +282,8 @@ std::string model_text(const Arg& model) {
 
 // ------------------------------------------------------------------ the cache
 
+}  // namespace
+
 void log_line(const std::string& line) {
     const char* path = std::getenv("WEFT_ADDIN_LOG");
     if (path == nullptr || *path == '\0') return;
@@ -290,6 +292,8 @@ void log_line(const std::string& line) {
         std::fclose(f);
     }
 }
+
+namespace {
 
 struct PanelEntry {
     PanelPtr panel;
@@ -466,9 +470,12 @@ int integer_arg(const Arg& a, const char* name, int fallback) {
         again.table.cells.push_back(n);
         return integer_arg(again, name, fallback);
     }
-    if (c.number != std::floor(c.number) || std::fabs(c.number) > 1e6)
+    if (c.number != std::floor(c.number))
         fail(std::string(name) + " is " + format_number(c.number) +
              "; give a whole number of periods, e.g. 1");
+    if (std::fabs(c.number) > 1e6)
+        fail(std::string(name) + " is " + format_number(c.number) +
+             ", more periods than any panel has; give a small whole number, e.g. 1");
     return static_cast<int>(c.number);
 }
 
@@ -601,8 +608,8 @@ OutCell fn_value(const PanelRanges& in, const Arg& model, const Arg& what_arg, c
     const std::string what = lower(optional_word(what_arg, "what", "\"estimate\""));
     if (what.empty())
         fail("WEFT.VALUE needs what: one of estimate, se, t, p, ci-low, ci-high (with a term), "
-             "n, units, periods, r2, r2-within, r2-between, r2-overall, sigma, df, f, f-df1, "
-             "f-df2, f-p, clusters, rows-dropped");
+             "n, units, periods, r2, adj-r2, r2-within, r2-between, r2-overall, sigma, df, "
+             "df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped");
     std::string term;
     if (term_arg.given && !term_arg.is_scalar())
         fail("term is a range of several cells; give one term name, e.g. \"intercept\"");

@@ -39,6 +39,8 @@ std::string fn_version();
 
 // When the environment variable WEFT_ADDIN_LOG names a file, every model fit
 // and every cache hit appends one line to it ("fit <hash>" / "hit <hash>"), so a
-// test can count fits; without it nothing is written.
+// test can count fits, and every call its conversion time ("convert <ms> <rows>");
+// without the variable nothing is written.
+void log_line(const std::string& line);
 
 }  // namespace weft_addin

@@ -182,6 +182,7 @@ class Office:
         env = dict(os.environ)
         env["HOME"] = os.path.join(self.tmpdir, "home")
         env.pop("DISPLAY", None)
+        env.pop("UNO_TYPES", None)  # a client-side setting (see test_wizard.py)
         env.pop("SESSION_MANAGER", None)
         env.update(self.extra_env)
         return env

@@ -1,0 +1,171 @@
+"""End-to-end: recalculation, the model cache, whole-column references and the
+file-format name of the functions, in a real headless Calc.
+
+- Cells over the same ranges and model text fit the model once per recalculation
+  (the add-in logs each fit and cache hit to WEFT_ADDIN_LOG).
+- Editing an input cell changes the results; undoing the edit gives back the
+  reference values of tests/data/panel/grunfeld_within.json.
+- The cache is bounded: after nine other models, the first one is fitted again.
+- A workbook saved as .ods stores ORG.WEFT.CALCFUNCTIONS.<METHOD> and is
+  recalculated on load.
+Run: WEFT_OXT=build/addin/weft.oxt /usr/bin/python3 tests/calc/test_recalc.py
+"""
+
+import os
+import re
+import shutil
+import tempfile
+import unittest
+import zipfile
+
+from calc_helpers import Office, close, grunfeld, oxt_path, put_rows, reference
+
+LAST = 201
+R = f"C1:C{LAST};D1:E{LAST};A1:A{LAST};B1:B{LAST}"
+WITHIN = reference("grunfeld_within.json")["results"]
+
+
+def setUpModule():
+    global OFFICE, LOG_DIR, LOG
+    LOG_DIR = tempfile.mkdtemp(prefix="weft-calc-log-")
+    os.chmod(LOG_DIR, 0o777)  # the office may run as an unprivileged user
+    LOG = os.path.join(LOG_DIR, "addin.log")
+    OFFICE = Office(extensions=[oxt_path()], timeout=600, env={"WEFT_ADDIN_LOG": LOG})
+    OFFICE.__enter__()
+
+
+def tearDownModule():
+    OFFICE.stop()
+    shutil.rmtree(LOG_DIR, ignore_errors=True)
+
+
+def log_lines():
+    if not os.path.exists(LOG):
+        return []
+    with open(LOG) as f:
+        # "fit <hash>", "hit <hash>"; other lines (conversion times) are skipped
+        return [line.split()[:2] for line in f if line.split()[:1] in (["fit"], ["hit"])]
+
+
+def fits():
+    return [h for kind, h in log_lines() if kind == "fit"]
+
+
+class RecalcTests(unittest.TestCase):
+
+    def setUp(self):
+        self.doc = OFFICE.new_calc()
+        self.sheet = self.doc.Sheets.getByIndex(0)
+        header, rows = grunfeld()
+        put_rows(self.sheet, 0, 0, [header] + rows)
+
+    def tearDown(self):
+        self.doc.close(True)
+
+    def cell(self, name):
+        return self.sheet.getCellRangeByName(name)
+
+    def test_one_fit_for_many_cells_then_edit_and_undo(self):
+        model = '"within cluster"'
+        self.cell("H1:N3").setArrayFormula(f"=WEFT.ESTIMATES({R};{model})")
+        self.cell("H5:I40").setArrayFormula(f"=WEFT.SUMMARY({R};{model})")
+        self.cell("K5:L11").setArrayFormula(f'=WEFT.JOINT({R};{model};"value, capital")')
+        self.cell("K13:L19").setArrayFormula(f"=WEFT.HETERO({R};{model})")
+        self.cell("K21:L32").setArrayFormula(f"=WEFT.SERIAL({R};{model})")
+        self.cell(f"P1:P{LAST}").setArrayFormula(f"=WEFT.RESIDUALS({R};{model})")
+        for i, what in enumerate(["estimate", "se", "t", "p", "ci-low"]):
+            self.cell(f"R{i + 1}").setFormula(f'=WEFT.VALUE({R};{model};"{what}";"value")')
+        before = len(fits())
+        self.doc.calculateAll()
+        new = fits()[before:]
+        self.assertEqual(len(new), 1, f"expected one fit for 11 cells, log: {log_lines()}")
+        hits = [h for kind, h in log_lines() if kind == "hit" and h == new[0]]
+        self.assertGreaterEqual(len(hits), 10)
+
+        est = self.cell("I2")
+        src = "grunfeld_within.json:results.coef.value"
+        self.assertTrue(close(est.getValue(), WITHIN["coef"]["value"]), src)
+        self.assertTrue(close(self.cell("R2").getValue(), WITHIN["se"]["CR1"]["value"]),
+                        "grunfeld_within.json:results.se.CR1.value")
+
+        # Edit one outcome cell: the automatic recalculation refits once and the
+        # results change.
+        original = self.cell("C5").getValue()
+        self.cell("C5").setValue(original + 1000.0)
+        changed = est.getValue()
+        self.assertFalse(close(changed, WITHIN["coef"]["value"], rel=1e-6),
+                         "the estimate did not change after editing inv in row 5")
+        self.assertAlmostEqual(self.cell("R1").getValue(), changed, delta=abs(changed) * 1e-12)
+        self.assertEqual(len(fits()), before + 2)
+
+        # Undo the edit: the cached model of the original data comes back.
+        self.cell("C5").setValue(original)
+        self.assertTrue(close(est.getValue(), WITHIN["coef"]["value"]), src)
+        self.assertTrue(close(self.cell("R1").getValue(), WITHIN["coef"]["value"]), src)
+
+    def test_cache_is_bounded(self):
+        words = ["classical", "hc0", "hc1", "hc2", "hc3", "cluster", "cluster0",
+                 "cluster-period", "cluster-both", "dk"]
+        c = self.cell("H1")
+        start = len(fits())
+        for w in words:  # one at a time, so the order of use is known
+            c.setFormula(f'=WEFT.VALUE({R};"pooled {w}";"se";"value")')
+            c.getValue()
+        self.assertEqual(len(fits()), start + 10)
+        c.setFormula(f'=WEFT.VALUE({R};"pooled dk";"se";"value")')  # most recent: a hit
+        c.getValue()
+        self.assertEqual(len(fits()), start + 10)
+        c.setFormula(f'=WEFT.VALUE({R};"pooled classical";"se";"value")')  # evicted
+        self.assertTrue(close(c.getValue(), reference("grunfeld_pooled.json")
+                              ["results"]["se"]["classical"]["value"]),
+                        "grunfeld_pooled.json:results.se.classical.value")
+        self.assertEqual(len(fits()), start + 11, "the ninth-oldest model was not evicted")
+
+    def test_whole_column_references(self):
+        """Whole columns pass 1,048,576 rows; the add-in trims the blank tail.
+        (Calc's own conversion of such ranges takes about a second per column.)"""
+        c = self.cell("H1")
+        c.setFormula('=WEFT.VALUE(C:C;D:E;A:A;B:B;"within";"estimate";"capital")')
+        self.assertTrue(close(c.getValue(), WITHIN["coef"]["capital"]),
+                        "grunfeld_within.json:results.coef.capital")
+        n = self.cell("H2")
+        n.setFormula('=WEFT.VALUE(C:C;D:E;A:A;B:B;"within";"n")')
+        self.assertEqual(n.getValue(), 200.0, "grunfeld_within.json:sample.nobs")
+
+    def test_saved_workbook_stores_the_service_name_and_recalculates_on_load(self):
+        self.cell("H1").setFormula(f'=WEFT.VALUE({R};"within";"estimate";"value")')
+        self.doc.calculateAll()
+        path = os.path.join(OFFICE.work_dir, "saved.ods")
+        OFFICE.save_as(self.doc, path)
+        with zipfile.ZipFile(path) as z:
+            entries = [(i, z.read(i.filename)) for i in z.infolist()]
+        content = dict((i.filename, data) for i, data in entries)["content.xml"].decode()
+        self.assertIn("of:=ORG.WEFT.CALCFUNCTIONS.VALUE(", content,
+                      "the stored name is the file-format contract (CALC-ADDIN.md)")
+        # Put a wrong cached result into the file: a workbook recalculated on load
+        # shows the reference value instead.
+        cell = re.search(r'<table:table-cell table:formula="of:=ORG\.WEFT\.CALCFUNCTIONS'
+                         r'\.VALUE\([^"]*"[^>]*>.*?</table:table-cell>', content)
+        self.assertIsNotNone(cell, "the formula cell was not found in content.xml")
+        stale = re.sub(r'office:value="[^"]*"', 'office:value="12345"', cell.group(0))
+        stale = re.sub(r"<text:p>.*?</text:p>", "<text:p>12345</text:p>", stale)
+        self.assertIn('office:value="12345"', stale, "the cached result was not replaced")
+        content = content.replace(cell.group(0), stale)
+        edited = os.path.join(OFFICE.work_dir, "stale.ods")
+        with zipfile.ZipFile(edited, "w") as z:
+            for info, data in entries:
+                if info.filename == "content.xml":
+                    data = content.encode()
+                z.writestr(info, data)
+        os.chmod(edited, 0o644)
+        doc2 = OFFICE.load(edited)
+        try:
+            value = doc2.Sheets.getByIndex(0).getCellRangeByName("H1").getValue()
+            self.assertTrue(close(value, WITHIN["coef"]["value"]),
+                            f"got {value} after loading: grunfeld_within.json:results.coef.value")
+        finally:
+            doc2.close(True)
+
+
+if __name__ == "__main__":
+    unittest.main(verbosity=2)
