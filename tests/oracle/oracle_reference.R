@@ -196,17 +196,21 @@ covariances <- function(eq, fit) {
     out[["cluster-both"]] <- cl$V; df[["cluster-both"]] <- Gmin - 1
     # Driscoll & Kraay (1998): period sums of the scores, Bartlett weights 1 - j/(L+1),
     # lags counted in grid steps, L = floor(T^(1/4)), T = periods in the equation
-    Tn <- length(unique(eq$gi)); L <- floor(Tn^(1 / 4))
+    Tn <- length(unique(eq$gi))
     H <- matrix(0, length(grid), K)
     Hs <- rowsum(X * u, eq$gi)
     H[as.integer(rownames(Hs)), ] <- Hs
-    S <- crossprod(H)
-    if (L >= 1) for (j in 1:L) {
-      Gj <- crossprod(H[(j + 1):length(grid), , drop = FALSE],
-                      H[1:(length(grid) - j), , drop = FALSE])
-      S <- S + (1 - j / (L + 1)) * (Gj + t(Gj))
+    for (L in c(NA, 0, 3)) {
+      key <- if (is.na(L)) "dk" else paste0("dk=", L)
+      if (is.na(L)) L <- floor(Tn^(1 / 4))
+      S <- crossprod(H)
+      if (L >= 1) for (j in 1:min(L, length(grid) - 1)) {
+        Gj <- crossprod(H[(j + 1):length(grid), , drop = FALSE],
+                        H[1:(length(grid) - j), , drop = FALSE])
+        S <- S + (1 - j / (L + 1)) * (Gj + t(Gj))
+      }
+      out[[key]] <- A %*% S %*% A; df[[key]] <- Tn - 1
     }
-    out$dk <- A %*% S %*% A; df$dk <- Tn - 1
   }
   list(V = out, df = df)
 }
@@ -216,6 +220,10 @@ covariances <- function(eq, fit) {
 wald <- function(b, V, terms, df2) {
   R <- diag(length(b))[match(terms, names(b)), , drop = FALSE]
   rb <- R %*% b
+  # a clipped two-way covariance can leave no variance in a tested direction: weft must
+  # then refuse the test (the driver checks that it does)
+  ev <- eigen(R %*% V %*% t(R), symmetric = TRUE, only.values = TRUE)$values
+  if (min(ev) <= 1e-12 * max(abs(ev))) return(list(singular = TRUE))
   W <- as.numeric(t(rb) %*% solve(R %*% V %*% t(R), rb))
   q <- length(terms)
   list(chi2 = W, q = q, p_chi2 = pchisq(W, q, lower.tail = FALSE),
@@ -334,7 +342,7 @@ effects_f <- function(eq, fit, periods) {
 run_case <- function(text) {
   words <- strsplit(text, "[ ,]+")[[1]]
   est <- words[1]; periods <- "periods" %in% words
-  eq <- build_equation(est, periods)
+  eq <- build_equation(est, periods, intercept = !("no-intercept" %in% words))
   fit <- lm(eq$y ~ eq$X - 1)
   names(fit$coefficients) <- colnames(eq$X)
   b <- coef(fit)
@@ -368,6 +376,7 @@ run_case <- function(text) {
 plm_case <- function(text) {
   words <- strsplit(text, "[ ,]+")[[1]]
   est <- words[1]; periods <- "periods" %in% words
+  if ("no-intercept" %in% words) return(NULL)  # not compared with plm
   pd <- d
   dummies <- character(0)
   if (periods) {

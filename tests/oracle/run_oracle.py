@@ -36,7 +36,7 @@ import subprocess
 import sys
 
 CASES = ["pooled", "pooled periods", "fd", "fd periods", "within", "within periods",
-         "random", "random periods", "between"]
+         "random", "random periods", "between", "pooled no-intercept", "fd no-intercept"]
 
 
 # ---- panel generation ----------------------------------------------------------------
@@ -150,6 +150,8 @@ def group_of(path):
     """Row label of the summary table: case family and quantity."""
     head = path[1]
     if head in ("se", "wald"):
+        if path[2].startswith("dk="):
+            return "%s dk=L" % head
         return "%s %s" % (head, path[2])
     return head
 
@@ -217,6 +219,16 @@ def main():
                     wpath = full
                     wv = None
                     # plm quantities that weft reports in another shape
+                    if path[-1] == "singular":
+                        # R found R V R' singular: weft must have refused this test
+                        werr = lookup(weft, (case, "errors", "/".join(path[:-1]))) or ""
+                        ok = "singular" in werr
+                        compared += 1
+                        if not ok:
+                            failures.append("%s %s %s: R V R' is singular in R, weft "
+                                            "did not refuse the test" % (name, route,
+                                                                         "/".join(full)))
+                        continue
                     if path == ("hausman", "abs_stat"):
                         s = lookup(weft, (case, "hausman", "stat"))
                         wv = None if s is None else abs(s)
@@ -230,13 +242,15 @@ def main():
                     else:
                         wv = lookup(weft, wpath)
                     if wv is None and rv is not None:
-                        failures.append("%s %s %s: R gives %r, weft gives nothing"
-                                        % (name, route, "/".join(full), rv))
+                        errs = lookup(weft, (case, "errors")) or {}
+                        why = "; ".join("%s: %s" % kv for kv in errs.items()
+                                        if path and path[0] in kv[0]) or "no error given"
+                        failures.append("%s %s %s: R gives %r, weft gives nothing (%s)"
+                                        % (name, route, "/".join(full), rv, why))
                         continue
                     d = rel_diff(wv, rv)
                     compared += 1
-                    key = (route, case.split()[0] + (" periods" if "periods" in case
-                                                     else ""), group_of(full))
+                    key = (route, case, group_of(full))
                     cur = table.setdefault(key, [0.0, 0, ""])
                     cur[1] += 1
                     if d > cur[0]:
@@ -247,10 +261,10 @@ def main():
                                         % (name, route, "/".join(full), wv, rv, d))
 
     print("\nR %s" % json.dumps(software))
-    print("%-9s %-15s %-22s %6s %11s  %s" % ("route", "case", "quantity", "n",
+    print("%-9s %-19s %-22s %6s %11s  %s" % ("route", "case", "quantity", "n",
                                              "max rel", "worst at"))
     for (route, case, grp), (mx, n, where) in sorted(table.items()):
-        print("%-9s %-15s %-22s %6d %11.3g  %s" % (route, case, grp, n, mx, where))
+        print("%-9s %-19s %-22s %6d %11.3g  %s" % (route, case, grp, n, mx, where))
     if table:
         (route, case, grp), (mx, n, where) = max(table.items(), key=lambda kv: kv[1][0])
         print("\nlargest relative difference: %.3g (%s, %s, %s)" % (mx, route, case, where))

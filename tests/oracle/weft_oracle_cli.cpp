@@ -159,7 +159,8 @@ void write_wald(Json& j, const weft::WaldResult& w) {
 }
 
 const char* const kFamilies[] = {"classical", "hc0", "hc1", "hc2", "hc3", "cluster",
-                                 "cluster0", "cluster-period", "cluster-both", "dk"};
+                                 "cluster0", "cluster-period", "cluster-both", "dk",
+                                 "dk=0", "dk=3"};
 
 void run_case(Json& j, const weft::PanelData& data, const std::vector<std::string>& x_names,
               const std::string& text) {
