@@ -412,7 +412,7 @@ class Runner:
             header = [v for v, _ in block[0]]
             if header[:2] != ["term", "estimate"]:
                 p.append("unexpected header %r" % header)
-            table = {}
+            table, dropped_rows = {}, {}
             for row in block[1:]:
                 name, err = row[0]
                 if name == "#ERR" and err == 32767:
@@ -420,6 +420,13 @@ class Runner:
                 if name is None:
                     continue
                 if isinstance(name, str) and name:
+                    shown = row[1][0]
+                    if isinstance(shown, str) and shown.startswith("dropped"):
+                        # A dropped term is named with the reason, never with a number.
+                        dropped_rows[name] = shown
+                        if any(isinstance(v, float) or e for v, e in row[2:]):
+                            p.append("dropped term %s shows numbers or errors: %r" % (name, row))
+                        continue
                     table[name] = row
                     for i, (v, e) in enumerate(row[1:3], 1):  # estimate and std error
                         if e or not isinstance(v, float):
@@ -453,7 +460,9 @@ class Runner:
                     check(term, coef[term] * f, se[term] * f)
             for name in expect.get("dropped", []):
                 if name in table:
-                    p.append("dropped term %r still has a row" % name)
+                    p.append("dropped term %r still has numbers" % name)
+                elif name not in dropped_rows:
+                    p.append("dropped term %r is not named in the table" % name)
             if "dropped" in expect or "warnings" in expect:
                 summary = " | ".join("%s %s" % (out.getCellByPosition(20, r).getString(),
                                                  out.getCellByPosition(21, r).getString()) for r in range(40))

@@ -372,11 +372,14 @@ int make_panel(const Sheet &s, PanelHandle &h, bool with_outcome = true) {
     if ((status = weft_panel_set_periods(h.panel, p.values.data(), p.missing.data())) != WEFT_OK) return status;
     if (!with_outcome) return WEFT_OK;
     CColumn y = numbers_of(s.outcome);
-    if ((status = weft_panel_set_outcome(h.panel, s.outcome.name.c_str(), y.values.data(), y.missing.data())) != WEFT_OK)
+    // Without a header row the host has no names: weft names the terms x1, x2, ...
+    if ((status = weft_panel_set_outcome(h.panel, s.header ? s.outcome.name.c_str() : nullptr, y.values.data(),
+                                         y.missing.data())) != WEFT_OK)
         return status;
     for (const Column &r : s.regressors) {
         CColumn x = numbers_of(r);
-        if ((status = weft_panel_add_regressor(h.panel, r.name.c_str(), x.values.data(), x.missing.data())) != WEFT_OK)
+        if ((status = weft_panel_add_regressor(h.panel, s.header ? r.name.c_str() : nullptr, x.values.data(),
+                                               x.missing.data())) != WEFT_OK)
             return status;
     }
     return WEFT_OK;
