@@ -99,6 +99,13 @@ swamy_arora <- function(d, Xlev) {
   list(s2_idios = s2_idios, s2_id = s2_id, theta = theta)
 }
 
+# CONVENTIONS.md: a regressor with no variation within units is dropped by within and fd
+# (after the transform its column is zero).
+drop_invariant <- function(M) {
+  keep <- apply(M, 2, function(v) max(abs(v)) > 1e-9)
+  M[, keep, drop = FALSE]
+}
+
 build_equation <- function(est, periods, intercept = TRUE) {
   X0 <- as.matrix(d[, x_names, drop = FALSE])
   colnames(X0) <- x_names
@@ -114,7 +121,7 @@ build_equation <- function(est, periods, intercept = TRUE) {
     prev <- match(paste(d$unit, d$gi - 1), key)
     ok <- !is.na(prev)
     dX <- X0[ok, , drop = FALSE] - X0[prev[ok], , drop = FALSE]
-    X <- dX
+    X <- drop_invariant(dX)
     if (periods) X <- cbind(X, period_indicators(d$gi[ok], omit = 1:2))
     if (intercept) X <- cbind(intercept = 1, X)
     return(list(y = d$y[ok] - d$y[prev[ok]], X = X, unit = d$unit[ok], gi = d$gi[ok],
@@ -124,9 +131,9 @@ build_equation <- function(est, periods, intercept = TRUE) {
     X <- X0
     if (periods) X <- cbind(X, period_indicators(d$gi, omit = 1))
     Xw <- apply(X, 2, function(v) v - unit_mean(v, d$unit))
-    Xw <- matrix(Xw, nrow = nrow(d), dimnames = list(NULL, colnames(X)))
+    Xw <- drop_invariant(matrix(Xw, nrow = nrow(d), dimnames = list(NULL, colnames(X))))
     return(list(y = d$y - unit_mean(d$y, d$unit), X = Xw, unit = d$unit, gi = d$gi,
-                absorbed = length(unique(d$unit)), z = colnames(X), Xlev = X))
+                absorbed = length(unique(d$unit)), z = colnames(Xw), Xlev = X))
   }
   if (est == "between") {
     units <- unique(d$unit)
@@ -235,7 +242,7 @@ wald <- function(b, V, terms, df2) {
 # and full forms as n R^2 of u^2 on the stated columns.
 hetero <- function(eq, fit) {
   u2 <- residuals(fit)^2; N <- length(u2)
-  Z <- eq$X[, eq$z, drop = FALSE]
+  Z <- eq$X[, intersect(eq$z, colnames(eq$X)), drop = FALSE]
   aux_stats <- function(W) {
     a <- lm(u2 ~ W)
     q <- a$rank - 1
@@ -302,7 +309,7 @@ hausman <- function(periods) {
   er <- build_equation("random", periods); fr <- lm(er$y ~ er$X - 1)
   names(fw$coefficients) <- colnames(ew$X); names(fr$coefficients) <- colnames(er$X)
   Vw <- covariances(ew, fw)$V$classical; Vr <- covariances(er, fr)$V$classical
-  cf <- x_names
+  cf <- intersect(x_names, colnames(ew$X))  # time-varying regressors, in both fits
   db <- coef(fw)[cf] - coef(fr)[cf]
   Vd <- Vw[cf, cf] - Vr[cf, cf]
   ev <- eigen(Vd, symmetric = TRUE)$values
@@ -311,8 +318,8 @@ hausman <- function(periods) {
   q <- length(cf)
   # auxiliary regression on [X*, (1 - theta_i) xbar_i]
   th <- er$theta
-  M <- sapply(x_names, function(v) (1 - th) * unit_mean(d[[v]], d$unit))
-  colnames(M) <- paste0("mean_", x_names)
+  M <- sapply(cf, function(v) (1 - th) * unit_mean(d[[v]], d$unit))
+  M <- matrix(M, nrow = nrow(d), dimnames = list(NULL, paste0("mean_", cf)))
   Xa <- cbind(er$X, M)
   fa <- lm(er$y ~ Xa - 1); names(fa$coefficients) <- colnames(Xa)
   N <- nrow(Xa); K <- ncol(Xa); G <- length(unique(d$unit))
@@ -351,7 +358,7 @@ run_case <- function(text) {
   for (fam in names(cv$V)) {
     V <- cv$V[[fam]]; dimnames(V) <- list(names(b), names(b))
     res$se[[fam]] <- as.list(sqrt(diag(V)))
-    res$wald[[fam]] <- wald(b, V, x_names, cv$df[[fam]])
+    res$wald[[fam]] <- wald(b, V, intersect(x_names, names(b)), cv$df[[fam]])
   }
   # a general restriction R b = r under the classical covariance: x1 - x2 = 0.25
   if (length(x_names) >= 2) {
@@ -408,7 +415,7 @@ plm_case <- function(text) {
   }
   keep <- function(v) {
     v <- rename(v)
-    if (est == "fd") v <- v[x_names]  # fd: slopes only (different indicator basis)
+    if (est == "fd") v <- v[intersect(x_names, names(v))]  # fd: slopes only
     as.list(v)
   }
   out <- list(coef = keep(b), se = list())

@@ -95,10 +95,24 @@ def make_panel(rng, n_units, grid, kind, missing_cells):
     return rows
 
 
+def add_invariant_regressor(rng, rows):
+    """x4: one value per unit (a unit characteristic), entering y; within and fd drop
+    it, pooled, between and random estimate it, and Hausman compares x1-x3 only."""
+    level = {}
+    for r in rows:
+        if r[0] not in level:
+            level[r[0]] = rng.gauss(0, 1)
+        v = level[r[0]]
+        if r[2] is not None:
+            r[2] += 0.7 * v
+        r.append(v)
+    return rows
+
+
 def write_panel(path, rows):
     with open(path, "w", newline="") as f:
         w = csv.writer(f)
-        w.writerow(["unit", "period", "y", "x1", "x2", "x3"])
+        w.writerow(["unit", "period", "y", "x1", "x2", "x3", "x4"][:len(rows[0])])
         for r in rows:
             w.writerow(["" if v is None else (repr(v) if isinstance(v, float) else v)
                         for v in r])
@@ -113,6 +127,8 @@ def panels(seed):
         "gaps_b": make_panel(rng, 55, list(range(1, 8)), "gaps", 8),
         "consecutive": make_panel(rng, 30, list(range(2010, 2018)), "consecutive", 0),
         "balanced": make_panel(rng, 25, list(range(1990, 1997)), "balanced", 0),
+        "invariant": add_invariant_regressor(
+            rng, make_panel(rng, 35, list(range(1, 9)), "gaps", 4)),
     }
 
 

@@ -200,7 +200,11 @@ void run_case(Json& j, const weft::PanelData& data, const std::vector<std::strin
     j.key("wald").open();
     for (auto& [family, fit] : fits) {
         try {
-            const auto w = weft::wald_test_terms(fit, x_names);
+            // the regressors this fit estimates (within/fd drop time-invariant ones)
+            std::vector<std::string> tested;
+            for (const auto& x : x_names)
+                if (fit.term_position(x)) tested.push_back(x);
+            const auto w = weft::wald_test_terms(fit, tested);
             j.key(family);
             write_wald(j, w);
         } catch (const weft::Error& e) {
