@@ -140,6 +140,10 @@ HeteroResult hetero_test(const Equation& equation, HeteroForm form) {
     r.f_df2 = nd - q - 1.0;
     r.f = (r2 / q) / ((1.0 - r2) / r.f_df2);
     r.f_p = f_upper(r.f, q, r.f_df2);
+    if (!std::isfinite(r.f) || !std::isfinite(r.lm) || !(r.f_df2 >= 1))
+        throw Error(std::string("heteroskedasticity test (") + to_word(form) +
+                    "): the auxiliary regression fits the squared residuals exactly, so no F "
+                    "form exists; use more rows or fewer auxiliary columns");
     if (r.aux_dropped > 0)
         r.warnings.push_back(std::to_string(r.aux_dropped) +
                              " auxiliary column(s) dropped as collinear; df counts the " +

@@ -84,6 +84,9 @@ SerialResult serial_test(const Equation& equation) {
     r.intercept = ar.coef(0);
     r.slope = ar.coef(1);
     r.se = std::sqrt(classical.matrix(1, 1));
+    if (!(r.se > 0))
+        throw Error("serial test: the residuals follow their own lag exactly, so the slope "
+                    "has no standard error (a perfect fit); there is nothing to test");
     r.t = r.slope / r.se;
     r.df = classical.df;
     r.p = t_two_sided_p(r.t, r.df);

@@ -276,3 +276,31 @@ TEST_CASE("Unit-effects F equals the reference within-versus-pooled comparison",
         SPEC_CHECK_REL(r.ssr_pooled, e["rss_pooled"].get<double>(), kTol, "SSR pooled");
     }
 }
+
+TEST_CASE("Serial and unit-effects tests reproduce plm's saved Grunfeld output", "[spec][serial][effects][published]") {
+    // Source: the R plm 2.6.2 package's saved test output (printed to 5 significant
+    // digits, so compared to 5e-5 relative):
+    //   /usr/lib/R/site-library/plm/tests/test_pwfdtest_pwartest.Rout.save
+    //     line 90  pwfdtest(fd_grun): F = 16.483, df1 = 1, df2 = 178 (H0: differenced
+    //              errors uncorrelated, slope 0, with plm's CR0 SE)
+    //     line 108 pwartest(fe_grun): F = 76.929, df1 = 1, df2 = 188 (H0: slope
+    //              -1/(T-1), CR0 SE)
+    //   /usr/lib/R/site-library/plm/tests/test_pFtest.Rout.save
+    //     line 46  pFtest(within, pooling): F = 49.177, df1 = 9, df2 = 188 (the file also
+    //              quotes another package's output, F = 49.18 on 9 and 188)
+    const weft::PanelData data = load_grunfeld();
+    const weft::SerialResult fd = weft::serial_test(weft::fit_model(data, weft::parse_model_text("fd")));
+    REQUIRE(fd.level.has_value());
+    const double z_fd = fd.slope / fd.level->se_cluster0;
+    SPEC_CHECK_REL(z_fd * z_fd, 16.483, 5e-5, "pwfdtest F");
+    CHECK(fd.df == 178);
+    const weft::SerialResult fe = weft::serial_test(weft::fit_model(data, weft::parse_model_text("within")));
+    REQUIRE(fe.level.has_value());
+    const double z_fe = (fe.slope - fe.level->null_value) / fe.level->se_cluster0;
+    SPEC_CHECK_REL(z_fe * z_fe, 76.929, 5e-5, "pwartest F");
+    CHECK(fe.df == 188);
+    const weft::EffectsResult e = weft::effects_test(data, weft::ModelSpec{});
+    SPEC_CHECK_REL(e.f, 49.177, 5e-5, "pFtest F");
+    CHECK(e.df1 == 9);
+    CHECK(e.df2 == 188);
+}
