@@ -1,0 +1,203 @@
+#!/usr/bin/python3
+"""Recalculation cost of weft's cell functions in headless Calc (issue 7).
+
+For blocks of 100,000 x 10 and 1,000,000 x 10 cells (unit, period, outcome and 7
+regressors, from weft_bench's seeded generator, with a header row), measures with
+`calculateAll()` on a sheet that holds only the formula being measured:
+  - sum:     =SUM over the whole block: the office's own cost of reading the cells;
+  - first:   WEFT.ESTIMATES(...; "fd cluster") with a cold cache (one input cell is
+             nudged before each run, so the add-in must fit again);
+  - cached:  the same formula recalculated with nothing changed: the add-in's cache
+             answers, as it does for every further function on the same model;
+  - second:  WEFT.ESTIMATES plus WEFT.VALUE(...; "se"; "x1") on the same model, cold:
+             the pair minus `first` is what the second function adds.
+The add-in's log (WEFT_ADDIN_LOG) is read to check that `first` fitted and that
+`cached` and the second function did not. Medians over --reps runs.
+
+Usage: /usr/bin/python3 tests/bench/calc_bench.py [--build build-bench]
+           [--oxt PATH] [--bench PATH] [--rows 100000,1000000] [--reps 3] [--json OUT]
+"""
+import argparse
+import csv
+import json
+import os
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+TOP = os.path.dirname(os.path.dirname(HERE))
+sys.path.insert(0, os.path.join(TOP, "tests", "calc"))
+
+from office import Office  # noqa: E402  (tests/calc/office.py, python3-uno)
+
+PERIODS = 10
+REGRESSORS = 7          # with unit, period and outcome: 10 columns
+CHUNK_ROWS = 50000      # rows per setDataArray call while filling the sheet
+
+
+def col_name(index):
+    name = ""
+    index += 1
+    while index:
+        index, rem = divmod(index - 1, 26)
+        name = chr(65 + rem) + name
+    return name
+
+
+def read_block(path):
+    """Rows of the CSV as tuples of floats, with the header row as texts."""
+    with open(path) as f:
+        reader = csv.reader(f)
+        header = tuple(next(reader))
+        rows = [tuple(float(v) for v in r) for r in reader]
+    return header, rows
+
+
+def fill(sheet, header, rows):
+    ncols = len(header)
+    last = col_name(ncols - 1)
+    sheet.getCellRangeByName(f"A1:{last}1").setDataArray((header,))
+    for start in range(0, len(rows), CHUNK_ROWS):
+        chunk = rows[start:start + CHUNK_ROWS]
+        top = start + 2
+        sheet.getCellRangeByName(f"A{top}:{last}{top + len(chunk) - 1}").setDataArray(tuple(chunk))
+
+
+def log_kinds(log):
+    if not os.path.exists(log):
+        return []
+    with open(log) as f:
+        return [line.split()[0] for line in f if line.strip()]
+
+
+def timed_recalc(doc):
+    start = time.perf_counter()
+    doc.calculateAll()
+    return time.perf_counter() - start
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--build", default=os.path.join(TOP, "build-bench"))
+    parser.add_argument("--oxt")
+    parser.add_argument("--bench")
+    parser.add_argument("--rows", default="100000,1000000")
+    parser.add_argument("--reps", type=int, default=3)
+    parser.add_argument("--json")
+    args = parser.parse_args()
+    oxt = args.oxt or os.path.join(args.build, "addin", "weft.oxt")
+    bench = args.bench or os.path.join(args.build, "tests", "bench", "weft_bench")
+    for path, what in ((oxt, "the add-in (weft_oxt target)"), (bench, "weft_bench")):
+        if not os.path.exists(path):
+            raise SystemExit(f"calc_bench: {path} not found: build {what} first")
+
+    work = tempfile.mkdtemp(prefix="weft-calc-bench-")
+    os.chmod(work, 0o777)  # the office may run as an unprivileged user and writes the log
+    log = os.path.join(work, "addin.log")
+    results = []
+    failures = []
+    with Office(extensions=[oxt], timeout=3600, env={"WEFT_ADDIN_LOG": log}) as office:
+        for n_rows in [int(v) for v in args.rows.split(",")]:
+            units = n_rows // PERIODS
+            csv_path = os.path.join(work, f"panel_{n_rows}.csv")
+            subprocess.run([bench, "--write-csv", csv_path, "--sizes", f"{units}x{PERIODS}x{REGRESSORS}",
+                            "--layouts", "balanced"], check=True)
+            header, rows = read_block(csv_path)
+            os.remove(csv_path)
+            doc = office.new_calc()
+            try:
+                doc.enableAutomaticCalculation(False)
+                sheet = doc.Sheets.getByIndex(0)
+                t0 = time.perf_counter()
+                fill(sheet, header, rows)
+                fill_seconds = time.perf_counter() - t0
+                last_row = n_rows + 1
+                last_col = col_name(len(header) - 1)
+                ranges = f"C1:C{last_row};D1:{last_col}{last_row};A1:A{last_row};B1:B{last_row}"
+                model = '"fd cluster"'
+                out_col = col_name(len(header) + 1)
+                out_end = col_name(len(header) + 7)
+                estimates = sheet.getCellRangeByName(f"{out_col}1:{out_end}{REGRESSORS + 2}")
+                probe = sheet.getCellRangeByName(f"{out_col}20")
+                nudge = sheet.getCellRangeByName("C2")
+                y0 = nudge.getValue()
+
+                def nudge_input(rep):
+                    nudge.setValue(y0 + 1e-9 * (rep + 1))
+
+                # The office's own SUM over the block.
+                probe.setFormula(f"=SUM(A2:{last_col}{last_row})")
+                sums = [timed_recalc(doc) for _ in range(args.reps + 1)][1:]
+                probe.setFormula("")
+
+                # First function, cold cache; then the same recalculated (cache answers).
+                estimates.setArrayFormula(f"=WEFT.ESTIMATES({ranges};{model})")
+                first, cached = [], []
+                for rep in range(args.reps):
+                    nudge_input(rep)
+                    before = len(log_kinds(log))
+                    first.append(timed_recalc(doc))
+                    kinds = log_kinds(log)[before:]
+                    if kinds.count("fit") != 1:
+                        failures.append(f"{n_rows} rows: cold ESTIMATES logged {kinds}, expected one fit")
+                    before = len(kinds) + before
+                    cached.append(timed_recalc(doc))
+                    kinds = log_kinds(log)[before:]
+                    if "fit" in kinds:
+                        failures.append(f"{n_rows} rows: unchanged recalculation fitted again ({kinds})")
+                table = estimates.getDataArray()
+                if not (isinstance(table[1][1], float) and table[1][0] == "intercept"):
+                    failures.append(f"{n_rows} rows: ESTIMATES shows {table[0][:2]} {table[1][:2]}")
+
+                # Two functions on one model, cold: the second should be a cache hit.
+                probe.setFormula(f'=WEFT.VALUE({ranges};{model};"se";"x1")')
+                pair = []
+                for rep in range(args.reps):
+                    nudge_input(args.reps + rep)
+                    before = len(log_kinds(log))
+                    pair.append(timed_recalc(doc))
+                    kinds = log_kinds(log)[before:]
+                    if kinds.count("fit") != 1:
+                        failures.append(f"{n_rows} rows: ESTIMATES + VALUE logged {kinds}, expected one fit")
+                se_x1 = probe.getValue()
+                row = {
+                    "rows": n_rows, "columns": len(header), "reps": args.reps,
+                    "fill_seconds": fill_seconds,
+                    "sum_seconds": statistics.median(sums),
+                    "first_seconds": statistics.median(first),
+                    "cached_seconds": statistics.median(cached),
+                    "pair_seconds": statistics.median(pair),
+                    "se_x1": se_x1,
+                }
+                row["second_seconds"] = max(row["pair_seconds"] - row["first_seconds"], 0.0)
+                results.append(row)
+                print(f"{n_rows} rows x {len(header)} columns: filled in {fill_seconds:.1f} s; "
+                      f"SUM {row['sum_seconds']:.3f} s, ESTIMATES first {row['first_seconds']:.3f} s, "
+                      f"cached {row['cached_seconds']:.3f} s, ESTIMATES+VALUE {row['pair_seconds']:.3f} s",
+                      flush=True)
+            finally:
+                doc.close(True)
+
+    print()
+    print("%-9s %8s %9s %9s %9s %9s %11s %11s" % ("rows", "SUM_s", "first_s", "cached_s", "second_s",
+                                                   "first/SUM", "cached/1st", "second/1st"))
+    for r in results:
+        print("%-9d %8.3f %9.3f %9.3f %9.3f %9.1f %10.1f%% %10.1f%%" % (
+            r["rows"], r["sum_seconds"], r["first_seconds"], r["cached_seconds"], r["second_seconds"],
+            r["first_seconds"] / r["sum_seconds"], 100 * r["cached_seconds"] / r["first_seconds"],
+            100 * r["second_seconds"] / r["first_seconds"]))
+    print("first: WEFT.ESTIMATES fd cluster, cold; cached: same, unchanged; second: what a WEFT.VALUE\n"
+          "on the same model adds to a cold recalculation (pair - first). All medians of calculateAll().")
+    if args.json:
+        with open(args.json, "w") as f:
+            json.dump({"results": results, "failures": failures}, f, indent=1)
+    for message in failures:
+        print("CHECK FAILED: " + message)
+    return 1 if failures else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
