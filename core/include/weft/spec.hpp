@@ -95,7 +95,8 @@ struct HeteroResult {
     double lm = 0;          // koenker/white: N R^2; bp: ESS/2
     double lm_df = 0;       // q = auxiliary terms kept, intercept not counted
     double lm_p = 1;        // upper tail of chi-square(q)
-    double f = 0;           // (R^2/q) / ((1-R^2)/(N-q-1)) of the auxiliary regression
+    double f = 0;           // (R^2/q) / ((1-R^2)/(N-q-1)) of the auxiliary regression (for bp
+                            // too: u^2/(SSR/N) - 1 is affine in u^2, so its R^2 is the same)
     double f_df1 = 0;       // q
     double f_df2 = 0;       // N - q - 1
     double f_p = 1;         // upper tail of F(q, N-q-1)
@@ -152,7 +153,9 @@ struct HausmanResult {
     std::vector<std::string> terms;   // slopes compared (regressors common to both fits)
     Eigen::VectorXd difference;       // b_within - b_random over terms
     double statistic = 0;             // raw H, never its absolute value (may be negative)
-    double df = 0;                    // number of slopes compared
+    double df = 0;                    // number of slopes compared; when V_within - V_random is
+                                      // singular, its rank (the statistic then uses the
+                                      // generalised inverse over the non-null eigenvalues)
     double p = 1;                     // upper tail of chi-square(df) at H (1 if H <= 0)
     std::size_t rank = 0;             // rank of V_within - V_random (|lambda| > 1e-10 max|lambda|)
     bool positive_definite = false;
