@@ -11,6 +11,13 @@
 #            replaced.
 # --open     open Calc on FILE with that profile (needs a display); without it the
 #            script only installs and prints the command that opens Calc.
+# --print-csv  recalculate FILE headless with that profile and print its first
+#            sheet as CSV (a check that the installed functions compute, no display
+#            needed).
+#
+# The profile is also set to recalculate ODF and OOXML workbooks on load, so a
+# workbook with WEFT.* formulas always shows results computed by the installed
+# add-in, never values cached in the file.
 #
 # As root, unopkg refuses a user profile, so the profile is owned by, and unopkg
 # and Calc run as, the unprivileged user "nobody"; a normal user runs them as
@@ -21,6 +28,7 @@ here="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 oxt="$here/build/addin/weft.oxt"
 profile="${XDG_CACHE_HOME:-$HOME/.cache}/weft/office-profile"
 open_file=""
+csv_file=""
 program="${WEFT_OFFICE_PROGRAM:-/usr/lib/libreoffice/program}"
 
 while [[ $# -gt 0 ]]; do
@@ -28,7 +36,8 @@ while [[ $# -gt 0 ]]; do
     --oxt) oxt="$2"; shift 2 ;;
     --profile) profile="$2"; shift 2 ;;
     --open) open_file="$2"; shift 2 ;;
-    -h|--help) sed -n '2,18p' "$0"; exit 0 ;;
+    --print-csv) csv_file="$2"; shift 2 ;;
+    -h|--help) sed -n '2,26p' "$0"; exit 0 ;;
     *) echo "install-addin.sh: unknown option $1 (see --help)" >&2; exit 2 ;;
   esac
 done
@@ -91,6 +100,15 @@ unopkg() {
 
 echo "Installing $(basename "$oxt") into $profile"
 unopkg add --force --suppress-license "$oxt"
+# Recalculate on load (org.openoffice.Office.Calc/Formula/Load: 0 = always).
+xcu="$profile/user/registrymodifications.xcu"
+if [[ -f "$xcu" ]]; then
+  sed -i -e '/oor:path="\/org.openoffice.Office.Calc\/Formula\/Load"><prop oor:name="\(ODF\|OOXML\)RecalcMode"/d' "$xcu"
+  for mode in ODFRecalcMode OOXMLRecalcMode; do
+    sed -i -e "s|</oor:items>|<item oor:path=\"/org.openoffice.Office.Calc/Formula/Load\"><prop oor:name=\"$mode\" oor:op=\"fuse\"><value>0</value></prop></item>\n</oor:items>|" "$xcu"
+  done
+fi
+
 listing="$(unopkg list)"
 grep -q "org.weft.calc" <<<"$listing" || {
   echo "install-addin.sh: unopkg did not list org.weft.calc after installing" >&2
@@ -98,6 +116,24 @@ grep -q "org.weft.calc" <<<"$listing" || {
 }
 echo "Installed. Open Calc with it:"
 echo "  ${run[*]} $program/soffice --calc -env:UserInstallation=$url [workbook.ods]"
+
+if [[ -n "$csv_file" ]]; then
+  [[ -f "$csv_file" ]] || { echo "install-addin.sh: $csv_file not found" >&2; exit 1; }
+  work="$profile/csv-check"
+  rm -rf "$work"
+  mkdir -p "$work/out"
+  cp "$csv_file" "$work/"
+  [[ $(id -u) -eq 0 ]] && chown -R 65534:65534 "$work"
+  had_lock=0
+  [[ -e "$profile/.lock" ]] && had_lock=1
+  "${run[@]}" "$program/soffice.bin" --headless --norestore --nolockcheck \
+    "-env:UserInstallation=$url" --convert-to csv --outdir "$work/out" \
+    "$work/$(basename "$csv_file")" </dev/null >/dev/null 2>&1 || true
+  [[ $had_lock -eq 0 ]] && rm -f "$profile/.lock"
+  out="$work/out/$(basename "${csv_file%.*}").csv"
+  [[ -f "$out" ]] || { echo "install-addin.sh: the office did not convert $csv_file" >&2; exit 1; }
+  cat "$out"
+fi
 
 if [[ -n "$open_file" ]]; then
   open_file="$(cd "$(dirname "$open_file")" && pwd)/$(basename "$open_file")"
