@@ -12,6 +12,7 @@ Run: WEFT_OXT=build/addin/weft.oxt /usr/bin/python3 tests/calc/test_recalc.py
 """
 
 import os
+import random
 import re
 import shutil
 import tempfile
@@ -120,6 +121,71 @@ class RecalcTests(unittest.TestCase):
                               ["results"]["se"]["classical"]["value"]),
                         "grunfeld_pooled.json:results.se.classical.value")
         self.assertEqual(len(fits()), start + 11, "the ninth-oldest model was not evicted")
+
+    def test_shuffled_rows_text_as_missing_and_no_header(self):
+        """Row order does not matter, results align to the input rows, a text cell in
+        a number column is a dropped row, and without a header the terms are x1, x2,
+        ... (FUNCTIONS.md). Expected: grunfeld_within_lag.json (lag1_value computed
+        in the test from grunfeld.csv; its 10 first-year rows hold the text "none")."""
+        header, rows = grunfeld()
+        lag = {(r[0], r[1] + 1): r[3] for r in rows}
+        table = [r + [lag.get((r[0], r[1]), "none")] for r in rows]
+        rnd = random.Random(20261202)
+        rnd.shuffle(table)
+        put_rows(self.sheet, 0, 0, [header + ["lag value"]] + table)
+        ref = reference("grunfeld_within_lag.json")
+        res = ref["results"]
+        # no header: ranges from row 2
+        est = self.cell("H1:N4")
+        est.setArrayFormula(f"=WEFT.ESTIMATES(C2:C{LAST};D2:F{LAST};A2:A{LAST};B2:B{LAST};"
+                            '"within cluster")')
+        resid = self.cell(f"P2:P{LAST}")
+        resid.setArrayFormula(f"=WEFT.RESIDUALS(C2:C{LAST};D2:F{LAST};A2:A{LAST};B2:B{LAST};"
+                              '"within")')
+        fitted = self.cell(f"Q2:Q{LAST}")
+        fitted.setArrayFormula(f"=WEFT.FITTED(C2:C{LAST};D2:F{LAST};A2:A{LAST};B2:B{LAST};"
+                               '"within")')
+        dropped = self.cell("S1")
+        dropped.setFormula(f'=WEFT.VALUE(C1:C{LAST};D1:F{LAST};A1:A{LAST};B1:B{LAST};'
+                           '"within";"rows-dropped")')
+        self.doc.calculateAll()
+        rows_out = est.getDataArray()
+        self.assertEqual([r[0] for r in rows_out[1:]], ["x1", "x2", "x3"])
+        for r, t in zip(rows_out[1:], ref["regressors_estimated"]):
+            self.assertTrue(close(r[1], res["coef"][t]), f"grunfeld_within_lag.json:coef.{t}")
+            self.assertTrue(close(r[2], res["se"]["CR1"][t]),
+                            f"grunfeld_within_lag.json:se.CR1.{t}")
+        self.assertEqual(dropped.getValue(), ref["sample"]["n_rows_dropped_missing"],
+                         "grunfeld_within_lag.json:sample.n_rows_dropped_missing")
+        e = [v[0] for v in resid.getDataArray()]
+        f = [v[0] for v in fitted.getDataArray()]
+        # within the used rows of each firm: fitted + residual = inv - mean of inv
+        used = [i for i, row in enumerate(table) if row[5] != "none"]
+        self.assertEqual(sorted(i for i, v in enumerate(e) if v != ""), used)
+        means = {}
+        for i in used:
+            means.setdefault(table[i][0], []).append(table[i][2])
+        for i in used:
+            want = table[i][2] - sum(means[table[i][0]]) / len(means[table[i][0]])
+            self.assertAlmostEqual(e[i] + f[i], want, delta=1e-9 * max(1.0, abs(want)),
+                                   msg=f"input row {i + 2}: computed in the test from "
+                                   "grunfeld.csv")
+        self.assertTrue(close(sum(v * v for v in e if v != ""), res["rss"]),
+                        "grunfeld_within_lag.json:results.rss")
+
+    def test_joint_terms_from_a_range(self):
+        """FUNCTIONS.md: terms is a text list or a range of names."""
+        self.cell("T1").setString("value")
+        self.cell("T2").setString("capital")
+        block = self.cell("H1:I7")
+        block.setArrayFormula(f'=WEFT.JOINT({R};"within";T1:T2)')
+        self.doc.calculateAll()
+        got = {r[0]: r[1] for r in block.getDataArray()}
+        w = reference("grunfeld_within.json")["results"]["wald_subset"]["classical"]
+        self.assertTrue(close(got["chi-square"], w["wald_chi2"]),
+                        "grunfeld_within.json:results.wald_subset.classical.wald_chi2")
+        self.assertTrue(close(got["F"], w["F"]),
+                        "grunfeld_within.json:results.wald_subset.classical.F")
 
     def test_whole_column_references(self):
         """Whole columns pass 1,048,576 rows; the add-in trims the blank tail.
