@@ -1,0 +1,179 @@
+#!/usr/bin/python3
+"""Sample workbooks (label sample): each sample-sheets/*.fods, opened headless with the
+add-in installed and recalculated, must show no error value and no "weft:" message in
+any cell, and its first-difference estimates must recover the true parameters that
+sample-sheets/generate.py used to make the data (the truth lies inside the 95%
+interval of each slope).
+
+    /usr/bin/python3 tests/sample/check_samples.py WORKBOOK.fods [--dump]
+
+Expected values: the true parameters in sample-sheets/generate.py (SCENARIOS[...]
+["true"]), the numbers the data were generated with; the slope estimates are also
+compared with an ordinary least-squares fit of the same differences computed here
+with numpy's lstsq (an independent route, not weft).
+"""
+
+import argparse
+import os
+import sys
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+REPO = os.path.normpath(os.path.join(HERE, "..", ".."))
+sys.path.insert(0, os.path.join(REPO, "tests", "calc"))
+sys.path.insert(0, os.path.join(REPO, "sample-sheets"))
+
+from office import Office  # noqa: E402  (tests/calc/office.py)
+import generate  # noqa: E402  (sample-sheets/generate.py: the true parameters)
+
+FORMULA_RESULT_STRING = 2   # com.sun.star.sheet.FormulaResult
+FORMULA_RESULT_ERROR = 4
+
+failures = []
+
+
+def check(cond, what):
+    print(("ok   " if cond else "FAIL ") + what)
+    if not cond:
+        failures.append(what)
+
+
+def named_block(doc, name):
+    return doc.NamedRanges.getByName(name).getReferredCells().getDataArray()
+
+
+def error_cells(doc):
+    """Addresses of formula cells whose result is an error, and of cells whose text
+    starts with 'weft:' (a message from the add-in)."""
+    bad = []
+    for i in range(doc.Sheets.getCount()):
+        sheet = doc.Sheets.getByIndex(i)
+        errs = sheet.queryFormulaCells(FORMULA_RESULT_ERROR)
+        if errs.getCount():
+            bad.append(f"{sheet.Name}: error values in {errs.getRangeAddressesAsString()}")
+        texts = sheet.queryFormulaCells(FORMULA_RESULT_STRING)
+        for block in texts.getRangeAddresses():
+            cells = sheet.getCellRangeByPosition(block.StartColumn, block.StartRow,
+                                                 block.EndColumn, block.EndRow)
+            for r, row in enumerate(cells.getDataArray()):
+                for c, v in enumerate(row):
+                    if isinstance(v, str) and v.strip().lower().startswith("weft:"):
+                        bad.append(f"{sheet.Name} row {block.StartRow + r + 1} col "
+                                   f"{block.StartColumn + c + 1}: {v}")
+    return bad
+
+
+def independent_fd(sc, rows):
+    """OLS of the first differences on [1, differenced regressors, period indicators
+    of the later period omitting the first two] (CONVENTIONS.md), by numpy lstsq."""
+    import numpy as np
+    cols = sc["columns"]
+    iu, it, iy = cols.index(sc["unit"]), cols.index(sc["period"]), cols.index(sc["outcome"])
+    ix = [cols.index(x) for x in sc["regressors"]]
+    grid = sorted({r[it] for r in rows})
+    pos = {t: i for i, t in enumerate(grid)}
+    by_key = {(r[iu], r[it]): r for r in rows}
+    later = grid[2:]
+    X, y = [], []
+    for r in rows:
+        j = pos[r[it]]
+        if j == 0:
+            continue
+        prev = by_key.get((r[iu], grid[j - 1]))
+        if prev is None:
+            continue
+        y.append(r[iy] - prev[iy])
+        X.append([1.0] + [r[c] - prev[c] for c in ix] + [1.0 if r[it] == t else 0.0
+                                                          for t in later])
+    b, *_ = np.linalg.lstsq(np.array(X), np.array(y), rcond=None)
+    return dict(zip(sc["regressors"], b[1:1 + len(ix)])), len(y)
+
+
+def main():
+    ap = argparse.ArgumentParser()
+    ap.add_argument("workbook")
+    ap.add_argument("--oxt", default=os.environ.get("WEFT_OXT"))
+    ap.add_argument("--dump", action="store_true", help="print every named block")
+    args = ap.parse_args()
+    if not args.oxt or not os.path.isfile(args.oxt):
+        sys.exit("check_samples: give --oxt or set WEFT_OXT to the built weft.oxt")
+    key = os.path.splitext(os.path.basename(args.workbook))[0]
+    if key not in generate.SCENARIOS:
+        sys.exit(f"check_samples: {key} is not a scenario of sample-sheets/generate.py")
+    sc = generate.SCENARIOS[key]
+    rows = sc["make"](sc["seed"])
+
+    with Office(extensions=[args.oxt], timeout=240) as office:
+        doc = office.load(args.workbook)
+        doc.calculateAll()
+        if args.dump:
+            for name in doc.NamedRanges.getElementNames():
+                print(f"--- {name}")
+                for row in named_block(doc, name):
+                    print("   ", row)
+
+        bad = error_cells(doc)
+        check(not bad, f"{key}: no cell shows an error value or a weft: message"
+                       + ("" if not bad else "\n      " + "\n      ".join(bad[:20])))
+
+        est = named_block(doc, "fd_estimates")
+        check(list(est[0]) == ["term", "estimate", "std error", "t", "p-value", "ci low",
+                               "ci high"], f"{key}: fd_estimates has the estimates header")
+        table = {row[0]: row for row in est[1:]}
+        n_period_terms = len({r[sc["columns"].index(sc["period"])] for r in rows}) - 2
+        check(len(est) == 1 + 1 + len(sc["regressors"]) + n_period_terms,
+              f"{key}: fd_estimates has one row per term and no more")
+        # A block smaller than its result would truncate it silently: the last row of
+        # every estimates block must be the last period's indicator.
+        last_period = max(r[sc["columns"].index(sc["period"])] for r in rows)
+        for block in ("fd_estimates", "within_estimates", "random_estimates"):
+            last = named_block(doc, block)[-1][0]
+            check(last == f"period {last_period}",
+                  f"{key}: {block} ends with the last period's term (got {last!r})")
+        reference, n_diff = independent_fd(sc, rows)
+        truth_cells = {r[0]: r[1] for r in named_block(doc, "true_parameters")}
+        for term, true in sc["true"].items():
+            check(truth_cells.get(term) == true,
+                  f"{key}: the workbook states the generator's true {term} = {true}")
+            row = table.get(term)
+            check(row is not None, f"{key}: fd_estimates has a row for {term}")
+            if row is None:
+                continue
+            b, lo, hi = row[1], row[5], row[6]
+            check(isinstance(lo, float) and lo <= true <= hi,
+                  f"{key}: true {term} = {true} lies in the fd 95% interval [{lo}, {hi}]")
+            check(abs(b - reference[term]) <= 1e-9 * max(1.0, abs(reference[term])),
+                  f"{key}: fd estimate of {term} {b} equals numpy lstsq {reference[term]}")
+        n_used = [r for r in named_block(doc, "panel_structure") if r[0] == "rows"]
+        check(bool(n_used) and n_used[0][1] == len(rows),
+              f"{key}: WEFT.PANEL counts the {len(rows)} data rows")
+
+        analysis = doc.Sheets.getByName("Analysis")
+        has_chart = analysis.Charts.getCount() >= 1
+        check(has_chart, f"{key}: the Analysis sheet holds the chart of the estimates")
+        if has_chart:
+            chart = analysis.Charts.getByIndex(0).EmbeddedObject
+            kinds = chart.getFirstDiagram().getCoordinateSystems()[0].getChartTypes()
+            series = kinds[0].getDataSeries()
+            with_bars = [s for s in series if s.ErrorBarY is not None
+                         and s.ErrorBarY.ShowPositiveError and s.ErrorBarY.ShowNegativeError]
+            check(len(with_bars) == 3,
+                  f"{key}: the chart shows fd, within and random with interval bars")
+            # The value axis is fixed in the file: every interval end must lie inside it.
+            axis = chart.getDiagram().getYAxis()
+            ends = [v for block in ("fd_estimates", "within_estimates", "random_estimates")
+                    for row in named_block(doc, block) if row[0] in sc["true"]
+                    for v in (row[5], row[6])]
+            check(all(axis.Min <= v <= axis.Max for v in ends),
+                  f"{key}: the chart's value axis [{axis.Min}, {axis.Max}] holds every "
+                  f"slope interval ({min(ends):.3f} to {max(ends):.3f})")
+        reading = [r[0] for r in named_block(doc, "reading")]
+        check(all(isinstance(t, str) and len(t) > 20 for t in reading),
+              f"{key}: the reading is written out in words")
+        doc.close(True)
+
+    print(f"{len(failures)} failed" if failures else "all checks passed")
+    return 1 if failures else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
