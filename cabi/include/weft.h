@@ -306,8 +306,8 @@ WEFT_API int weft_panel_period_grid(const weft_panel *panel, double *buf,
  * column: any column the caller has) and writes n_rows results aligned to the input
  * rows into out (capacity elements) and out_missing (n_rows flags, 1 = no result;
  * may be NULL; out then holds NaN there). capacity must be at least n_rows
- * (WEFT_EBUFFER otherwise). The panel supplies the units (and periods), and is
- * checked for repeated unit-period pairs (WEFT_EDATA names unit, period and rows).
+ * (WEFT_EBUFFER otherwise). The panel supplies the units (and periods); diff and
+ * lag refuse repeated unit-period pairs (WEFT_EDATA names unit, period and rows).
  * --------------------------------------------------------------------------- */
 
 /** Difference k grid steps apart within the unit: out[i] = v(t) - v(t - k steps)
@@ -448,12 +448,22 @@ typedef struct weft_summary_item {
                              NULL; borrowed from the model */
 } weft_summary_item;
 
-/** Number of summary items (the rows of WEFT.SUMMARY, in order: estimator,
- *  standard errors, observations used, rows dropped, units, periods, terms,
- *  residual df, clusters, R-squared items, residual std deviation, F on all slopes
- *  with its df and p-value, one item per dropped term, one per warning). Items that
- *  do not apply (e.g. clusters without cluster standard errors) are left out, so
- *  the count depends on the model. Errors: WEFT_EINVAL. */
+/** Number of summary items: the rows of WEFT.SUMMARY. Labels, in this order, with
+ *  the kind of value (T text, N number):
+ *    "estimator" T, "model" T (the canonical model text), "standard errors" T (with
+ *    the finite-sample factor when one is applied), "observations used" N (rows of
+ *    the estimated equation: differences for fd, units for between), "rows used" N,
+ *    "rows dropped" N (for a missing value), "units" N, "periods" N, "terms" N,
+ *    "residual df" N, "df of t, F and intervals" T (number and rule, e.g. "9 (G-1)"),
+ *    "clusters" N (cluster standard errors) or "periods in the covariance" N (dk),
+ *    "confidence level" N, "R-squared" N, "adjusted R-squared" N,
+ *    "R-squared within" N, "R-squared between" N, "R-squared overall" N (within and
+ *    random), "residual std deviation" N, "F on all slopes" N, "F df1" N, "F df2" N,
+ *    "F p-value" N, "idiosyncratic variance" N and "unit effect variance" N
+ *    (random), then one "term dropped" T per dropped term and one "warning" T per
+ *    warning.
+ *  Items that do not apply are left out, so the count depends on the model; look
+ *  items up by label (ABI.md: the list may grow). Errors: WEFT_EINVAL. */
 WEFT_API int weft_model_summary_count(const weft_model *model, size_t *n_items);
 
 /** Summary item `index` into *out. Errors: WEFT_EINVAL, WEFT_ERANGE. */
@@ -462,7 +472,7 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
 
 /* --- single numbers (WEFT.VALUE) --------------------------------------------- */
 
-/** One number by name, as WEFT.VALUE: `what` is one of "estimate", "se", "t", "p",
+/** One number by name, as WEFT.VALUE: `what` (case-insensitive) is one of "estimate", "se", "t", "p",
  *  "ci-low", "ci-high" (these need `term`, a term name), or (term ignored, may be
  *  NULL) "n" (observations in the estimated equation), "units", "periods", "r2",
  *  "adj-r2", "r2-within", "r2-between", "r2-overall", "sigma" (residual std
@@ -578,7 +588,8 @@ typedef struct weft_serial_result {
 } weft_serial_result;
 
 /** AR(1) check of the residuals within units (gap-aware) and, for fd and within,
- *  the level-error test. Errors: WEFT_EINVAL; WEFT_ECOMPUTE (fewer than 3 pairs). */
+ *  the level-error test. Errors: WEFT_EINVAL; WEFT_ECOMPUTE (between, which has one
+ *  row per unit; no unit with two adjacent periods; fewer than 3 pairs or 2 units). */
 WEFT_API int weft_test_serial(const weft_model *model, weft_serial_result *out);
 
 /** Result of the fixed- versus random-effects comparison (WEFT.HAUSMAN). */

@@ -10,8 +10,8 @@
 #include <string>
 #include <vector>
 
-// The caller's columns. The data are shared with the models fitted from them (a model
-// must outlive its panel), and copied before a change if a model still holds them.
+// The caller's columns. Held through a shared pointer so that a later holder (a cache,
+// a model that keeps its data) never sees them change: writable() copies first.
 struct weft_panel {
     std::size_t n_rows = 0;
     std::shared_ptr<weft::PanelData> data;
@@ -34,7 +34,6 @@ struct SummaryEntry {
 
 struct weft_model {
     weft::Fit fit;
-    std::shared_ptr<const weft::PanelData> data;  // what the model was fitted to
     weft_options options{};
     std::vector<double> table;                     // K x WEFT_COEF_COLUMNS, row-major
     std::vector<SummaryEntry> summary;

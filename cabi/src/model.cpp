@@ -8,6 +8,7 @@
 #include <weft/options.hpp>
 
 #include <algorithm>
+#include <cctype>
 #include <cmath>
 #include <cstdio>
 #include <cstring>
@@ -181,7 +182,6 @@ weft_model* new_model(const weft_panel* panel, const weft::ModelSpec& spec, cons
                                   " are both named \"" + name + "\"; give each regressor its own name");
     }
     auto model = std::make_unique<weft_model>();
-    model->data = panel->data;
     model->fit = weft::fit_model(*panel->data, spec);
     model->options = from_spec(model->fit.spec);
     model->table = build_table(model->fit);
@@ -359,7 +359,9 @@ int weft_model_value(const weft_model* model, const char* what, const char* term
         require_model(model, fn);
         require(what, fn, "what");
         require(value, fn, "value");
-        const std::string word = what;
+        // Words are case-insensitive, like the model text; term names are exact.
+        std::string word = what;
+        for (char& c : word) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
         static const char* const term_words[] = {"estimate", "se", "t", "p", "ci-low", "ci-high"};
         for (int column = 0; column < WEFT_COEF_COLUMNS; ++column) {
             if (word != term_words[column]) continue;

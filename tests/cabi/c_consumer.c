@@ -547,6 +547,7 @@ static void test_pooled(const grunfeld *g)
     /* Fit statistics: P results.r_squared, adj_r_squared, sigma, df_residual, f_all_terms */
     NEAR(value_of(m, "r2", NULL), 0.812408012544728, "P results.r_squared");
     NEAR(value_of(m, "adj-r2", NULL), 0.810503525362442, "P results.adj_r_squared");
+    NEAR(value_of(m, "R2", NULL), 0.812408012544728, "P results.r_squared (word case-insensitive)");
     NEAR(value_of(m, "sigma", NULL), 94.408403332255, "P results.sigma");
     NEAR(value_of(m, "df", NULL), 197, "P results.inference.classical.df");
     NEAR(value_of(m, "df-residual", NULL), 197, "P results.df_residual");
