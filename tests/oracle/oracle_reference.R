@@ -5,7 +5,9 @@
 # panel.csv: columns unit, period, outcome, regressor 1, regressor 2, ... (the header
 # names are the term names); an empty cell is missing.
 # cases.txt: one model text per line, e.g. "within periods" (estimator word first,
-# optionally "periods"); every standard-error family is computed for each case.
+# optionally "periods" and "no-intercept"); every standard-error family (classical,
+# hc0-hc3, cluster, cluster0, cluster-period, cluster-both, dk with the default lag, dk=0,
+# dk=3) is computed for each case.
 #
 # Two routes, both written to out.json:
 #  - "explicit": the transformed equation of CONVENTIONS.md is built here by hand on the
