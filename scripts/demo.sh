@@ -12,17 +12,19 @@ set -euo pipefail
 repo=$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)
 cd "$repo"
 build_dir=${WEFT_BUILD_DIR:-build}
+[[ "$build_dir" = /* ]] || build_dir="$repo/$build_dir"
 out_dir="$repo/out/demo"
 log_dir="$out_dir/logs"
 profile_dir="$out_dir/profile"
 workbook=${1:-sample-sheets/branch-service-costs.fods}
+[[ "$workbook" = /* ]] || workbook="$repo/$workbook"
 mkdir -p "$log_dir"
 
 step_no=0
 step() {
   local name=$1 log=$2; shift 2
   step_no=$((step_no + 1))
-  printf '[%d] %-46s ' "$step_no" "$name..."
+  printf '[%d] %-52s ' "$step_no" "$name..."
   local t0=$(date +%s)
   if "$@" >"$log" 2>&1; then
     printf 'ok (%ss)\n' "$(( $(date +%s) - t0 ))"
@@ -47,30 +49,31 @@ step "install missing Debian packages" "$log_dir/deps.log" bash scripts/deps.sh
 configure_args=(-S . -B "$build_dir" -DCMAKE_BUILD_TYPE=Release -DWEFT_WERROR=ON)
 [[ -f "$build_dir/CMakeCache.txt" ]] || configure_args+=(-G Ninja)
 step "configure (Release)" "$log_dir/configure.log" cmake "${configure_args[@]}"
-step "build library and add-in (-j2)" "$log_dir/build.log" cmake --build "$build_dir" -j 2
+step "build library and add-in (-j2)" "$log_dir/build.log" \
+  cmake --build "$build_dir" -j 2 --target weft_oxt
 
-oxt=$(find "$build_dir" -name 'weft*.oxt' -newer CMakeLists.txt -print -quit 2>/dev/null || true)
-[[ -n "$oxt" ]] || oxt=$(find "$build_dir" -name 'weft*.oxt' -print -quit 2>/dev/null || true)
-step "find the packaged add-in (weft.oxt)" "$log_dir/package.log" test -n "$oxt" -a -f "$oxt"
+oxt="$build_dir/addin/weft.oxt"
+step "check the packaged add-in (weft.oxt)" "$log_dir/package.log" test -s "$oxt"
 
 rm -rf "$profile_dir"
-step "install add-in into a private profile" "$log_dir/install-addin.log" \
-  bash scripts/install-addin.sh "$oxt" "$profile_dir"
+step "install the add-in into a private profile" "$log_dir/install-addin.log" \
+  bash scripts/install-addin.sh --oxt "$oxt" --profile "$profile_dir"
 
 step "recalculate $name headless, write PDF" "$log_dir/recalc.log" \
-  /usr/bin/python3 scripts/demo_sheet.py --profile "$profile_dir" --workbook "$workbook" \
+  /usr/bin/python3 scripts/demo_sheet.py --oxt "$oxt" --workbook "$workbook" \
   --ods "$out_dir/$name.ods" --pdf "$out_dir/$name.pdf" --table "$out_dir/$name-estimates.txt"
 
 echo
-echo "Estimates (first differences with period effects, cluster-robust by unit) from $workbook:"
+echo "Estimates from $(basename "$workbook"): first differences with period effects,"
+echo "standard errors clustered by unit (=WEFT.ESTIMATES(...; \"fd periods cluster\")):"
 echo
 cat "$out_dir/$name-estimates.txt"
 echo
 echo "Written: $out_dir/$name.pdf (PDF of the recalculated workbook)"
 echo "         $out_dir/$name.ods (the recalculated workbook)"
 echo
-echo "To open it in Calc with weft:"
-echo "  with the demo's private profile (nothing else changes):"
-echo "    soffice -env:UserInstallation=file://$profile_dir $repo/$workbook"
-echo "  or install the add-in for your own user once, then open any sample:"
-echo "    unopkg add $repo/$oxt && soffice $repo/$workbook"
+echo "To open it in Calc with weft (needs a desktop session):"
+echo "  bash scripts/install-addin.sh --oxt $oxt --profile $profile_dir --open $workbook"
+echo "or install the add-in for your own user once (Tools > Extension Manager > Add, or"
+echo "  unopkg add $oxt"
+echo "as yourself, not root) and open any workbook in sample-sheets/ in Calc."
