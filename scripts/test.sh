@@ -14,8 +14,8 @@ jobs=${WEFT_JOBS:-2}
 log_dir="$build_dir/logs"
 # Test groups every run must contain; a group with no registered test fails the run,
 # because a silently missing group would look like a pass.
-required_labels=(core spec cabi oracle calc sample)
-all_labels=(core spec cabi oracle calc sample fuzz)
+required_labels=(core spec cabi hostile oracle calc sample fuzz)
+all_labels=(core spec cabi hostile oracle calc sample fuzz bench)
 
 start_all=$(date +%s)
 declare -a step_names=() step_results=() step_secs=()
@@ -93,10 +93,17 @@ passed=$(( total - failed ))
 if [[ $rc -ne 0 ]]; then record "ctest" FAILED "$secs"; else record "ctest" ok "$secs"; fi
 
 # ---- sanitizer build and fuzz run -------------------------------------------------
-# Reserved for the sanitizer/fuzz engineer: a second build with
-# -DWEFT_SANITIZE=address,undefined into "$build_dir-asan" running the same ctest, and
-# the time-boxed fuzz run (label fuzz). Use run_step so failures stop the run and show
-# in the summary. Keep the whole script well inside CI's 90 minutes.
+# A second build with AddressSanitizer + UndefinedBehaviorSanitizer (gcc) into
+# "$build_dir-asan" running the core, spec, cabi, hostile and fuzz-replay tests, then a
+# time-boxed libFuzzer run over the C interface (clang) in "$build_dir-fuzz". Either
+# fails the run on any sanitizer report, leak, crash or hang. WEFT_FUZZ_SECONDS sets
+# the fuzzing time (default 180); WEFT_SKIP_SANITIZERS=1 skips both (local runs only).
+if [[ "${WEFT_SKIP_SANITIZERS:-0}" != 1 ]]; then
+  run_step "sanitizers (ASan+UBSan)" "$log_dir/sanitize.log" bash scripts/sanitize.sh "$build_dir-asan"
+  run_step "fuzz (${WEFT_FUZZ_SECONDS:-180}s)" "$log_dir/fuzz.log" bash scripts/fuzz.sh "$build_dir-fuzz"
+else
+  record "sanitizers and fuzz" SKIPPED 0
+fi
 # ------------------------------------------------------------------------------------
 
 summary
