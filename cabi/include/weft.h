@@ -36,8 +36,9 @@
  * Buffers.  A getter that fills a caller buffer takes (buf, capacity, needed):
  *   capacity is the number of elements buf can hold; *needed (when needed is not
  *   NULL) always receives the number of elements of the whole result. A call with
- *   buf == NULL and capacity == 0 is a size query and returns WEFT_OK. If capacity
- *   is smaller than the result, nothing is written and WEFT_EBUFFER is returned.
+ *   buf == NULL and capacity == 0 is a size query and returns WEFT_OK; buf == NULL
+ *   with a nonzero capacity is WEFT_EINVAL. If capacity is smaller than the result,
+ *   nothing is written and WEFT_EBUFFER is returned (the message gives both sizes).
  *
  * Rows.  Row i (0-based) of every column is input row i. Results aligned to rows
  *   (residuals, fitted values, transforms) have one element per input row, in input
@@ -192,9 +193,9 @@ WEFT_API int weft_options_init(weft_options *options);
 
 /** Parse a model text (FUNCTIONS.md: words such as "fd periods cluster",
  *  "within dk=2 level=0.9 no-intercept", separated by spaces or commas, any order)
- *  into *options. Words not given keep their defaults (the text overrides nothing
- *  already in *options: *options is first reset to the defaults). NULL or an empty
- *  text gives the defaults.
+ *  into *options. *options is first reset to the defaults, then the words are
+ *  applied, so a group the text does not mention has its default whatever *options
+ *  held before. NULL or an empty text gives the defaults.
  *  Errors: WEFT_EINVAL if options is NULL; WEFT_EMODEL for an unknown or conflicting
  *  word, with a message naming the word and listing the accepted words. On failure
  *  *options holds the defaults. */
