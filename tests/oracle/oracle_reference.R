@@ -187,7 +187,13 @@ covariances <- function(eq, fit) {
   out$hc1 <- hc0 * N / df_res; df$hc1 <- df_res
   out$hc2 <- sandwich::vcovHC(fit, type = "HC2"); df$hc2 <- df_res
   out$hc3 <- sandwich::vcovHC(fit, type = "HC3"); df$hc3 <- df_res
-  if (!all(is.na(eq$gi))) {
+  if (all(is.na(eq$gi))) {
+    # between: one row per unit, so clustering by unit is one row per cluster
+    G <- length(unique(eq$unit))
+    cr0 <- sandwich::vcovCL(fit, cluster = eq$unit, type = "HC0", cadjust = FALSE)
+    out$cluster0 <- cr0; df$cluster0 <- G - 1
+    out$cluster <- cr0 * G / (G - 1) * (N - 1) / (N - K); df$cluster <- G - 1
+  } else {
     G <- length(unique(eq$unit)); Gp <- length(unique(eq$gi))
     cr0 <- sandwich::vcovCL(fit, cluster = eq$unit, type = "HC0", cadjust = FALSE)
     out$cluster0 <- cr0; df$cluster0 <- G - 1
