@@ -201,6 +201,16 @@ WEFT_API int weft_options_init(weft_options *options);
  *  *options holds the defaults. */
 WEFT_API int weft_options_parse(weft_options *options, const char *model_text);
 
+/** The canonical model text of *options (every group spelled out in a fixed order,
+ *  e.g. "fd cluster periods level=0.95"), as a NUL-terminated string in buf. Two
+ *  texts or structs meaning the same model give the same string, so a host can use
+ *  it as a cache key; weft_options_parse of it gives *options back. Buffer
+ *  convention as at the top, counting chars including the terminating NUL.
+ *  Errors: WEFT_EINVAL (options NULL, or its size/version/enum fields invalid),
+ *  WEFT_EMODEL (dk_lag or level out of range), WEFT_EBUFFER. */
+WEFT_API int weft_options_text(const weft_options *options, char *buf, size_t capacity,
+                               size_t *needed);
+
 /* ------------------------------------------------------------------------------
  * Panel: the caller's columns
  * --------------------------------------------------------------------------- */

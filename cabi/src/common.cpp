@@ -178,4 +178,15 @@ int weft_options_parse(weft_options* options, const char* model_text) {
     });
 }
 
+int weft_options_text(const weft_options* options, char* buf, size_t capacity, size_t* needed) {
+    return guarded(WEFT_EMODEL, [&] {
+        const char* fn = "weft_options_text";
+        require(options, fn, "options");
+        const std::string text = weft::describe(read_options(options, fn));
+        if (!buffer_ready(fn, buf, capacity, needed, text.size() + 1)) return WEFT_OK;
+        std::memcpy(buf, text.c_str(), text.size() + 1);
+        return WEFT_OK;
+    });
+}
+
 }  // extern "C"

@@ -254,6 +254,28 @@ static void test_options(void)
     OK(weft_options_parse(&p, ""));
     CHECK(p.estimator == WEFT_POOLED);
 
+    /* Canonical text: the same model in two spellings gives one text, which parses
+     * back to the same options (weft.h weft_options_text). */
+    {
+        char text_a[128], text_b[128], small[4];
+        size_t needed = 0;
+        weft_options q;
+        OK(weft_options_parse(&p, "cluster, periods fd"));
+        OK(weft_options_text(&p, NULL, 0, &needed));
+        CHECK(needed > 1 && needed < sizeof text_a);
+        OK(weft_options_text(&p, text_a, sizeof text_a, &needed));
+        CHECK(strlen(text_a) + 1 == needed);
+        OK(weft_options_parse(&q, "fd periods cluster level=0.95"));
+        OK(weft_options_text(&q, text_b, sizeof text_b, NULL));
+        CHECK(strcmp(text_a, text_b) == 0);
+        OK(weft_options_parse(&q, text_a));
+        CHECK(q.estimator == WEFT_FD && q.se == WEFT_SE_CLUSTER && q.period_effects == 1);
+        EXPECT_ERROR(weft_options_text(&p, small, sizeof small, &needed), WEFT_EBUFFER, "buffer holds 4");
+        EXPECT_ERROR(weft_options_text(NULL, text_a, sizeof text_a, &needed), WEFT_EINVAL, "options is NULL");
+        q.se = 77;
+        EXPECT_ERROR(weft_options_text(&q, text_a, sizeof text_a, &needed), WEFT_EINVAL, "se is 77");
+    }
+
     /* Errors name the word (FUNCTIONS.md: unknown or conflicting words). */
     EXPECT_ERROR(weft_options_parse(&p, "fd wobble"), WEFT_EMODEL, "wobble");
     CHECK(p.estimator == WEFT_POOLED); /* defaults on failure */
