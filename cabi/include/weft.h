@@ -343,6 +343,13 @@ WEFT_API int weft_panel_demean(const weft_panel *panel, const double *values,
                                const unsigned char *missing, double *out,
                                unsigned char *out_missing, size_t capacity);
 
+/** The unit's mean over the rows where the value is present, on every such row
+ *  (the quantity weft_panel_demean subtracts; between regresses on it). Needs only
+ *  units. Errors as weft_panel_demean. */
+WEFT_API int weft_panel_unit_means(const weft_panel *panel, const double *values,
+                                   const unsigned char *missing, double *out,
+                                   unsigned char *out_missing, size_t capacity);
+
 /** Period indicator block, row-major: n_rows rows by C columns, one column per
  *  distinct period among the rows that have a period (units are not needed), sorted;
  *  with omit_first != 0 the first period's column is left out. Element [i * C + j]
@@ -421,6 +428,12 @@ WEFT_API int weft_model_term_name(const weft_model *model, size_t index,
 WEFT_API int weft_model_coefficients(const weft_model *model, double *buf,
                                      size_t capacity, size_t *needed);
 
+/** The covariance matrix of the estimates under the model's standard errors,
+ *  row-major n_terms by n_terms in term order. *needed = n_terms * n_terms. Buffer
+ *  convention as at the top. Errors: WEFT_EINVAL (NULL model), WEFT_EBUFFER. */
+WEFT_API int weft_model_covariance(const weft_model *model, double *buf,
+                                   size_t capacity, size_t *needed);
+
 /** Number of terms dropped (collinear, or no variation within units for within/fd)
  *  into *n_dropped. Errors: WEFT_EINVAL. */
 WEFT_API int weft_model_dropped_count(const weft_model *model, size_t *n_dropped);
@@ -489,7 +502,9 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
  *  "adj-r2", "r2-within", "r2-between", "r2-overall", "sigma" (residual std
  *  deviation), "df" (df of t, F and intervals under the model's standard errors),
  *  "df-residual", "f", "f-df1", "f-df2", "f-p" (F on all slopes), "ssr",
- *  "clusters", "rows-dropped".
+ *  "clusters", "rows-dropped", and for random effects "sigma2-idiosyncratic",
+ *  "sigma2-unit" and "theta" (the quasi-demeaning weight; NaN when the panel is
+ *  unbalanced, where theta differs between units).
  *  *value receives the number (NaN on failure or when it does not apply to this
  *  estimator, e.g. "r2-within" for pooled, which is still WEFT_OK).
  *  Errors: WEFT_EINVAL (NULL model/what/value, or a term-wise word without term);
@@ -518,6 +533,16 @@ WEFT_API int weft_model_fitted(const weft_model *model, double *buf,
                                unsigned char *unused, size_t capacity,
                                size_t *needed);
 
+/** The estimated unit effect (unit mean of the outcome minus the unit means of the
+ *  regressors times the slopes) of a within model, aligned to the input rows: each
+ *  row of the estimated equation holds its unit's effect; other rows hold NaN with
+ *  unused[i] = 1 (unused may be NULL). *needed = n_rows. Buffer convention as at
+ *  the top. Errors: WEFT_EINVAL (NULL model), WEFT_ECOMPUTE (not a within model:
+ *  other estimators do not estimate unit effects), WEFT_EBUFFER. */
+WEFT_API int weft_model_unit_effects(const weft_model *model, double *buf,
+                                     unsigned char *unused, size_t capacity,
+                                     size_t *needed);
+
 /* ------------------------------------------------------------------------------
  * Specification tests. Result layouts never change (ABI.md); a later version adds
  * new structs and functions instead. A number that cannot be computed is NaN.
@@ -540,6 +565,15 @@ typedef struct weft_wald_result {
  *  names it and says whether it was dropped); WEFT_ECOMPUTE (singular R V R'). */
 WEFT_API int weft_test_joint(const weft_model *model, const char *const *terms,
                              size_t n_terms, weft_wald_result *out);
+
+/** Wald test of q linear restrictions R b = r under the model's covariance.
+ *  restriction is R, row-major q by n_terms in term order (weft_model_term_name);
+ *  value is r (q numbers; NULL means all zero). The F form uses the model's
+ *  inference df, as weft_test_joint. Errors: WEFT_EINVAL (NULL model/restriction/
+ *  out, q = 0, a non-finite number in R or r); WEFT_ECOMPUTE (R V R' singular, e.g.
+ *  a restriction repeated). */
+WEFT_API int weft_test_linear(const weft_model *model, const double *restriction,
+                              size_t q, const double *value, weft_wald_result *out);
 
 /** As weft_test_joint with the names given as one text separated by commas
  *  (spaces around names are ignored), e.g. "value, capital". */

@@ -157,12 +157,21 @@ std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
         return is_cluster(fit.covariance.kind) ? std::optional<double>(static_cast<double>(fit.covariance.clusters))
                                                : std::nullopt;
     if (what == "rows-dropped") return static_cast<double>(fit.rows_dropped);
+    if (what == "sigma2-idiosyncratic" || what == "sigma2-unit" || what == "theta") {
+        if (!fit.random_effects) return std::nullopt;
+        const weft::RandomEffectsInfo& re = *fit.random_effects;
+        if (what == "sigma2-idiosyncratic") return re.sigma2_idiosyncratic;
+        if (what == "sigma2-unit") return re.sigma2_unit;
+        if (!re.balanced || fit.equation.unit.empty()) return std::nullopt;
+        return re.theta_by_unit.at(static_cast<std::size_t>(fit.equation.unit.front()));
+    }
     throw std::out_of_range(what);
 }
 
 constexpr const char* value_words =
     "estimate, se, t, p, ci-low, ci-high (with a term), n, units, periods, r2, adj-r2, r2-within, "
-    "r2-between, r2-overall, sigma, df, df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped";
+    "r2-between, r2-overall, sigma, df, df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped, "
+    "sigma2-idiosyncratic, sigma2-unit, theta";
 
 }  // namespace
 
@@ -267,6 +276,41 @@ int weft_model_coefficients(const weft_model* model, double* buf, size_t capacit
         require_model(model, fn);
         if (!buffer_ready(fn, buf, capacity, needed, model->table.size())) return WEFT_OK;
         std::copy(model->table.begin(), model->table.end(), buf);
+        return WEFT_OK;
+    });
+}
+
+int weft_model_covariance(const weft_model* model, double* buf, size_t capacity, size_t* needed) {
+    return guarded(WEFT_EINVAL, [&] {
+        const char* fn = "weft_model_covariance";
+        require_model(model, fn);
+        const Eigen::MatrixXd& v = model->fit.covariance.matrix;
+        const std::size_t k = static_cast<std::size_t>(v.rows());
+        if (!buffer_ready(fn, buf, capacity, needed, k * k)) return WEFT_OK;
+        for (std::size_t r = 0; r < k; ++r)
+            for (std::size_t c = 0; c < k; ++c)
+                buf[r * k + c] = v(static_cast<Eigen::Index>(r), static_cast<Eigen::Index>(c));
+        return WEFT_OK;
+    });
+}
+
+int weft_model_unit_effects(const weft_model* model, double* buf, unsigned char* unused, size_t capacity,
+                            size_t* needed) {
+    return guarded(WEFT_ECOMPUTE, [&] {
+        const char* fn = "weft_model_unit_effects";
+        require_model(model, fn);
+        const weft::Fit& fit = model->fit;
+        if (fit.spec.estimator != weft::Estimator::within || fit.unit_effects.empty())
+            fail(WEFT_ECOMPUTE, std::string("unit effects are estimated by within only; this model is ") +
+                                    weft::to_word(fit.spec.estimator) + " (use \"within\" in the model text)");
+        const std::size_t n = fit.residuals.size();
+        if (!buffer_ready(fn, buf, capacity, needed, n)) return WEFT_OK;
+        for (std::size_t i = 0; i < n; ++i) {
+            const std::int32_t unit = fit.index.unit_of_row[i];
+            const bool defined = fit.residuals.is_defined(i) && unit >= 0;
+            buf[i] = defined ? fit.unit_effects.at(static_cast<std::size_t>(unit)) : nan_value;
+            if (unused != nullptr) unused[i] = defined ? 0 : 1;
+        }
         return WEFT_OK;
     });
 }

@@ -285,6 +285,20 @@ int weft_panel_demean(const weft_panel* panel, const double* values, const unsig
     });
 }
 
+int weft_panel_unit_means(const weft_panel* panel, const double* values, const unsigned char* missing,
+                          double* out, unsigned char* out_missing, size_t capacity) {
+    return guarded(WEFT_EDATA, [&] {
+        const char* fn = "weft_panel_unit_means";
+        require_units(panel, fn);
+        check_transform(panel, values, out, capacity, fn);
+        const weft::PanelData& d = *panel->data;
+        write_series(weft::unit_means(copy_column("values", values, missing, panel->n_rows), d.units,
+                                      d.first_row_number),
+                     out, out_missing);
+        return WEFT_OK;
+    });
+}
+
 int weft_panel_dummies(const weft_panel* panel, int omit_first, double* buf, size_t capacity,
                        size_t* needed) {
     return guarded(WEFT_EDATA, [&] {

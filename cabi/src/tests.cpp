@@ -7,6 +7,7 @@
 
 #include <weft/spec.hpp>
 
+#include <cmath>
 #include <string>
 #include <vector>
 
@@ -113,6 +114,37 @@ int weft_test_joint(const weft_model* model, const char* const* terms, size_t n_
             names.emplace_back(terms[i]);
         }
         return joint(model, names, out);
+    });
+}
+
+int weft_test_linear(const weft_model* model, const double* restriction, size_t q, const double* value,
+                     weft_wald_result* out) {
+    return guarded(WEFT_ECOMPUTE, [&] {
+        const char* fn = "weft_test_linear";
+        require_model(model, fn);
+        require(restriction, fn, "restriction");
+        require(out, fn, "out");
+        *out = nan_wald();
+        if (q == 0) fail(WEFT_EINVAL, std::string(fn) + ": q is 0; give at least one restriction");
+        const std::size_t k = model->fit.equation.terms.size();
+        Eigen::MatrixXd r(static_cast<Eigen::Index>(q), static_cast<Eigen::Index>(k));
+        Eigen::VectorXd rhs = Eigen::VectorXd::Zero(static_cast<Eigen::Index>(q));
+        for (std::size_t i = 0; i < q; ++i) {
+            for (std::size_t j = 0; j < k; ++j) {
+                const double x = restriction[i * k + j];
+                if (!std::isfinite(x))
+                    fail(WEFT_EINVAL, std::string(fn) + ": restriction row " + std::to_string(i) + ", column " +
+                                          std::to_string(j) + " is not a finite number");
+                r(static_cast<Eigen::Index>(i), static_cast<Eigen::Index>(j)) = x;
+            }
+            if (value != nullptr) {
+                if (!std::isfinite(value[i]))
+                    fail(WEFT_EINVAL, std::string(fn) + ": value[" + std::to_string(i) + "] is not a finite number");
+                rhs[static_cast<Eigen::Index>(i)] = value[i];
+            }
+        }
+        *out = to_c(weft::wald_test(model->fit, r, rhs));
+        return WEFT_OK;
     });
 }
 

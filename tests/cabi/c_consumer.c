@@ -443,6 +443,18 @@ static void test_structure_and_transforms(const grunfeld *g)
         CHECK(missing[0] == 0);
     }
 
+    /* Unit means: firm 1's mean of inv computed here from the data (D rows 0-19). */
+    {
+        double mean = 0.0;
+        for (i = 0; i < 20; ++i) mean += g->inv[i];
+        mean /= 20.0;
+        OK(weft_panel_unit_means(p, g->inv, NULL, out, missing, MAX_ROWS));
+        NEAR_TOL(out[0], mean, 1e-12, "D firm 1 mean of inv");
+        NEAR_TOL(out[19], mean, 1e-12, "D firm 1 mean of inv");
+        EXPECT_ERROR(weft_panel_unit_means(p, g->inv, NULL, small, missing, 3), WEFT_EBUFFER, "200");
+        EXPECT_ERROR(weft_panel_unit_means(NULL, g->inv, NULL, out, missing, MAX_ROWS), WEFT_EINVAL, "panel is NULL");
+    }
+
     /* Period indicators: 20 columns (D), row 0 is 1935. */
     OK(weft_panel_dummies(p, 0, NULL, 0, &needed));
     CHECK(needed == 200 * 20);
@@ -716,6 +728,53 @@ static void test_pooled(const grunfeld *g)
     EXPECT_ERROR(weft_test_hetero(m, WEFT_HETERO_BP, NULL), WEFT_EINVAL, "out is NULL");
     EXPECT_ERROR(weft_test_hetero(NULL, WEFT_HETERO_BP, &h), WEFT_EINVAL, "model is NULL");
 
+    /* Covariance matrix: P results.vcov.classical (order intercept, value, capital). */
+    {
+        static const double vcov[9] = {90.4719809267633, -0.0167830082386874, -0.100549494895887,
+                                       -0.0167830082386874, 3.40555060362362e-05, -7.26555903922825e-05,
+                                       -0.100549494895887, -7.26555903922825e-05, 0.000649016460870495};
+        double got[9];
+        OK(weft_model_covariance(m, NULL, 0, &needed));
+        CHECK(needed == 9);
+        OK(weft_model_covariance(m, got, 9, &needed));
+        for (i = 0; i < 9; ++i) NEAR(got[i], vcov[i], "P results.vcov.classical");
+        EXPECT_ERROR(weft_model_covariance(m, got, 8, &needed), WEFT_EBUFFER, "9");
+        EXPECT_ERROR(weft_model_covariance(NULL, got, 9, &needed), WEFT_EINVAL, "model is NULL");
+    }
+
+    /* General linear restrictions R b = r. */
+    {
+        const double both[6] = {0, 1, 0, 0, 0, 1};
+        const double one[3] = {0, 1, 0};
+        const double twice[6] = {0, 1, 0, 0, 1, 0};
+        const double bad[3] = {0, NAN, 0};
+        const double r_value[1] = {0.1};
+        const double r_bad[1] = {HUGE_VAL};
+        /* value and capital both zero: P wald_subset.classical */
+        OK(weft_test_linear(m, both, 2, NULL, &w));
+        NEAR(w.chi2, 853.151462609627, "P wald_subset.classical.wald_chi2");
+        NEAR(w.f_p, 2.57992470719404e-72, "P wald_subset.classical.F_df_resid.p");
+        /* one restriction: F = t^2 with t from P inference.classical.t.value */
+        OK(weft_test_linear(m, one, 1, NULL, &w));
+        NEAR(w.f, 19.8025887387704 * 19.8025887387704, "P inference.classical.t.value squared");
+        CHECK(w.f_df1 == 1 && w.f_df2 == 197);
+        /* value = 0.1: F = ((b - 0.1)/se)^2 with b, se from P results.coef / se.classical */
+        OK(weft_test_linear(m, one, 1, r_value, &w));
+        NEAR(w.f, pow((0.115562156360552 - 0.1) / 0.00583570955722063, 2),
+             "P results.coef.value and se.classical.value");
+        EXPECT_ERROR(weft_test_linear(m, twice, 2, NULL, &w), WEFT_ECOMPUTE, "singular");
+        EXPECT_ERROR(weft_test_linear(m, bad, 1, NULL, &w), WEFT_EINVAL, "not a finite number");
+        EXPECT_ERROR(weft_test_linear(m, one, 1, r_bad, &w), WEFT_EINVAL, "value[0]");
+        EXPECT_ERROR(weft_test_linear(m, one, 0, NULL, &w), WEFT_EINVAL, "q is 0");
+        EXPECT_ERROR(weft_test_linear(m, NULL, 1, NULL, &w), WEFT_EINVAL, "restriction is NULL");
+        EXPECT_ERROR(weft_test_linear(NULL, one, 1, NULL, &w), WEFT_EINVAL, "model is NULL");
+        EXPECT_ERROR(weft_test_linear(m, one, 1, NULL, NULL), WEFT_EINVAL, "out is NULL");
+    }
+
+    /* Unit effects belong to within. */
+    EXPECT_ERROR(weft_model_unit_effects(m, resid, unused, MAX_ROWS, &needed), WEFT_ECOMPUTE, "within only");
+    CHECK(isnan(value_of(m, "theta", NULL)));
+
     /* Serial check on pooled: the level-error test applies to fd and within only. */
     OK(weft_test_serial(m, &sr));
     CHECK(isnan(sr.level_null) && isnan(sr.level_f) && isnan(sr.level_p));
@@ -753,6 +812,16 @@ static void test_pooled_robust(const grunfeld *g)
     NEAR(value_of(m, "df", NULL), 9, "P inference.CR1.df");
     NEAR(value_of(m, "clusters", NULL), 10, "P results.clusters.G");
     CHECK(summary_find(m, "clusters", &item) > 0 && item.number == 10.0);
+    {
+        /* P results.vcov.CR1 */
+        static const double vcov[9] = {417.188914669338, 0.209618982371325, -1.21710416442753,
+                                       0.209618982371325, 0.000252629938721582, -0.000650433854351843,
+                                       -1.21710416442753, -0.000650433854351843, 0.00721941022962055};
+        double got[9];
+        size_t i, needed = 0;
+        OK(weft_model_covariance(m, got, 9, &needed));
+        for (i = 0; i < 9; ++i) NEAR(got[i], vcov[i], "P results.vcov.CR1");
+    }
     OK(weft_test_joint_list(m, "value, capital", &w));
     NEAR(w.chi2, 103.181209563226, "P wald_subset.CR1.wald_chi2");
     NEAR(w.f, 51.5906047816128, "P wald_subset.CR1.F");
@@ -856,6 +925,26 @@ static void test_within_random(const grunfeld *g)
     NEAR(s.level_p, 1.64949660179742e-05, "R within_serial.level_p");
     weft_model_free(m);
 
+    {
+        /* R within.unit_effect.firm1 / firm10 (plm fixef); D: rows 0-19 are firm 1,
+         * rows 180-199 firm 10. */
+        double effect[MAX_ROWS];
+        unsigned char unused[MAX_ROWS];
+        size_t needed = 0;
+        m = fit_text(p, "within");
+        OK(weft_model_unit_effects(m, NULL, NULL, 0, &needed));
+        CHECK(needed == 200);
+        OK(weft_model_unit_effects(m, effect, unused, MAX_ROWS, &needed));
+        CHECK(g->firm[0] == 1 && g->firm[19] == 1 && g->firm[180] == 10 && g->firm[199] == 10);
+        NEAR(effect[0], -70.2967174555104, "R within.unit_effect.firm1");
+        NEAR(effect[19], -70.2967174555104, "R within.unit_effect.firm1");
+        NEAR(effect[199], -6.56784353738025, "R within.unit_effect.firm10");
+        CHECK(unused[0] == 0 && unused[199] == 0);
+        EXPECT_ERROR(weft_model_unit_effects(m, effect, unused, 10, &needed), WEFT_EBUFFER, "200");
+        EXPECT_ERROR(weft_model_unit_effects(NULL, effect, unused, MAX_ROWS, &needed), WEFT_EINVAL, "model is NULL");
+        weft_model_free(m);
+    }
+
     m = fit_text(p, "within cluster");
     check_table(m, slopes, w_coef, w_cr1, 2, "R within.se.CR1 (plm sss)");
     weft_model_free(m);
@@ -870,6 +959,9 @@ static void test_within_random(const grunfeld *g)
         NEAR(value_of(m, "se", "value"), 0.0104926635495465, "R random.se.classical.value");
     }
     CHECK(summary_find(m, "estimator", &item) == 0 && strstr(item.text, "random") != NULL);
+    NEAR(value_of(m, "sigma2-idiosyncratic", NULL), 2784.45823077794, "R random.sigma2_idios");
+    NEAR(value_of(m, "sigma2-unit", NULL), 7089.80009930804, "R random.sigma2_id");
+    NEAR(value_of(m, "theta", NULL), 0.861223620747879, "R random.theta");
     weft_model_free(m);
 
     /* Hausman: R hausman.* and hausman_robust.* */

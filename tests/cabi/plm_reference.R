@@ -83,3 +83,13 @@ out("within_serial.level_null", r0)
 out("within_serial.level_se", sqrt(Vs[2, 2]))
 out("within_serial.level_f", Fl)
 out("within_serial.level_p", pf(Fl, 1, G - 1, lower.tail = FALSE))
+
+# Unit effects of the within fit (ybar_i - xbar_i' b) and the random-effects variance
+# components and theta (balanced panel: one theta).
+fx <- fixef(fe)
+out("within.unit_effect.firm1", fx["1"])
+out("within.unit_effect.firm10", fx["10"])
+ec <- ercomp(re)
+out("random.sigma2_idios", ec$sigma2["idios"])
+out("random.sigma2_id", ec$sigma2["id"])
+out("random.theta", ec$theta[1])
