@@ -548,6 +548,12 @@ WEFT_API int weft_model_unit_effects(const weft_model *model, double *buf,
  * new structs and functions instead. A number that cannot be computed is NaN.
  * --------------------------------------------------------------------------- */
 
+/** The warnings of the most recent weft_test_* call on this thread, joined with
+ *  "; " (e.g. a Hausman variance difference that is not positive definite, or
+ *  auxiliary terms of white-full dropped as collinear); "" when it had none or
+ *  failed. Never NULL. Valid until the next weft_test_* call on this thread. */
+WEFT_API const char *weft_test_warnings(void);
+
 /** Wald test that named terms are all zero (WEFT.JOINT). */
 typedef struct weft_wald_result {
     double f;         /**< W / q */

@@ -19,6 +19,14 @@ weft_model* new_model(const weft_panel* panel, const weft::ModelSpec& spec, cons
 
 namespace {
 
+// Warnings of the last test call on this thread (weft_test_warnings).
+thread_local std::string test_warnings;
+
+void keep_warnings(const std::vector<std::string>& warnings) {
+    test_warnings.clear();
+    for (const std::string& w : warnings) test_warnings += (test_warnings.empty() ? "" : "; ") + w;
+}
+
 weft_wald_result to_c(const weft::WaldResult& r) {
     weft_wald_result out;
     out.f = r.f;
@@ -87,6 +95,8 @@ std::unique_ptr<weft_model> fit_for_test(const weft_panel* panel, weft::ModelSpe
 
 extern "C" {
 
+const char* weft_test_warnings(void) { return test_warnings.c_str(); }
+
 int weft_hetero_form_parse(const char* word, int* form) {
     return guarded(WEFT_EMODEL, [&] {
         require(form, "weft_hetero_form_parse", "form");
@@ -104,6 +114,7 @@ int weft_test_joint(const weft_model* model, const char* const* terms, size_t n_
                     weft_wald_result* out) {
     return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_joint";
+        test_warnings.clear();
         require_model(model, fn);
         require(terms, fn, "terms");
         require(out, fn, "out");
@@ -121,6 +132,7 @@ int weft_test_linear(const weft_model* model, const double* restriction, size_t 
                      weft_wald_result* out) {
     return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_linear";
+        test_warnings.clear();
         require_model(model, fn);
         require(restriction, fn, "restriction");
         require(out, fn, "out");
@@ -151,6 +163,7 @@ int weft_test_linear(const weft_model* model, const double* restriction, size_t 
 int weft_test_joint_list(const weft_model* model, const char* term_list, weft_wald_result* out) {
     return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_joint_list";
+        test_warnings.clear();
         require_model(model, fn);
         require(term_list, fn, "term_list");
         require(out, fn, "out");
@@ -161,6 +174,7 @@ int weft_test_joint_list(const weft_model* model, const char* term_list, weft_wa
 int weft_test_hetero(const weft_model* model, int form, weft_hetero_result* out) {
     return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_hetero";
+        test_warnings.clear();
         require_model(model, fn);
         require(out, fn, "out");
         weft::HeteroForm core_form = weft::HeteroForm::koenker;
@@ -174,6 +188,7 @@ int weft_test_hetero(const weft_model* model, int form, weft_hetero_result* out)
                                       ", which is not a weft_hetero_form value (0 to 3)");
         }
         const weft::HeteroResult r = weft::hetero_test(model->fit, core_form);
+        keep_warnings(r.warnings);
         *out = weft_hetero_result{r.lm, r.lm_df, r.lm_p, r.f, r.f_df1, r.f_df2, r.f_p, r.aux_r2};
         return WEFT_OK;
     });
@@ -182,9 +197,11 @@ int weft_test_hetero(const weft_model* model, int form, weft_hetero_result* out)
 int weft_test_serial(const weft_model* model, weft_serial_result* out) {
     return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_serial";
+        test_warnings.clear();
         require_model(model, fn);
         require(out, fn, "out");
         const weft::SerialResult r = weft::serial_test(model->fit);
+        keep_warnings(r.warnings);
         weft_serial_result s;
         s.intercept = r.intercept;
         s.slope = r.slope;
@@ -208,12 +225,14 @@ int weft_test_serial(const weft_model* model, weft_serial_result* out) {
 int weft_test_hausman(const weft_panel* panel, const weft_options* options, weft_hausman_result* out) {
     return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_hausman";
+        test_warnings.clear();
         require(panel, fn, "panel");
         require(out, fn, "out");
         const weft::ModelSpec spec = read_options(options, fn);
         const auto within = fit_for_test(panel, spec, weft::Estimator::within, fn);
         const auto random = fit_for_test(panel, spec, weft::Estimator::random, fn);
         const weft::HausmanResult r = weft::hausman_test(within->fit, random->fit);
+        keep_warnings(r.warnings);
         weft_hausman_result h;
         h.statistic = r.statistic;
         h.df = r.df;
@@ -230,6 +249,7 @@ int weft_test_hausman(const weft_panel* panel, const weft_options* options, weft
 int weft_test_effects(const weft_panel* panel, const weft_options* options, weft_effects_result* out) {
     return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_test_effects";
+        test_warnings.clear();
         require(panel, fn, "panel");
         require(out, fn, "out");
         weft::ModelSpec spec = read_options(options, fn);
@@ -237,6 +257,7 @@ int weft_test_effects(const weft_panel* panel, const weft_options* options, weft
         spec.intercept = true;  // the comparator is pooled OLS with an intercept
         const auto pooled = fit_for_test(panel, spec, weft::Estimator::pooled, fn);
         const weft::EffectsResult r = weft::effects_test(within->fit, pooled->fit);
+        keep_warnings(r.warnings);
         *out = weft_effects_result{r.f, r.df1, r.df2, r.p, r.ssr_pooled, r.ssr_within};
         return WEFT_OK;
     });

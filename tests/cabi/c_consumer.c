@@ -706,6 +706,7 @@ static void test_pooled(const grunfeld *g)
     EXPECT_ERROR(weft_hetero_form_parse("bp", NULL), WEFT_EINVAL, "form is NULL");
 
     OK(weft_test_hetero(m, WEFT_HETERO_KOENKER, &h));
+    CHECK(weft_test_warnings() != NULL && strcmp(weft_test_warnings(), "") == 0);
     NEAR(h.lm, 55.2470842121668, "P heteroskedasticity.koenker_LM.stat");
     NEAR(h.lm_p, 1.00750704749363e-12, "P heteroskedasticity.koenker_LM.p");
     NEAR(h.f, 37.5939770558724, "P heteroskedasticity.F.stat");
@@ -725,6 +726,7 @@ static void test_pooled(const grunfeld *g)
     NEAR(h.f, 32.9126090859683, "P heteroskedasticity.white_full.F.stat");
     CHECK(h.lm_df == 5 && h.f_df2 == 194);
     EXPECT_ERROR(weft_test_hetero(m, 7, &h), WEFT_EINVAL, "form is 7");
+    CHECK(strcmp(weft_test_warnings(), "") == 0); /* a failed test leaves no warnings */
     EXPECT_ERROR(weft_test_hetero(m, WEFT_HETERO_BP, NULL), WEFT_EINVAL, "out is NULL");
     EXPECT_ERROR(weft_test_hetero(NULL, WEFT_HETERO_BP, &h), WEFT_EINVAL, "model is NULL");
 
@@ -1160,6 +1162,24 @@ static void test_model_misuse(const grunfeld *g)
     /* Same slopes as without the copy: P results.coef.value */
     NEAR(value_of(m, "estimate", "value"), 0.115562156360552, "P results.coef.value");
     weft_model_free(m);
+
+    /* white-full with a 0/1 regressor: its square is itself, so that auxiliary column
+     * is dropped as collinear and the test says so (CONVENTIONS.md white-full). */
+    {
+        double later[MAX_ROWS];
+        weft_panel *q = make_panel(g, 0, NULL, NULL);
+        weft_hetero_result h;
+        size_t i;
+        for (i = 0; i < g->n; ++i) later[i] = g->year[i] >= 1945 ? 1.0 : 0.0;
+        OK(weft_panel_add_regressor(q, "later", later, NULL));
+        m = fit_text(q, "pooled");
+        OK(weft_test_hetero(m, WEFT_HETERO_WHITE_FULL, &h));
+        CHECK(strstr(weft_test_warnings(), "collinear") != NULL);
+        OK(weft_test_hetero(m, WEFT_HETERO_KOENKER, &h));
+        CHECK(strcmp(weft_test_warnings(), "") == 0);
+        weft_model_free(m);
+        weft_panel_free(q);
+    }
 
     /* within with hc standard errors warns (CONVENTIONS.md, Stock & Watson 2008). */
     m = fit_text(p, "within hc1");
