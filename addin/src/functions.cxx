@@ -431,10 +431,11 @@ OutTable model_column(const PanelRanges& ranges, const Arg& model_arg, RowValues
 
 // Optional text argument: omitted, blank or a blank reference (0) give "".
 std::string optional_word(const Arg& a, const char* name, const char* example) {
-    const Cell& c = a.scalar();
-    if (!a.given || c.is_blank()) return "";
-    if (a.given && !a.is_scalar())
+    if (!a.given) return "";
+    if (!a.is_scalar())
         fail(std::string(name) + " is a range of several cells; give one word, e.g. " + example);
+    const Cell& c = a.scalar();
+    if (c.is_blank()) return "";
     if (c.is_number()) {
         if (c.number == 0.0) return "";
         fail(std::string(name) + " is the number " + format_number(c.number) +
