@@ -23,7 +23,9 @@ difference the test exists to catch (a degrees-of-freedom choice, a factor G/(G-
 difference taken across a gap) moves results by 1e-3 or more.
 
 Exit status: 0 all agree; 1 a mismatch or a value missing on one side; 2 R, a package
-or the CLI is missing or failed (an absent oracle is a failure, never a skip).
+or the CLI is missing or failed (an absent oracle is a failure, never a skip). As a
+self-check, every nonzero number is also compared after moving weft's value by 100 times
+the tolerance: the run fails if such a change would go unnoticed.
 """
 
 import argparse
@@ -189,6 +191,7 @@ def main():
         f.write("\n".join(CASES) + "\n")
 
     failures = []
+    undetected = []  # numbers where a change of 100 x tolerance would go unnoticed
     table = {}      # (route, group) -> [max rel diff, count, where]
     compared = 0
     software = None
@@ -275,6 +278,12 @@ def main():
                     if d > args.tolerance:
                         failures.append("%s %s %s: weft %r, R %r, rel diff %.3g"
                                         % (name, route, "/".join(full), wv, rv, d))
+                    # Self-check: the comparison must notice weft being off by 100 times
+                    # the tolerance, so that this test can fail.
+                    if (isinstance(wv, float) and not isinstance(wv, bool) and wv != 0
+                            and rel_diff(wv * (1 + 100 * args.tolerance), rv)
+                            <= args.tolerance):
+                        undetected.append("/".join(full))
 
     print("\nR %s" % json.dumps(software))
     print("%-9s %-19s %-22s %6s %11s  %s" % ("route", "case", "quantity", "n",
@@ -287,6 +296,10 @@ def main():
     print("%d numbers compared" % compared)
     if compared == 0:
         print("FAIL: nothing was compared")
+        return 1
+    if undetected:
+        print("FAIL: the comparison would not notice a relative change of %g in %d numbers, "
+              "e.g. %s" % (100 * args.tolerance, len(undetected), undetected[0]))
         return 1
     if failures:
         print("FAIL: %d mismatches" % len(failures))
