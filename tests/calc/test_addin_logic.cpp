@@ -1,0 +1,250 @@
+// The add-in's cell logic without an office: functions.cxx over plain tables, the
+// input hash, the LRU cache and the wizard-text table. Fast, and runs under the
+// sanitizer builds, which the office cannot.
+//
+// Expected values: tests/data/panel/grunfeld_within.json and grunfeld_pooled.json
+// (R plm/sandwich/lmtest, see the README there), named beside each check; cell
+// rules from FUNCTIONS.md.
+#include "cache.hpp"
+#include "cells.hpp"
+#include "functions.hpp"
+#include "texts.hpp"
+
+#if __has_include(<catch2/catch_test_macros.hpp>)
+#include <catch2/catch_test_macros.hpp>
+#else
+#include <catch2/catch.hpp>  // Debian 12 ships Catch2 v2
+#endif
+#include <nlohmann/json.hpp>
+
+#include <cctype>
+#include <cmath>
+#include <fstream>
+#include <functional>
+#include <sstream>
+#include <string>
+#include <vector>
+
+using namespace weft_addin;
+namespace {
+
+bool rel_close(double actual, double expected, double rel = 1e-9) {
+    return std::fabs(actual - expected) <= rel * std::fabs(expected);
+}
+
+bool contains(const std::string& s, const std::string& part) {
+    return s.find(part) != std::string::npos;
+}
+
+bool starts_with(const std::string& s, const std::string& part) { return s.rfind(part, 0) == 0; }
+
+Cell num(double v) {
+    Cell c;
+    c.kind = Cell::Kind::number;
+    c.number = v;
+    return c;
+}
+
+Cell text(const std::string& s) {
+    Cell c;
+    c.kind = Cell::Kind::text;
+    c.text = s;
+    return c;
+}
+
+Table table(const std::vector<std::vector<Cell>>& rows) {
+    Table t;
+    t.rows = t.given_rows = rows.size();
+    t.cols = rows.empty() ? 0 : rows.front().size();
+    for (const auto& r : rows) t.cells.insert(t.cells.end(), r.begin(), r.end());
+    return t;
+}
+
+Arg word(const std::string& s) {
+    Arg a;
+    a.given = true;
+    a.table = table({{text(s)}});
+    return a;
+}
+
+// grunfeld.csv as four tables (header row included): inv, value:capital, firm, year.
+struct Grunfeld {
+    Table inv, x, firm, year;
+};
+
+Grunfeld grunfeld(bool header) {
+    std::ifstream in(WEFT_TEST_DATA "/grunfeld.csv");
+    REQUIRE(in.good());
+    std::string line;
+    std::vector<std::vector<Cell>> y, x, u, t;
+    bool first = true;
+    while (std::getline(in, line)) {
+        std::vector<std::string> f;
+        std::stringstream ss(line);
+        std::string part;
+        while (std::getline(ss, part, ',')) f.push_back(part);
+        if (first) {
+            first = false;
+            if (!header) continue;
+            u.push_back({text(f[0])});
+            t.push_back({text(f[1])});
+            y.push_back({text(f[2])});
+            x.push_back({text(f[3]), text(f[4])});
+            continue;
+        }
+        u.push_back({num(std::stod(f[0]))});
+        t.push_back({num(std::stod(f[1]))});
+        y.push_back({num(std::stod(f[2]))});
+        x.push_back({num(std::stod(f[3])), num(std::stod(f[4]))});
+    }
+    return {table(y), table(x), table(u), table(t)};
+}
+
+nlohmann::json reference(const std::string& name) {
+    std::ifstream in(std::string(WEFT_TEST_DATA) + "/" + name);
+    REQUIRE(in.good());
+    return nlohmann::json::parse(in);
+}
+
+std::string error_of(const std::function<void()>& f) {
+    try {
+        f();
+    } catch (const UserError& e) {
+        return e.what();
+    }
+    return "(no error)";
+}
+
+}  // namespace
+
+TEST_CASE("estimates with a header row use the header names and match the reference") {
+    const Grunfeld g = grunfeld(true);
+    const OutTable t = fn_estimates({g.inv, g.x, g.firm, g.year}, word("within cluster"));
+    const auto ref = reference("grunfeld_within.json")["results"];
+    REQUIRE(t.rows == 3);
+    REQUIRE(t.cols == 7);
+    CHECK(t.cells[7].text == "value");
+    CHECK(t.cells[14].text == "capital");
+    // grunfeld_within.json results.coef.value and results.se.CR1.value
+    CHECK(rel_close(t.cells[8].number, ref["coef"]["value"].get<double>()));
+    CHECK(rel_close(t.cells[9].number, ref["se"]["CR1"]["value"].get<double>()));
+}
+
+TEST_CASE("without a header row the terms are x1, x2") {
+    const Grunfeld g = grunfeld(false);
+    const OutTable t = fn_estimates({g.inv, g.x, g.firm, g.year}, Arg());
+    REQUIRE(t.rows == 4);
+    CHECK(t.cells[7].text == "intercept");
+    CHECK(t.cells[14].text == "x1");
+    CHECK(t.cells[21].text == "x2");
+    // grunfeld_pooled.json results.coef.value (pooled is the default estimator)
+    const auto pooled = reference("grunfeld_pooled.json")["results"];
+    CHECK(rel_close(t.cells[15].number, pooled["coef"]["value"].get<double>()));
+}
+
+TEST_CASE("residuals align to the input rows with a header label and blanks for dropped rows") {
+    Grunfeld g = grunfeld(true);
+    g.inv.cells[5] = text("n/a");  // sheet row 6: text in a number column is missing
+    const OutTable r = fn_residuals({g.inv, g.x, g.firm, g.year}, word("pooled"));
+    REQUIRE(r.rows == 201);
+    CHECK(r.cells[0].text == "residual");
+    CHECK(r.cells[5].kind == OutCell::Kind::blank);
+    CHECK(r.cells[4].kind == OutCell::Kind::number);
+    CHECK(r.cells[6].kind == OutCell::Kind::number);
+    const OutCell dropped = fn_value({g.inv, g.x, g.firm, g.year}, word("pooled"),
+                                     word("rows-dropped"), Arg());
+    CHECK(dropped.number == 1.0);
+}
+
+TEST_CASE("bad shapes and arguments give weft: messages that name the problem") {
+    const Grunfeld g = grunfeld(true);
+    Table short_units = g.firm;
+    short_units.given_rows = short_units.rows = 200;
+    short_units.cells.resize(200);
+    CHECK(starts_with(error_of([&] { fn_estimates({g.inv, g.x, short_units, g.year}, Arg()); }), "weft: units has 200 rows but outcome has 201"));
+    CHECK(starts_with(error_of([&] { fn_estimates({g.x, g.x, g.firm, g.year}, Arg()); }), "weft: outcome has 2 columns"));
+    Arg five;
+    five.given = true;
+    five.table = table({{num(5)}});
+    CHECK(contains(error_of([&] { fn_estimates({g.inv, g.x, g.firm, g.year}, five); }), "model is the number 5"));
+    Table empty;
+    empty.cols = 1;
+    empty.given_rows = 201;
+    CHECK(contains(error_of([&] { fn_estimates({empty, g.x, g.firm, g.year}, Arg()); }), "ranges are empty"));
+    CHECK(contains(error_of([&] { fn_joint({g.inv, g.x, g.firm, g.year}, Arg(), Arg()); }), "needs terms"));
+    CHECK(contains(error_of([&] { fn_diff(g.inv, g.firm, g.year, word("abc")); }), "k is the text \"abc\""));
+}
+
+TEST_CASE("a number id and the same id as text are one unit") {
+    // unit 7 (number) and "7" (text) in period 2001: a repeated unit-period pair
+    const Table y = table({{num(1)}, {num(2)}, {num(3)}, {num(4)}});
+    const Table x = table({{num(1)}, {num(5)}, {num(2)}, {num(7)}});
+    const Table u = table({{num(7)}, {text("7")}, {text("North 1")}, {text("North 1")}});
+    const Table t = table({{num(2001)}, {num(2001)}, {num(2001)}, {num(2002)}});
+    CHECK(contains(error_of([&] { fn_estimates({y, x, u, t}, Arg()); }), "unit \"7\" has two rows for period 2001 (rows 1 and 2)"));
+}
+
+TEST_CASE("dummies: a label row, one column per period after the first") {
+    const Table t = table({{text("year")}, {num(2001)}, {num(2002)}, {num(2001)}, {num(2003)}});
+    Arg omit;
+    omit.given = true;
+    omit.table = table({{num(1)}});
+    const OutTable d = fn_dummies(t, omit);
+    REQUIRE(d.rows == 5);
+    REQUIRE(d.cols == 2);
+    CHECK(d.cells[0].text == "period 2002");
+    CHECK(d.cells[1].text == "period 2003");
+    CHECK(d.cells[2].number == 0.0);  // 2001
+    CHECK(d.cells[4].number == 1.0);  // 2002 in the 2002 column
+    CHECK(d.cells[9].number == 1.0);  // 2003 in the 2003 column
+}
+
+TEST_CASE("the input hash separates what the cache must not confuse") {
+    auto digest = [](std::initializer_list<double> v, const std::string& s) {
+        Hasher h;
+        for (double d : v) h.add_double(d);
+        h.add_string(s);
+        return h.digest();
+    };
+    CHECK(digest({1, 2}, "within") == digest({1, 2}, "within"));
+    CHECK_FALSE(digest({1, 2}, "within") == digest({2, 1}, "within"));
+    CHECK_FALSE(digest({1, 2}, "within") == digest({1, 2}, "within "));
+    CHECK_FALSE(digest({0.0}, "") == digest({-0.0}, ""));
+    Hasher a, b;
+    a.add_string("ab");
+    a.add_string("c");
+    b.add_string("a");
+    b.add_string("bc");
+    CHECK_FALSE(a.digest() == b.digest());
+}
+
+TEST_CASE("the LRU cache keeps the most recently used entries") {
+    LruCache<int> cache(2);
+    auto key = [](std::uint64_t k) {
+        Hash128 h;
+        h.a = k;
+        return h;
+    };
+    cache.put(key(1), std::make_shared<int>(1));
+    cache.put(key(2), std::make_shared<int>(2));
+    REQUIRE(cache.find(key(1)));  // 1 is now the most recent
+    cache.put(key(3), std::make_shared<int>(3));
+    CHECK(cache.find(key(2)) == nullptr);
+    CHECK(*cache.find(key(1)) == 1);
+    CHECK(*cache.find(key(3)) == 3);
+}
+
+TEST_CASE("every function has wizard texts and a display name WEFT.<METHOD>") {
+    // FUNCTIONS.md lists 16 functions
+    REQUIRE(function_texts().size() == 16);
+    for (const FunctionText& f : function_texts()) {
+        std::string upper = f.method;
+        for (char& c : upper) c = static_cast<char>(std::toupper(static_cast<unsigned char>(c)));
+        CHECK(std::string(f.display) == "WEFT." + upper);
+        CHECK(std::string(f.description).size() > 30);
+        for (const ArgumentText& a : f.arguments) CHECK(std::string(a.description).size() > 15);
+        CHECK(find_by_display(upper == "VALUE" ? "weft.value" : f.display) == &f);
+        CHECK(find_by_method(f.method) == &f);
+    }
+    CHECK(find_by_method("nothing") == nullptr);
+}
