@@ -161,18 +161,24 @@ TEST_CASE("bad shapes and arguments give weft: messages that name the problem") 
     Table short_units = g.firm;
     short_units.given_rows = short_units.rows = 200;
     short_units.cells.resize(200);
-    CHECK(starts_with(error_of([&] { fn_estimates({g.inv, g.x, short_units, g.year}, Arg()); }), "weft: units has 200 rows but outcome has 201"));
-    CHECK(starts_with(error_of([&] { fn_estimates({g.x, g.x, g.firm, g.year}, Arg()); }), "weft: outcome has 2 columns"));
+    CHECK(starts_with(error_of([&] { fn_estimates({g.inv, g.x, short_units, g.year}, Arg()); }),
+                      "weft: units has 200 rows but outcome has 201"));
+    CHECK(starts_with(error_of([&] { fn_estimates({g.x, g.x, g.firm, g.year}, Arg()); }),
+                      "weft: outcome has 2 columns"));
     Arg five;
     five.given = true;
     five.table = table({{num(5)}});
-    CHECK(contains(error_of([&] { fn_estimates({g.inv, g.x, g.firm, g.year}, five); }), "model is the number 5"));
+    CHECK(contains(error_of([&] { fn_estimates({g.inv, g.x, g.firm, g.year}, five); }),
+             "model is the number 5"));
     Table empty;
     empty.cols = 1;
     empty.given_rows = 201;
-    CHECK(contains(error_of([&] { fn_estimates({empty, g.x, g.firm, g.year}, Arg()); }), "ranges are empty"));
-    CHECK(contains(error_of([&] { fn_joint({g.inv, g.x, g.firm, g.year}, Arg(), Arg()); }), "needs terms"));
-    CHECK(contains(error_of([&] { fn_diff(g.inv, g.firm, g.year, word("abc")); }), "k is the text \"abc\""));
+    CHECK(contains(error_of([&] { fn_estimates({empty, g.x, g.firm, g.year}, Arg()); }),
+             "ranges are empty"));
+    CHECK(contains(error_of([&] { fn_joint({g.inv, g.x, g.firm, g.year}, Arg(), Arg()); }),
+             "needs terms"));
+    CHECK(contains(error_of([&] { fn_diff(g.inv, g.firm, g.year, word("abc")); }),
+             "k is the text \"abc\""));
 }
 
 TEST_CASE("a number id and the same id as text are one unit") {
@@ -181,7 +187,8 @@ TEST_CASE("a number id and the same id as text are one unit") {
     const Table x = table({{num(1)}, {num(5)}, {num(2)}, {num(7)}});
     const Table u = table({{num(7)}, {text("7")}, {text("North 1")}, {text("North 1")}});
     const Table t = table({{num(2001)}, {num(2001)}, {num(2001)}, {num(2002)}});
-    CHECK(contains(error_of([&] { fn_estimates({y, x, u, t}, Arg()); }), "unit \"7\" has two rows for period 2001 (rows 1 and 2)"));
+    CHECK(contains(error_of([&] { fn_estimates({y, x, u, t}, Arg()); }),
+             "unit \"7\" has two rows for period 2001 (rows 1 and 2)"));
 }
 
 TEST_CASE("dummies: a label row, one column per period after the first") {
