@@ -232,6 +232,29 @@ class RecalcTests(unittest.TestCase):
         finally:
             doc2.close(True)
 
+    def test_xlsx_round_trip(self):
+        """An .xlsx stores ORG.WEFT.CALCFUNCTIONS.<METHOD> too and computes on load."""
+        self.cell("H1").setFormula(f'=WEFT.VALUE({R};"within";"estimate";"value")')
+        self.cell("H3:N5").setArrayFormula(f'=WEFT.ESTIMATES({R};"within")')
+        self.doc.calculateAll()
+        path = os.path.join(OFFICE.work_dir, "saved.xlsx")
+        OFFICE.save_as(self.doc, path, "Calc Office Open XML")
+        with zipfile.ZipFile(path) as z:
+            sheet = z.read("xl/worksheets/sheet1.xml").decode()
+        self.assertIn("ORG.WEFT.CALCFUNCTIONS.VALUE(", sheet)
+        self.assertIn("ORG.WEFT.CALCFUNCTIONS.ESTIMATES(", sheet)
+        doc2 = OFFICE.load(path)
+        try:
+            s2 = doc2.Sheets.getByIndex(0)
+            src = "grunfeld_within.json:results.coef"
+            self.assertTrue(close(s2.getCellRangeByName("H1").getValue(),
+                                  WITHIN["coef"]["value"]), src + ".value")
+            self.assertEqual(s2.getCellRangeByName("H5").getString(), "capital")
+            self.assertTrue(close(s2.getCellRangeByName("I5").getValue(),
+                                  WITHIN["coef"]["capital"]), src + ".capital")
+        finally:
+            doc2.close(True)
+
 
 if __name__ == "__main__":
     unittest.main(verbosity=2)
