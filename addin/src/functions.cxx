@@ -331,7 +331,20 @@ const weft_panel* panel_or_throw(const PanelEntry& e) {
 // The fitted model for these ranges and model text: from the cache, or fitted now.
 // A rejected fit is cached as its message, so twenty cells over one bad input do
 // not refit twenty times either.
-std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string& text) {
+// The canonical text of a model ("cluster within" and "within  cluster" are one
+// model, so they share one fit); a text weft rejects is reported right here.
+std::string canonical_model_text(const std::string& text) {
+    weft_options o = WEFT_OPTIONS_INIT;
+    check(weft_options_parse(&o, text.c_str()));
+    size_t needed = 0;
+    check(weft_options_text(&o, nullptr, 0, &needed));
+    std::vector<char> buf(needed + 1, '\0');
+    check(weft_options_text(&o, buf.data(), buf.size(), &needed));
+    return std::string(buf.data());
+}
+
+std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string& given_text) {
+    const std::string text = canonical_model_text(given_text);
     Hasher h;
     h.add_u64(in.hash.a);
     h.add_u64(in.hash.b);
@@ -794,27 +807,21 @@ OutTable fn_dummies(const Table& periods_in, const Arg& omit_first) {
 
     std::unique_lock<std::mutex> lock(cache_mutex);
     PanelPtr p = transform_panel(start, rows, nullptr, &periods_in);
-    // The period grid needs units; each row as its own unit gives the grid of all
-    // rows without making a repeated period look like a repeated unit-period pair.
-    std::vector<double> row_units(n);
-    for (std::size_t i = 0; i < n; ++i) row_units[i] = static_cast<double>(i);
-    check(weft_panel_set_units_number(p.get(), row_units.data(), nullptr));
-    size_t n_grid = 0;
-    check(weft_panel_period_grid(p.get(), nullptr, 0, &n_grid));
-    std::vector<double> grid(n_grid);
-    check(weft_panel_period_grid(p.get(), grid.data(), grid.size(), &n_grid));
+    size_t cols = 0;
+    check(weft_panel_dummy_periods(p.get(), omit, nullptr, 0, &cols));
+    std::vector<double> labels(cols);
+    check(weft_panel_dummy_periods(p.get(), omit, labels.data(), labels.size(), &cols));
     size_t needed = 0;
     check(weft_panel_dummies(p.get(), omit, nullptr, 0, &needed));
     std::vector<double> block(needed);
     check(weft_panel_dummies(p.get(), omit, block.data(), block.size(), &needed));
-    const std::size_t cols = n_grid - (omit ? 1 : 0);
     if (cols == 0) fail("periods has a single period; with omit_first there is no column left");
 
     // The header row of labels takes the place of the input's header row, so the
     // block lines up with the data when the ranges have a header.
     OutTable t(1 + n, cols);
     for (std::size_t j = 0; j < cols; ++j)
-        t.set(0, j, "period " + format_number(grid[j + (omit ? 1 : 0)]));
+        t.set(0, j, "period " + format_number(labels[j]));
     for (std::size_t i = 0; i < n; ++i)
         for (std::size_t j = 0; j < cols; ++j) t.set_number_or_blank(1 + i, j, block[i * cols + j]);
     return t;

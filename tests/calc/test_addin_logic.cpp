@@ -19,6 +19,8 @@
 
 #include <cctype>
 #include <cmath>
+#include <cstdio>
+#include <cstdlib>
 #include <fstream>
 #include <functional>
 #include <sstream>
@@ -254,4 +256,28 @@ TEST_CASE("every function has wizard texts and a display name WEFT.<METHOD>") {
         CHECK(find_by_method(f.method) == &f);
     }
     CHECK(find_by_method("nothing") == nullptr);
+}
+
+TEST_CASE("model texts that mean the same model share one fit") {
+    const std::string log = std::string(WEFT_TEST_BINARY_DIR) + "/addin_logic_fits.log";
+    std::remove(log.c_str());
+    REQUIRE(setenv("WEFT_ADDIN_LOG", log.c_str(), 1) == 0);
+    const Grunfeld g = grunfeld(true);
+    // a model no other test case fits, so the cache cannot already hold it
+    const OutCell a = fn_value({g.inv, g.x, g.firm, g.year}, word("fd hc3 level=0.9"),
+                               word("se"), word("value"));
+    const OutCell b = fn_value({g.inv, g.x, g.firm, g.year}, word("level=0.90,HC3  fd"),
+                               word("se"), word("value"));
+    unsetenv("WEFT_ADDIN_LOG");
+    CHECK(a.number == b.number);
+    std::ifstream in(log);
+    std::string line;
+    int fit_lines = 0, hit_lines = 0;
+    while (std::getline(in, line)) {
+        if (line.rfind("fit ", 0) == 0) ++fit_lines;
+        if (line.rfind("hit ", 0) == 0) ++hit_lines;
+    }
+    CHECK(fit_lines == 1);
+    CHECK(hit_lines == 1);
+    std::remove(log.c_str());
 }
