@@ -418,6 +418,12 @@ private:
     std::vector<Row> rows_;
 };
 
+// The warnings of the test just run, as a last row (only when there are any).
+void add_test_warnings(LabelValue& lv) {
+    const std::string w = weft_test_warnings();
+    if (!w.empty()) lv.text("warnings", w);
+}
+
 // One column aligned to the input rows: a label in the header row (if the
 // ranges had one), then value or blank per data row.
 OutTable aligned_column(bool header, const std::string& label, const std::vector<double>& v,
@@ -691,6 +697,7 @@ OutTable fn_joint(const PanelRanges& in, const Arg& model, const Arg& terms) {
     lv.number("chi-square", r.chi2);
     lv.number("chi-square df", r.chi2_df);
     lv.number("chi-square p-value", r.chi2_p);
+    add_test_warnings(lv);
     return lv.table();
 }
 
@@ -709,6 +716,7 @@ OutTable fn_hetero(const PanelRanges& in, const Arg& model, const Arg& form_arg)
     lv.number("F df1", r.f_df1);
     lv.number("F df2", r.f_df2);
     lv.number("F p-value", r.f_p);
+    add_test_warnings(lv);
     return lv.table();
 }
 
@@ -729,6 +737,7 @@ OutTable fn_serial(const PanelRanges& in, const Arg& model) {
     lv.number("level errors: F df1", r.level_df1);
     lv.number("level errors: F df2", r.level_df2);
     lv.number("level errors: F p-value", r.level_p);
+    add_test_warnings(lv);
     return lv.table();
 }
 
@@ -752,6 +761,7 @@ OutTable fn_hausman(const PanelRanges& in, const Arg& model) {
     lv.number("robust chi-square", r.robust.chi2);
     lv.number("robust chi-square df", r.robust.chi2_df);
     lv.number("robust chi-square p-value", r.robust.chi2_p);
+    add_test_warnings(lv);
     return lv.table();
 }
 
@@ -767,6 +777,7 @@ OutTable fn_effects(const PanelRanges& in, const Arg& model) {
     lv.number("df1", r.df1);
     lv.number("df2", r.df2);
     lv.number("p-value", r.p);
+    add_test_warnings(lv);
     return lv.table();
 }
 
