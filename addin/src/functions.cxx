@@ -649,9 +649,16 @@ OutCell fn_value(const PanelRanges& in, const Arg& model, const Arg& what_arg, c
         check(weft_model_options(f.model, &o));
         static const char* const names[] = {"pooled", "fd", "within", "random", "between"};
         const char* est = (o.estimator >= 0 && o.estimator <= 4) ? names[o.estimator] : "this";
+        // Say why when the fit knows (e.g. an exact fit leaves t undefined).
+        size_t n_warnings = 0;
+        const char* warning = nullptr;
+        check(weft_model_warning_count(f.model, &n_warnings));
+        if (n_warnings > 0) check(weft_model_warning(f.model, 0, &warning));
         out.kind = OutCell::Kind::text;
-        out.text = "weft: " + what + " is not available for the " + est +
-                   " model; use WEFT.SUMMARY to see what this model reports";
+        out.text = "weft: " + what + " is not available for this " + est + " model; " +
+                   (warning != nullptr && *warning != '\0'
+                        ? std::string(warning)
+                        : std::string("use WEFT.SUMMARY to see what this model reports"));
     }
     return out;
 }
