@@ -36,7 +36,7 @@ mkdir -p "$out_dir"
 
 cmake -S . -B "$build_dir" -DCMAKE_BUILD_TYPE=Release -DWEFT_BUILD_BENCH=ON -DWEFT_BUILD_TESTS=ON \
   -DWEFT_BUILD_ADDIN=$([[ $calc -eq 1 ]] && echo ON || echo OFF) > "$out_dir/configure.log"
-cmake --build "$build_dir" -j2 --target weft_bench
+cmake --build "$build_dir" -j2 --target weft_bench weft_fd_phases
 bench="$build_dir/tests/bench/weft_bench"
 
 echo "== smoke check"
