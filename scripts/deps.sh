@@ -23,6 +23,7 @@ office_packages=(
   libreoffice-calc
   libreoffice-dev      # SDK: unoidl-write, cppumaker, UNO headers and libraries
   python3-uno          # the calc/sample tests and the demo drive the office from Python
+  python3-numpy        # sample tests: an independent least-squares fit of the sample data
 )
 
 # --- oracle: live reference runs in R and Python (label oracle)
