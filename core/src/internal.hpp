@@ -42,5 +42,7 @@ Eigen::MatrixXd r_inverse(const Equation& eq);
 
 // Rows per block in the tall-skinny QR and in the blockwise score passes.
 inline constexpr Eigen::Index kBlockRows = 2048;
+// Rows per block of the tall-skinny QR (sized so a block stays in the L1/L2 cache).
+inline constexpr Eigen::Index kTsqrBlockRows = 256;
 
 }  // namespace weft::detail

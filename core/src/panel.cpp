@@ -5,6 +5,8 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <limits>
+#include <unordered_map>
 #include <numeric>
 #include <string>
 
@@ -140,19 +142,29 @@ PanelIndex make_index(const UnitColumn& units, const Column& periods, std::size_
     index.first_row_number = first_row_number;
     std::vector<std::size_t> rows = group_rows(units, &periods, index);
 
+    // distinct periods by hashing (a panel has few periods and many rows), then sorted
+    std::unordered_map<double, std::int32_t> position;
+    {
+        double last = std::numeric_limits<double>::quiet_NaN();
+        for (std::size_t i : rows) {
+            const double p = periods.values[i] == 0 ? 0.0 : periods.values[i];  // -0 is 0
+            if (p == last) continue;
+            last = p;
+            position.emplace(p, 0);
+        }
+    }
     std::vector<double> grid;
-    grid.reserve(64);
-    for (std::size_t i : rows) grid.push_back(periods.values[i]);
+    grid.reserve(position.size());
+    for (const auto& entry : position) grid.push_back(entry.first);
     std::sort(grid.begin(), grid.end());
-    grid.erase(std::unique(grid.begin(), grid.end()), grid.end());
+    for (std::size_t g = 0; g < grid.size(); ++g) position[grid[g]] = static_cast<std::int32_t>(g);
     index.grid = std::move(grid);
 
     std::size_t duplicates = 0;
     for (std::size_t k = 0; k < rows.size(); ++k) {
         const std::size_t i = rows[k];
         const double p = periods.values[i];
-        index.period_of_row[i] = static_cast<std::int32_t>(
-            std::lower_bound(index.grid.begin(), index.grid.end(), p) - index.grid.begin());
+        index.period_of_row[i] = position.find(p == 0 ? 0.0 : p)->second;
         if (k > 0) {
             const std::size_t prev = rows[k - 1];
             if (index.unit_of_row[prev] == index.unit_of_row[i] && periods.values[prev] == p) {

@@ -12,6 +12,7 @@
 //     (corrected semi-normal equations, Bjorck 1996 section 6.6.5), which recovers the
 //     digits that the double QR loses on ill-conditioned designs (NIST Filip, Wampler).
 #include <cmath>
+#include <cstdlib>
 #include <numeric>
 #include <string>
 
@@ -108,42 +109,35 @@ Equation solve_equation(EquationInput in) {
     if (c >= K0) c = -1;
     std::vector<Index> candidates;
     VectorXd shift = VectorXd::Zero(K0), scale = VectorXd::Ones(K0);
-    long double ww = 0;
+    // The shift and scale define the working basis exactly (X = Z M with these very
+    // numbers), so they need only a few correct digits: plain vectorised double sums.
+    double ww = 0;
     if (c >= 0) {
-        for (Index i = 0; i < N; ++i) ww += static_cast<long double>(in.X(i, c)) * in.X(i, c);
+        ww = in.X.col(c).squaredNorm();
         if (ww == 0) {
             eq.dropped.push_back({term_name(in.terms, c), DropReason::collinear,
                                   term_name(in.terms, c) + " is zero in every row; dropped"});
             c = -1;
         } else {
-            scale[c] = static_cast<double>(std::sqrt(ww));
+            scale[c] = std::sqrt(ww);
         }
     }
+    const bool unit_weight = c >= 0 && (in.X.col(c).array() == 1.0).all();
     for (Index j = 0; j < K0; ++j) {
         if (j == c) {
             candidates.push_back(j);
             continue;
         }
-        long double raw = 0, wx = 0;
-        for (Index i = 0; i < N; ++i) {
-            const long double x = in.X(i, j);
-            raw += x * x;
-            if (c >= 0) wx += x * in.X(i, c);
-        }
-        const long double s = c >= 0 ? wx / ww : 0.0L;
-        long double ss = 0;
+        const double raw = in.X.col(j).squaredNorm();
+        double s = 0, ss = raw;
         if (c >= 0) {
-            for (Index i = 0; i < N; ++i) {
-                const long double d = in.X(i, j) - s * in.X(i, c);
-                ss += d * d;
-            }
-        } else {
-            ss = raw;
+            s = unit_weight ? in.X.col(j).sum() / static_cast<double>(N) : in.X.col(j).dot(in.X.col(c)) / ww;
+            ss = (in.X.col(j) - s * in.X.col(c)).squaredNorm();
         }
         // A column that centring leaves at rounding-noise size (relative to its raw
         // size) is a multiple of the intercept column: scaling noise up to unit length
         // would hide that from the rank decision.
-        if (ss == 0 || std::sqrt(ss) <= 1e-13L * std::sqrt(raw)) {
+        if (ss == 0 || std::sqrt(ss) <= 1e-13 * std::sqrt(raw)) {
             const std::string name = term_name(in.terms, j);
             eq.dropped.push_back({name, DropReason::collinear,
                                   raw == 0 ? name + " is zero in every row; dropped"
@@ -151,48 +145,49 @@ Equation solve_equation(EquationInput in) {
                                                  term_name(in.terms, c) + "); dropped"});
             continue;
         }
-        shift[j] = static_cast<double>(s);
-        scale[j] = static_cast<double>(std::sqrt(ss));
+        shift[j] = s;
+        scale[j] = std::sqrt(ss);
         candidates.push_back(j);
     }
     const Index p = static_cast<Index>(candidates.size());
     if (p == 0) throw Error("no terms to estimate: every column is zero or constant");
 
-    long double wy = 0;
-    if (c >= 0)
-        for (Index i = 0; i < N; ++i) wy += static_cast<long double>(in.X(i, c)) * in.y[i];
-    const long double shift_y = c >= 0 ? wy / ww : 0.0L;
-    const double shift_y_d = static_cast<double>(shift_y);
+    double shift_y_d = 0;
+    if (c >= 0) shift_y_d = unit_weight ? in.y.sum() / static_cast<double>(N) : in.X.col(c).dot(in.y) / ww;
+    const long double shift_y = shift_y_d;
 
     // ---- 2. tall-skinny QR of [Z, y - shift_y w]
     MatrixXd r_acc = MatrixXd::Zero(p + 1, p + 1);
     {
-        const Index block = detail::kBlockRows;
+        const Index block = detail::kTsqrBlockRows;
         MatrixXd stack(block + p + 1, p + 1);
-        Eigen::HouseholderQR<MatrixXd> qr;
+        VectorXd h_coeffs(p + 1), temp(p + 1);
         bool first = true;
         for (Index r0 = 0; r0 < N; r0 += block) {
             const Index b = std::min(block, N - r0);
+            // accumulate: the block's rows below the R merged so far
             const Index top = first ? 0 : p + 1;
-            MatrixXd& m = stack;
-            if (!first) m.topRows(p + 1) = r_acc;
+            if (!first) stack.topRows(p + 1) = r_acc;
             for (Index jj = 0; jj < p; ++jj) {
                 const Index j = candidates[static_cast<std::size_t>(jj)];
                 if (c >= 0 && j != c)
-                    m.col(jj).segment(top, b) =
+                    stack.col(jj).segment(top, b) =
                         (in.X.col(j).segment(r0, b) - shift[j] * in.X.col(c).segment(r0, b)) / scale[j];
                 else
-                    m.col(jj).segment(top, b) = in.X.col(j).segment(r0, b) / scale[j];
+                    stack.col(jj).segment(top, b) = in.X.col(j).segment(r0, b) / scale[j];
             }
             if (c >= 0)
-                m.col(p).segment(top, b) = in.y.segment(r0, b) - shift_y_d * in.X.col(c).segment(r0, b);
+                stack.col(p).segment(top, b) = in.y.segment(r0, b) - shift_y_d * in.X.col(c).segment(r0, b);
             else
-                m.col(p).segment(top, b) = in.y.segment(r0, b);
+                stack.col(p).segment(top, b) = in.y.segment(r0, b);
+            // merge: Householder QR in place; its upper triangle is the new R
             const Index rows = top + b;
-            qr.compute(m.topRows(rows));
+            auto m = stack.topRows(rows);
+            const Index steps = std::min(rows, p + 1);
+            h_coeffs.resize(steps);
+            Eigen::internal::householder_qr_inplace_unblocked(m, h_coeffs, temp.data());
             r_acc.setZero();
-            const Index kept_rows = std::min(rows, p + 1);
-            r_acc.topRows(kept_rows) = qr.matrixQR().topRows(kept_rows).triangularView<Eigen::Upper>();
+            r_acc.topRows(steps) = m.topRows(steps).triangularView<Eigen::Upper>();
             first = false;
         }
     }
@@ -299,7 +294,20 @@ Equation solve_equation(EquationInput in) {
     }
     const bool refine = r_max > 1e3 * r_min || static_cast<double>(N) * static_cast<double>(K) <= 2e5;
     const int steps = refine ? 3 : 0;
-    compute_residual();
+    if (refine) {
+        compute_residual();
+    } else {
+        // well conditioned: the double residual of the centred working design is exact
+        // to rounding; one vectorised pass
+        MatrixXd z;
+        for (Index r0 = 0; r0 < N; r0 += detail::kBlockRows) {
+            const Index b = std::min(detail::kBlockRows, N - r0);
+            detail::working_block(eq, r0, b, z);
+            VectorXd r_block = eq.y.segment(r0, b) - z * coef_work;
+            if (c_kept >= 0) r_block -= shift_y_d * eq.X.col(c_kept).segment(r0, b);
+            for (Index i = 0; i < b; ++i) resid[r0 + i] = r_block[i];
+        }
+    }
     for (int step = 0; step < steps; ++step) {
         VectorL g = VectorL::Zero(K);
         for (Index k = 0; k < K; ++k) {
@@ -339,8 +347,11 @@ Equation solve_equation(EquationInput in) {
     }
     eq.ssr = static_cast<double>(ssr);
 
-    // ---- 6. (X'X)^-1 = M^-1 R^-1 R^-T M^-T
-    const MatrixXd p_mat = detail::working_to_original(eq) * detail::r_inverse(eq);
+    // ---- 6. (X'X)^-1 = M^-1 (Z'Z)^-1 M^-T, (Z'Z)^-1 = R^-1 R^-T
+    const MatrixXd r_inv = detail::r_inverse(eq);
+    // (Measured: polishing this inverse with Newton-Schulz steps against a long-double
+    // Z'Z gains nothing on NIST; Filip's SEs are limited by its powers rounded to double.)
+    const MatrixXd p_mat = detail::working_to_original(eq) * r_inv;
     eq.xtx_inverse = p_mat * p_mat.transpose();
 
     // distinct units and periods among the rows
