@@ -24,13 +24,16 @@ What it does:
 - a watchdog kills the office (by its PID) when `timeout` seconds pass, so a hung
   call ends with an exception instead of a hung test; `stop()` (also on leaving the
   `with` block, even after an exception) terminates the office through UNO, waits on
-  its PID, kills it if it does not exit, and removes the temporary folder.
+  its PID, kills it if it does not exit, and removes the temporary folder; at
+  interpreter exit, and on SIGTERM when the host has no handler of its own, a
+  still-running office is killed too.
 
 Environment: WEFT_OFFICE_PROGRAM overrides the program folder
 (default /usr/lib/libreoffice/program). `env` adds variables for the office process
 (e.g. {"WEFT_ADDIN_LOG": path}).
 """
 
+import atexit
 import os
 import shutil
 import signal
@@ -63,6 +66,10 @@ def _props(**values):
         p.Value = value
         out.append(p)
     return tuple(out)
+
+
+def _exit_on_sigterm(signum, frame):
+    raise SystemExit(128 + signum)  # unwinds `with Office(...)` blocks, which stop it
 
 
 def _free_port():
@@ -129,6 +136,11 @@ class Office:
                       what="unopkg add " + os.path.basename(ext))
             self._remove_stale_lock()  # unopkg can leave its lock behind
         self._launch()
+        # Never leave an office behind: at interpreter exit, and on SIGTERM (e.g. a
+        # test runner's timeout) unless the host installed its own handler.
+        atexit.register(self._kill)
+        if signal.getsignal(signal.SIGTERM) is signal.SIG_DFL:
+            signal.signal(signal.SIGTERM, _exit_on_sigterm)
         self._connect()
         self._set_recalc_on_load()
 
