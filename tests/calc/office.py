@@ -135,13 +135,23 @@ class Office:
                        "-env:UserInstallation=" + self.profile_url, ext],
                       what="unopkg add " + os.path.basename(ext))
             self._remove_stale_lock()  # unopkg can leave its lock behind
-        self._launch()
         # Never leave an office behind: at interpreter exit, and on SIGTERM (e.g. a
         # test runner's timeout) unless the host installed its own handler.
         atexit.register(self._kill)
         if signal.getsignal(signal.SIGTERM) is signal.SIG_DFL:
             signal.signal(signal.SIGTERM, _exit_on_sigterm)
-        self._connect()
+        for attempt in range(3):
+            self._launch()
+            self._connect()
+            if self._is_ours():
+                break
+            # Another office took the free port first: we reached that one.
+            self.desktop = self.smgr = self.ctx = None
+            self._kill()
+            self.proc.wait(timeout=20)
+            self._log.close()
+        else:
+            raise OfficeError("could not reach an office on its own port in 3 attempts")
         self._set_recalc_on_load()
 
     def new_calc(self):
@@ -277,6 +287,12 @@ class Office:
         self.smgr = self.ctx.ServiceManager
         self.desktop = self.smgr.createInstanceWithContext("com.sun.star.frame.Desktop",
                                                            self.ctx)
+
+    def _is_ours(self):
+        """True when the office we reached runs on our private profile."""
+        subst = self.service("com.sun.star.util.PathSubstitution")
+        user = subst.getSubstituteVariableValue("$(user)")
+        return user.startswith(self.profile_url)
 
     def _set_recalc_on_load(self):
         provider = self.service("com.sun.star.configuration.ConfigurationProvider")
