@@ -31,20 +31,11 @@ HERE = os.path.dirname(os.path.abspath(__file__))
 TOP = os.path.dirname(os.path.dirname(HERE))
 sys.path.insert(0, os.path.join(TOP, "tests", "calc"))
 
-from office import Office  # noqa: E402  (tests/calc/office.py, python3-uno)
+from calc_helpers import Office, col_name  # noqa: E402  (tests/calc, python3-uno)
 
 PERIODS = 10
 REGRESSORS = 7          # with unit, period and outcome: 10 columns
 CHUNK_ROWS = 50000      # rows per setDataArray call while filling the sheet
-
-
-def col_name(index):
-    name = ""
-    index += 1
-    while index:
-        index, rem = divmod(index - 1, 26)
-        name = chr(65 + rem) + name
-    return name
 
 
 def read_block(path):
