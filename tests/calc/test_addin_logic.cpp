@@ -281,3 +281,23 @@ TEST_CASE("model texts that mean the same model share one fit") {
     CHECK(hit_lines == 1);
     std::remove(log.c_str());
 }
+
+TEST_CASE("a specification test's warnings come as a last 'warnings' row") {
+    // white-full on x and x^2: the square of x repeats the x^2 column, so weft drops
+    // it from the auxiliary regression and says so (CONVENTIONS.md, White 1980 terms)
+    std::vector<std::vector<Cell>> y, x, u, t;
+    for (int i = 0; i < 30; ++i) {
+        const double v = 1.0 + 0.37 * i;
+        y.push_back({num(2.0 + v + 0.1 * ((i * 7) % 5))});
+        x.push_back({num(v), num(v * v)});
+        u.push_back({num(i / 5)});
+        t.push_back({num(2000 + i % 5)});
+    }
+    const OutTable h = fn_hetero({table(y), table(x), table(u), table(t)}, Arg(),
+                                 word("white-full"));
+    REQUIRE(h.rows == 8);
+    CHECK(h.cells[14].text == "warnings");
+    CHECK_FALSE(h.cells[15].text.empty());
+    const OutTable k = fn_hetero({table(y), table(x), table(u), table(t)}, Arg(), Arg());
+    CHECK(k.rows == 7);  // koenker: no warning
+}
