@@ -218,6 +218,11 @@ class Sheet:
         self.cells[(row, col)] = (f'<table:table-cell{st} office:value-type="string">'
                                   f'<text:p>{escape(value)}</text:p></table:table-cell>')
 
+    def styled_blank(self, row, col, style):
+        """An empty cell with a style (a text cell, even empty, would stop the text of
+        the cell to its left from running over it)."""
+        self.cells[(row, col)] = f'<table:table-cell table:style-name="{style}"/>'
+
     def number(self, row, col, value, style=None):
         st = f' table:style-name="{style}"' if style else ""
         self.cells[(row, col)] = (f'<table:table-cell{st} office:value-type="float" '
@@ -300,6 +305,7 @@ CELL_STYLES = """
 <number:number-style style:name="N4"><number:number number:decimal-places="4" number:min-decimal-places="4" number:min-integer-digits="1"/></number:number-style>
 <style:style style:name="title" style:family="table-cell"><style:text-properties fo:font-size="15pt" fo:font-weight="bold"/></style:style>
 <style:style style:name="head" style:family="table-cell"><style:table-cell-properties fo:background-color="#dde6ee"/><style:text-properties fo:font-weight="bold"/></style:style>
+<style:style style:name="headwrap" style:family="table-cell"><style:table-cell-properties fo:background-color="#dde6ee" fo:wrap-option="wrap"/><style:text-properties fo:font-weight="bold"/></style:style>
 <style:style style:name="section" style:family="table-cell"><style:text-properties fo:font-size="12pt" fo:font-weight="bold" fo:color="#1f4e79"/></style:style>
 <style:style style:name="note" style:family="table-cell"><style:text-properties fo:font-style="italic" fo:color="#555555"/></style:style>
 <style:style style:name="wrap" style:family="table-cell"><style:table-cell-properties fo:wrap-option="wrap" style:vertical-align="top"/></style:style>
@@ -565,12 +571,12 @@ def workbook(key, sc):
     for i, term in enumerate(sc["regressors"]):
         # The term's name comes from the estimates table itself, so the label always
         # matches the numbers below it.
-        an.formula(cd + 2, 4 + i, addr(3, 5 + 2 + i), "head")
-        an.formula(cd + 2, 4 + k + i, addr(3, 5 + 2 + i), "head")
-        an.formula(cd + 2, 4 + 2 * k + i, addr(3, 5 + 2 + i), "head")
+        an.formula(cd + 2, 4 + i, addr(3, 5 + 2 + i), "headwrap")
+        an.formula(cd + 2, 4 + k + i, addr(3, 5 + 2 + i), "headwrap")
+        an.formula(cd + 2, 4 + 2 * k + i, addr(3, 5 + 2 + i), "headwrap")
     for c in range(1, k):
         for g in range(3):
-            an.text(cd + 1, 4 + g * k + c, "", "head")
+            an.styled_blank(cd + 1, 4 + g * k + c, "head")
     cd += 1
     # (label, column of the term names, row of the first regressor)
     fits = [("first differences", 3, 5 + 2),
@@ -601,7 +607,7 @@ def workbook(key, sc):
     span = max(abs(lo_t), abs(hi_t))
     y_range = (math.floor((lo_t - 0.6 * span) * 2) / 2, math.ceil((hi_t + 0.2 * span) * 2) / 2)
     an.frames.append(chart_frame(
-        "estimates chart", 0.3, row_height * (true_row + 2), 17.0, 9.0, cat, series,
+        "estimates chart", 0.3, row_height * (true_row + 2) + 0.9, 17.0, 9.0, cat, series,
         "Slope estimates with 95% intervals, and the true values",
         sc["regressor_words"][sc["regressors"][0]][1].replace("in ", "change in "), y_range))
 
