@@ -129,6 +129,7 @@ Equation solve_equation(EquationInput in) {
             continue;
         }
         const double raw = in.X.col(j).squaredNorm();
+        if (!std::isfinite(raw)) throw Error(term_name(in.terms, j) + " has values too large to compute with (their squares overflow a double); divide the column by a power of 10 and scale its estimate back");
         double s = 0, ss = raw;
         if (c >= 0) {
             s = unit_weight ? in.X.col(j).sum() / static_cast<double>(N) : in.X.col(j).dot(in.X.col(c)) / ww;
@@ -156,7 +157,60 @@ Equation solve_equation(EquationInput in) {
     if (c >= 0) shift_y_d = unit_weight ? in.y.sum() / static_cast<double>(N) : in.X.col(c).dot(in.y) / ww;
     const long double shift_y = shift_y_d;
 
-    // ---- 2. tall-skinny QR of [Z, y - shift_y w]
+    // Rows [r0, r0 + b) of [Z, y - shift_y w] into rows [top, top + b) of `out`.
+    auto fill_working = [&](Index r0, Index b, Index top, MatrixXd& out) {
+        for (Index jj = 0; jj < p; ++jj) {
+            const Index j = candidates[static_cast<std::size_t>(jj)];
+            if (c >= 0 && j != c)
+                out.col(jj).segment(top, b) =
+                    (in.X.col(j).segment(r0, b) - shift[j] * in.X.col(c).segment(r0, b)) / scale[j];
+            else
+                out.col(jj).segment(top, b) = in.X.col(j).segment(r0, b) / scale[j];
+        }
+        if (c >= 0)
+            out.col(p).segment(top, b) = in.y.segment(r0, b) - shift_y_d * in.X.col(c).segment(r0, b);
+        else
+            out.col(p).segment(top, b) = in.y.segment(r0, b);
+    };
+
+    // ---- 2a. Gram route for well-conditioned designs. The Gram matrix of the
+    // centred, unit-length columns is accumulated per block (blocks add: the
+    // distributed shape) and factorised by Cholesky. Its R'R carries the same
+    // O(eps ||Z||^2) error as a QR's, so the covariances are as accurate; the
+    // coefficients lose cond(Z)^2 eps instead of cond(Z) eps, which the refinement
+    // below removes. Taken only when R shows cond(Z) <= kGramConditionLimit and every
+    // term is far from collinear, so no rank decision depends on it; otherwise the
+    // tall-skinny QR below decides.
+    std::vector<Index> kept_local;  // positions in candidates
+    MatrixXd R;
+    VectorXd qty;
+    bool gram_route = false;
+    {
+        MatrixXd gram = MatrixXd::Zero(p + 1, p + 1);
+        MatrixXd block_rows(detail::kBlockRows, p + 1);
+        for (Index r0 = 0; r0 < N; r0 += detail::kBlockRows) {
+            const Index b = std::min(detail::kBlockRows, N - r0);
+            fill_working(r0, b, 0, block_rows);
+            gram.selfadjointView<Eigen::Lower>().rankUpdate(block_rows.topRows(b).transpose());
+        }
+        const MatrixXd g_design = gram.topLeftCorner(p, p).selfadjointView<Eigen::Lower>();
+        Eigen::LLT<MatrixXd> llt(g_design);
+        if (N > p && llt.info() == Eigen::Success) {
+            MatrixXd r_try = llt.matrixU();
+            const MatrixXd r_try_inv = r_try.triangularView<Eigen::Upper>().solve(MatrixXd::Identity(p, p));
+            const double cond = r_try.norm() * r_try_inv.norm();
+            if (std::isfinite(cond) && cond <= detail::kGramConditionLimit) {
+                gram_route = true;
+                R = r_try;
+                const VectorXd zty = gram.col(p).head(p);
+                qty = r_try.transpose().triangularView<Eigen::Lower>().solve(zty);
+                for (Index jj = 0; jj < p; ++jj) kept_local.push_back(jj);
+            }
+        }
+    }
+
+    // ---- 2b. tall-skinny QR of [Z, y - shift_y w]
+    if (!gram_route) {
     MatrixXd r_acc = MatrixXd::Zero(p + 1, p + 1);
     {
         const Index block = detail::kTsqrBlockRows;
@@ -168,18 +222,7 @@ Equation solve_equation(EquationInput in) {
             // accumulate: the block's rows below the R merged so far
             const Index top = first ? 0 : p + 1;
             if (!first) stack.topRows(p + 1) = r_acc;
-            for (Index jj = 0; jj < p; ++jj) {
-                const Index j = candidates[static_cast<std::size_t>(jj)];
-                if (c >= 0 && j != c)
-                    stack.col(jj).segment(top, b) =
-                        (in.X.col(j).segment(r0, b) - shift[j] * in.X.col(c).segment(r0, b)) / scale[j];
-                else
-                    stack.col(jj).segment(top, b) = in.X.col(j).segment(r0, b) / scale[j];
-            }
-            if (c >= 0)
-                stack.col(p).segment(top, b) = in.y.segment(r0, b) - shift_y_d * in.X.col(c).segment(r0, b);
-            else
-                stack.col(p).segment(top, b) = in.y.segment(r0, b);
+            fill_working(r0, b, top, stack);
             // merge: Householder QR in place; its upper triangle is the new R
             const Index rows = top + b;
             auto m = stack.topRows(rows);
@@ -193,7 +236,6 @@ Equation solve_equation(EquationInput in) {
     }
 
     // ---- 3. rank decision, terms in order
-    std::vector<Index> kept_local;  // positions in candidates
     MatrixXd a = r_acc;
     {
         Index r = 0;
@@ -220,14 +262,16 @@ Equation solve_equation(EquationInput in) {
             ++r;
         }
     }
-    const Index K = static_cast<Index>(kept_local.size());
-    MatrixXd R(K, K);
-    VectorXd qty(K);
-    for (Index k = 0; k < K; ++k) {
-        R.col(k) = a.col(kept_local[static_cast<std::size_t>(k)]).head(K);
+    const Index k_kept = static_cast<Index>(kept_local.size());
+    R.resize(k_kept, k_kept);
+    qty.resize(k_kept);
+    for (Index k = 0; k < k_kept; ++k) {
+        R.col(k) = a.col(kept_local[static_cast<std::size_t>(k)]).head(k_kept);
         qty[k] = a(k, p);
     }
     R.triangularView<Eigen::StrictlyLower>().setZero();
+    }  // tall-skinny QR route
+    const Index K = static_cast<Index>(kept_local.size());
 
     // Kept columns of X, in order.
     std::vector<Index> kept;
@@ -292,11 +336,31 @@ Equation solve_equation(EquationInput in) {
         r_min = std::min(r_min, std::fabs(R(k, k)));
         r_max = std::max(r_max, std::fabs(R(k, k)));
     }
-    const bool refine = r_max > 1e3 * r_min || static_cast<double>(N) * static_cast<double>(K) <= 2e5;
+    const bool small = static_cast<double>(N) * static_cast<double>(K) <= 2e5;
+    const bool refine = (!gram_route && r_max > 1e3 * r_min) || small;
     const int steps = refine ? 3 : 0;
     if (refine) {
         compute_residual();
     } else {
+        if (gram_route) {
+            // corrected semi-normal equations in double: two steps take the
+            // cond(Z)^2 eps error of the Gram solution down to the QR's cond(Z) eps
+            MatrixXd z;
+            for (int step = 0; step < 2; ++step) {
+                VectorXd g = VectorXd::Zero(K);
+                for (Index r0 = 0; r0 < N; r0 += detail::kBlockRows) {
+                    const Index b = std::min(detail::kBlockRows, N - r0);
+                    detail::working_block(eq, r0, b, z);
+                    VectorXd r_block = eq.y.segment(r0, b) - z * coef_work;
+                    if (c_kept >= 0) r_block -= shift_y_d * eq.X.col(c_kept).segment(r0, b);
+                    g.noalias() += z.transpose() * r_block;
+                }
+                VectorXd delta = R.transpose().triangularView<Eigen::Lower>().solve(g);
+                delta = R.triangularView<Eigen::Upper>().solve(delta);
+                coef_work += delta;
+            }
+            c_work = coef_work.cast<long double>();
+        }
         // well conditioned: the double residual of the centred working design is exact
         // to rounding; one vectorised pass
         MatrixXd z;
