@@ -368,15 +368,22 @@ class Runner:
         self.put(out, 0, formula, *shape)
         extra = {}
         panel_args = formula[formula.index("(") + 1:]
-        if fn == "estimates" and ("values" in expect or "dropped" in expect or "warnings" in expect):
+        wants = [expect] + expect.get("any_of", [])
+        if fn == "estimates" and any("values" in w or "dropped" in w or "warnings" in w for w in wants):
+            merged = {}
+            for w in wants:
+                for k in ("values", "dropped", "warnings"):
+                    if k in w:
+                        merged.setdefault(k, w[k])
+            expect_extra = merged
             y, x, u, t = ranges(refs, s, case.get("whole_columns", False))
             base = "%s;%s;%s;%s;%s" % (y, x, u, t, quote(case.get("model", "")))
             col = 10
-            for what in expect.get("values", {}):
+            for what in expect_extra.get("values", {}):
                 out.getCellByPosition(col, 0).setFormula("=WEFT.VALUE(%s;%s)" % (base, quote(what)))
                 extra[what] = col
                 col += 1
-            if "dropped" in expect or "warnings" in expect:
+            if "dropped" in expect_extra or "warnings" in expect_extra:
                 self.put(out, 20, "=WEFT.SUMMARY(%s)" % base, 40, 2)
         t0 = time.monotonic()
         self.doc.calculateAll()
@@ -386,6 +393,17 @@ class Runner:
         return problems, secs, formula
 
     def judge(self, case, expect, block, out, extra, fn):
+        if "any_of" in expect:  # one of the alternatives must hold
+            reasons = []
+            for alternative in expect["any_of"]:
+                problems = self.judge_one(case, alternative, block, out, extra, fn)
+                if not problems:
+                    return []
+                reasons.append("; ".join(problems))
+            return ["none of the alternatives holds: " + " | ".join(reasons)]
+        return self.judge_one(case, expect, block, out, extra, fn)
+
+    def judge_one(self, case, expect, block, out, extra, fn):
         p = []
         first, err = block[0][0]
         if "office_error" in expect:

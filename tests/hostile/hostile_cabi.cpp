@@ -552,9 +552,25 @@ void check_term(Verdict &v, const Terms &t, const std::string &term, const json 
         v.fail(term + " se " + num(se) + ", expected " + num(want_se.get<double>()));
 }
 
+Verdict judge_one(const json &e, const Outcome &out, const std::string &dir);
+
+// "any_of": a list of expectations, one of which must hold (e.g. the right numbers, or
+// a message that says what to fix).
 Verdict judge(const json &c, const Outcome &out, const std::string &dir) {
-    Verdict v;
     const json &e = c.at("expect");
+    if (!e.contains("any_of")) return judge_one(e, out, dir);
+    Verdict all;
+    for (const auto &alternative : e.at("any_of")) {
+        Verdict v = judge_one(alternative, out, dir);
+        if (v.ok) return v;
+        all.fail(v.why);
+    }
+    all.why = "none of the alternatives holds: " + all.why;
+    return all;
+}
+
+Verdict judge_one(const json &e, const Outcome &out, const std::string &dir) {
+    Verdict v;
     if (e.contains("office_error")) {
         v.fail("expectation is Calc-only (office_error) but no C expectation given");
         return v;
