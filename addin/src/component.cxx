@@ -242,6 +242,16 @@ AnyRows table_result(F&& compute) {
     return result;
 }
 
+// A wizard text, or an empty one if anything at all goes wrong.
+template <class F>
+OUString safe_text(F&& make) noexcept {
+    try {
+        return make();
+    } catch (...) {
+        return OUString();
+    }
+}
+
 class CalcFunctions
     : public cppu::WeakImplHelper4<org::weft::XCalcFunctions, css::sheet::XAddIn,
                                    css::lang::XServiceName, css::lang::XServiceInfo> {
@@ -372,32 +382,42 @@ public:
     }
 
     // ---- XAddIn ----------------------------------------------------------------
-    // (The misspelling is the interface's own.)
+    // (The misspelling is the interface's own.) Nothing may escape here either.
     OUString SAL_CALL getProgrammaticFuntionName(const OUString& display) override {
-        const FunctionText* f = find_by_display(to_utf8(display));
-        return f ? to_ou(f->method) : OUString();
+        return safe_text([&] {
+            const FunctionText* f = find_by_display(to_utf8(display));
+            return f ? to_ou(f->method) : OUString();
+        });
     }
     OUString SAL_CALL getDisplayFunctionName(const OUString& method) override {
-        const FunctionText* f = find_by_method(to_utf8(method));
-        return f ? to_ou(f->display) : OUString();
+        return safe_text([&] {
+            const FunctionText* f = find_by_method(to_utf8(method));
+            return f ? to_ou(f->display) : OUString();
+        });
     }
     OUString SAL_CALL getFunctionDescription(const OUString& method) override {
-        const FunctionText* f = find_by_method(to_utf8(method));
-        return f ? to_ou(f->description) : OUString();
+        return safe_text([&] {
+            const FunctionText* f = find_by_method(to_utf8(method));
+            return f ? to_ou(f->description) : OUString();
+        });
     }
     OUString SAL_CALL getDisplayArgumentName(const OUString& method, sal_Int32 index) override {
-        const ArgumentText* a = argument(method, index);
-        return a ? to_ou(a->name) : OUString();
+        return safe_text([&] {
+            const ArgumentText* a = argument(method, index);
+            return a ? to_ou(a->name) : OUString();
+        });
     }
     OUString SAL_CALL getArgumentDescription(const OUString& method, sal_Int32 index) override {
-        const ArgumentText* a = argument(method, index);
-        return a ? to_ou(a->description) : OUString();
+        return safe_text([&] {
+            const ArgumentText* a = argument(method, index);
+            return a ? to_ou(a->description) : OUString();
+        });
     }
     OUString SAL_CALL getProgrammaticCategoryName(const OUString&) override {
-        return to_ou(programmatic_category);
+        return safe_text([] { return to_ou(programmatic_category); });
     }
     OUString SAL_CALL getDisplayCategoryName(const OUString&) override {
-        return to_ou(display_category);
+        return safe_text([] { return to_ou(display_category); });
     }
 
     // ---- XLocalizable (through XAddIn): the texts are English only ------------
