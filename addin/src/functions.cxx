@@ -31,6 +31,7 @@ void check(int status) {
 }
 
 std::string format_number(double v) {
+    if (v == 0.0) v = 0.0;  // -0 is written as 0, so it names the same unit as 0
     char buf[64];
     if (std::isfinite(v) && v == std::floor(v) && std::fabs(v) < 1e15)
         std::snprintf(buf, sizeof buf, "%.0f", v);
