@@ -109,7 +109,11 @@ inline MemoryProbe probe_peak_memory(const std::function<void()>& work) {
     // Reading /proc itself touches a few pages, hence the small allowance.
     const bool reset_worked =
         hwm_after_reset > 0 && hwm_after_reset <= mine.resident_before * 1.01 + 4.0 * 1048576.0;
-    work();
+    try {
+      work();
+    } catch (...) {
+      _exit(1);  // never let the child run on into the parent's code
+    }
     mine.peak = reset_worked ? status_bytes("VmHWM") : -1.0;
     const ssize_t written = write(fds[1], &mine, sizeof mine);
     _exit(written == static_cast<ssize_t>(sizeof mine) ? 0 : 1);
