@@ -95,7 +95,7 @@ def invented_panel(seed=7):
 
 def setUpModule():
     global OFFICE
-    OFFICE = Office(extensions=[oxt_path()], timeout=600)
+    OFFICE = Office(extensions=[oxt_path()], timeout=500)
     OFFICE.__enter__()
 
 

@@ -31,7 +31,7 @@ def setUpModule():
     LOG_DIR = tempfile.mkdtemp(prefix="weft-calc-log-")
     os.chmod(LOG_DIR, 0o777)  # the office may run as an unprivileged user
     LOG = os.path.join(LOG_DIR, "addin.log")
-    OFFICE = Office(extensions=[oxt_path()], timeout=600, env={"WEFT_ADDIN_LOG": LOG})
+    OFFICE = Office(extensions=[oxt_path()], timeout=500, env={"WEFT_ADDIN_LOG": LOG})
     OFFICE.__enter__()
 
 

@@ -183,7 +183,7 @@ def unit_means(values, firms):
 
 def setUpModule():
     global OFFICE, DOC, BLOCKS
-    OFFICE = Office(extensions=[oxt_path()], timeout=600)
+    OFFICE = Office(extensions=[oxt_path()], timeout=500)
     OFFICE.__enter__()
     try:
         DOC = OFFICE.new_calc()
