@@ -200,6 +200,31 @@ struct PanelInput {
     Hash128 hash;
 };
 
+bool all_missing(const std::vector<unsigned char>& missing) {
+    return std::all_of(missing.begin(), missing.end(), [](unsigned char m) { return m != 0; });
+}
+
+// A column without a single usable value drops every row; name that column
+// rather than leave the user with "no usable rows".
+void require_some_values(const PanelInput& p) {
+    const char* where = p.header ? " below the header" : "";
+    if (all_missing(p.outcome.missing))
+        fail(std::string("outcome holds no numbers") + where +
+             "; select the column of the dependent variable");
+    for (std::size_t k = 0; k < p.regressors.size(); ++k) {
+        if (!all_missing(p.regressors[k].missing)) continue;
+        const std::string name =
+            p.regressor_names[k].empty() ? "x" + std::to_string(k + 1) : p.regressor_names[k];
+        fail("regressor " + quoted(name) + " (column " + std::to_string(k + 1) +
+             " of regressors) holds no numbers" + where + "; fill it or leave it out of the range");
+    }
+    if (all_missing(p.units.missing))
+        fail(std::string("units is blank in every row") + where + "; give each row its unit id");
+    if (all_missing(p.periods.missing))
+        fail(std::string("periods holds no numbers") + where +
+             "; periods must be numbers or dates (a text period is read as missing)");
+}
+
 PanelInput read_panel(const PanelRanges& in) {
     require_one_column(in.outcome, "outcome", "the dependent variable");
     require_one_column(in.units, "units", "the unit id of each row");
@@ -234,6 +259,7 @@ PanelInput read_panel(const PanelRanges& in) {
         p.regressors.push_back(read_numbers(regressors, c, start, rows));
     p.units = read_units(units, start, rows);
     p.periods = read_numbers(periods, 0, start, rows);
+    require_some_values(p);
 
     Hasher h;
     h.add_u64(p.first_row);

@@ -75,7 +75,13 @@ BAD_INPUTS = [
     ("between with as many units as terms", f'=WEFT.ESTIMATES({R};"between")',
      ["3 rows for 3 terms", "more rows than terms"]),
     ("text everywhere in the outcome", f"=WEFT.ESTIMATES({ranges('txt')})",
-     ["no usable rows", "12 rows given"]),
+     ["outcome holds no numbers", "below the header"]),
+    ("a blank regressor column", f"=WEFT.ESTIMATES({ranges('txt', y='D1:D13', x='E1:F13')})",
+     ['regressor "blank"', "column 2 of regressors", "leave it out"]),
+    ("text periods", f"=WEFT.ESTIMATES({ranges('txt', y='D1:D13', x='E1:E13', t='C1:C13')})",
+     ["periods holds no numbers", "dates"]),
+    ("rows dropped in different columns", f"=WEFT.ESTIMATES({ranges('holes')})",
+     ["no usable rows"]),
     ("two regressors with one name", f"=WEFT.ESTIMATES({ranges('names')})",
      ['both named "x"', "own name"]),
     ("regressor named intercept", f"=WEFT.ESTIMATES({ranges('names', x='F1:G13')})",
@@ -112,14 +118,20 @@ class ErrorMessageTests(unittest.TestCase):
         sheets.getByIndex(0).Name = "good"
         rows = invented_panel()
         put_rows(sheets.getByName("good"), 0, 0, rows)
-        for name in ["dup", "one", "txt", "names", "err", "out"]:
+        for name in ["dup", "one", "txt", "holes", "names", "err", "out"]:
             sheets.insertNewByName(name, sheets.Count)
         dup = [r[:] for r in rows]
         dup[3][1] = 2001  # "North 1" in 2001 on sheet rows 2 and 4
         put_rows(sheets.getByName("dup"), 0, 0, dup)
         put_rows(sheets.getByName("one"), 0, 0, rows[:5])
+        # C: text outcome; F: a blank regressor headed "blank"
         put_rows(sheets.getByName("txt"), 0, 0,
-                 [rows[0]] + [[r[0], r[1], "n/a", r[3], r[4]] for r in rows[1:]])
+                 [rows[0] + ["blank"]] + [[r[0], r[1], "n/a", r[3], r[4]] for r in rows[1:]])
+        # every row misses something, each column still has numbers
+        holes = [r[:] for r in rows]
+        for i in range(1, 13):
+            holes[i][2 + (i % 3)] = "" if i % 2 else "n/a"
+        put_rows(sheets.getByName("holes"), 0, 0, holes)
         put_rows(sheets.getByName("names"), 0, 0,
                  [["unit", "period", "y", "x", "x", "intercept", "x2", "a", "twice a"]]
                  + [r + [r[3], r[4], r[3], 2 * r[3]] for r in rows[1:]])
