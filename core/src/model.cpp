@@ -495,7 +495,7 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
             between.y = m.y;
             for (Index r = 0; r < static_cast<Index>(n); ++r) {
                 const double w = std::sqrt(T_i[static_cast<std::size_t>(r)]);
-                between.X.row(r) *= w;
+                if (between.X.cols() > 0) between.X.row(r) *= w;  // no columns (no intercept, no regressor): Eigen would offset a null pointer (UB)
                 between.y[r] *= w;
             }
             between.terms = m.terms;
