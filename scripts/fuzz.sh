@@ -38,6 +38,8 @@ mkdir -p "$build_dir/corpus" "$build_dir/artifacts"
 cp -n tests/fuzz/corpus/* tests/fuzz/regressions/* "$build_dir/corpus/" 2>/dev/null || true
 rm -f "$build_dir"/artifacts/*
 
+# Stack traces in UBSan reports (ASan prints them anyway); leaks are checked by libFuzzer.
+export UBSAN_OPTIONS=${UBSAN_OPTIONS:-print_stacktrace=1:halt_on_error=1}
 log="$build_dir/fuzz.log"
 rc=0
 "$build_dir/tests/fuzz/weft_fuzz_cabi" \
