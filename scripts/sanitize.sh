@@ -15,12 +15,12 @@ build_dir=${1:-${WEFT_ASAN_BUILD_DIR:-build-asan}}
 jobs=${WEFT_JOBS:-2}
 labels=${WEFT_ASAN_LABELS:-'^(core|spec|cabi|hostile|fuzz)$'}
 
-# -O1 -g1: fast to compile, line numbers in every report, and assert()/eigen_assert
-# left on (no NDEBUG), so an index error stops at the assertion in this build too.
+# -O2 -g1: the optimiser level of a release build (so numerics match it closely),
+# line numbers in every report, and assert()/eigen_assert left on (no NDEBUG).
 configure_args=(-S . -B "$build_dir"
   -DCMAKE_BUILD_TYPE=RelWithDebInfo
-  "-DCMAKE_CXX_FLAGS_RELWITHDEBINFO=-O1 -g1"
-  "-DCMAKE_C_FLAGS_RELWITHDEBINFO=-O1 -g1"
+  "-DCMAKE_CXX_FLAGS_RELWITHDEBINFO=-O2 -g1"
+  "-DCMAKE_C_FLAGS_RELWITHDEBINFO=-O2 -g1"
   -DWEFT_SANITIZE=address,undefined
   -DWEFT_BUILD_ADDIN=OFF
   -DWEFT_BUILD_BENCH=OFF
