@@ -47,15 +47,23 @@ std::size_t densify(const std::vector<std::int32_t>& ids, std::vector<std::int32
 // sum_g S_g S_g' with S_g = sum over rows of cluster g of z_i u_i (working basis).
 MatrixXd cluster_meat(const Equation& eq, const std::vector<std::int32_t>& cluster, std::size_t G) {
     const Index N = eq.X.rows(), K = eq.X.cols();
-    MatrixXd sums = MatrixXd::Zero(static_cast<Index>(G), K);
+    // K x G: one contiguous column of score sums per cluster
+    MatrixXd sums = MatrixXd::Zero(K, static_cast<Index>(G));
     MatrixXd z;
     for (Index r0 = 0; r0 < N; r0 += detail::kBlockRows) {
         const Index b = std::min(detail::kBlockRows, N - r0);
         detail::working_block(eq, r0, b, z);
         z.array().colwise() *= eq.residual.segment(r0, b).array();
-        for (Index i = 0; i < b; ++i) sums.row(cluster[static_cast<std::size_t>(r0 + i)]) += z.row(i);
+        // rows of one cluster usually come in runs (equations are in unit order)
+        for (Index i = 0; i < b;) {
+            const std::int32_t g = cluster[static_cast<std::size_t>(r0 + i)];
+            Index j = i + 1;
+            while (j < b && cluster[static_cast<std::size_t>(r0 + j)] == g) ++j;
+            sums.col(g) += z.middleRows(i, j - i).colwise().sum().transpose();
+            i = j;
+        }
     }
-    return sums.transpose() * sums;
+    return sums * sums.transpose();
 }
 
 // sum_i omega_i z_i z_i'

@@ -44,5 +44,11 @@ Eigen::MatrixXd r_inverse(const Equation& eq);
 inline constexpr Eigen::Index kBlockRows = 2048;
 // Rows per block of the tall-skinny QR (sized so a block stays in the L1/L2 cache).
 inline constexpr Eigen::Index kTsqrBlockRows = 256;
+// Largest cond(Z) (Frobenius estimate from R) for which the solver takes the Gram
+// route; above it (or when any term is near collinear) the tall-skinny QR decides.
+// At 1e2, cond^2 eps ~ 1e-12. Measured on NIST: Longley (cond between 1e2 and 1e3)
+// keeps SE LRE 15.0 on the QR but 12.6 on the Gram route, Wampler3-5 (about 1e4) drop
+// from 13.7 to 10.3, so the limit sits below both.
+inline constexpr double kGramConditionLimit = 1e2;
 
 }  // namespace weft::detail

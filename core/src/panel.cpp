@@ -6,7 +6,6 @@
 #include <cstdio>
 #include <cstdlib>
 #include <limits>
-#include <unordered_map>
 #include <numeric>
 #include <string>
 
@@ -142,29 +141,50 @@ PanelIndex make_index(const UnitColumn& units, const Column& periods, std::size_
     index.first_row_number = first_row_number;
     std::vector<std::size_t> rows = group_rows(units, &periods, index);
 
-    // distinct periods by hashing (a panel has few periods and many rows), then sorted
-    std::unordered_map<double, std::int32_t> position;
+    // Distinct periods: a panel has few periods and many rows, so keep a small sorted
+    // list and binary-search it (falling back to sorting everything when the periods
+    // turn out to be many).
+    std::vector<double> grid;
     {
         double last = std::numeric_limits<double>::quiet_NaN();
+        bool many = false;
         for (std::size_t i : rows) {
-            const double p = periods.values[i] == 0 ? 0.0 : periods.values[i];  // -0 is 0
+            const double p = periods.values[i];
             if (p == last) continue;
             last = p;
-            position.emplace(p, 0);
+            auto it = std::lower_bound(grid.begin(), grid.end(), p);
+            if (it != grid.end() && *it == p) continue;
+            if (grid.size() >= 4096) {
+                many = true;
+                break;
+            }
+            grid.insert(it, p);
+        }
+        if (many) {
+            grid.clear();
+            grid.reserve(rows.size());
+            for (std::size_t i : rows) grid.push_back(periods.values[i]);
+            std::sort(grid.begin(), grid.end());
+            grid.erase(std::unique(grid.begin(), grid.end()), grid.end());
         }
     }
-    std::vector<double> grid;
-    grid.reserve(position.size());
-    for (const auto& entry : position) grid.push_back(entry.first);
-    std::sort(grid.begin(), grid.end());
-    for (std::size_t g = 0; g < grid.size(); ++g) position[grid[g]] = static_cast<std::int32_t>(g);
     index.grid = std::move(grid);
+    // Grid positions: rows of a unit are sorted by period, so a pointer that only moves
+    // forward finds them in O(rows + grid) per unit.
+    for (std::size_t u = 0; u + 1 < index.unit_start.size(); ++u) {
+        std::size_t g = 0;
+        for (std::size_t k = index.unit_start[u]; k < index.unit_start[u + 1]; ++k) {
+            const double p = periods.values[rows[k]];
+            if (index.grid[g] > p) g = 0;  // guard only: rows are sorted by period
+            while (index.grid[g] < p) ++g;
+            index.period_of_row[rows[k]] = static_cast<std::int32_t>(g);
+        }
+    }
 
     std::size_t duplicates = 0;
     for (std::size_t k = 0; k < rows.size(); ++k) {
         const std::size_t i = rows[k];
         const double p = periods.values[i];
-        index.period_of_row[i] = position.find(p == 0 ? 0.0 : p)->second;
         if (k > 0) {
             const std::size_t prev = rows[k - 1];
             if (index.unit_of_row[prev] == index.unit_of_row[i] && periods.values[prev] == p) {
