@@ -3,10 +3,12 @@
 // Contract (CONVENTIONS.md is the statistical specification):
 // - fit_model(data, spec) indexes the panel, drops rows listwise (a missing outcome,
 //   regressor, unit or period), builds the estimated equation of spec.estimator
-//   (pooled, fd, within, between, random), solves it by a tall-skinny Householder QR of
-//   the centred and scaled design followed by a column-pivoted QR of the small R (rank
-//   tolerance kRankTolerance below), refines the solution with residuals in long double,
-//   and computes the covariance of spec.covariance, t, p and intervals at spec.level.
+//   (pooled, fd, within, between, random), solves it (solve_equation: columns centred
+//   against the intercept and scaled to unit length; a well-conditioned design, cond
+//   <= 1e2, by its Gram matrix, Cholesky and two refinement steps; any other by a
+//   tall-skinny Householder QR with the in-order rank decision of kRankTolerance and
+//   refinement with long-double residuals), and computes the covariance of
+//   spec.covariance, t, p and intervals at spec.level.
 // - Term order: intercept (if any), regressors in input order, then period indicators
 //   "period <value>" in grid order. Terms that are a linear combination of earlier terms
 //   are dropped (DropReason::collinear); under within/fd a regressor with no variation
@@ -30,7 +32,8 @@
 //
 // Stability: fields may be added; existing names and meanings do not change. Changes
 // are announced here:
-//   (none yet)
+//   2026-12-02: solver gained the Gram route for well-conditioned designs (no API
+//   change; r_factor is then the Cholesky factor of Z'Z, with the same meaning R'R = Z'Z).
 #pragma once
 
 #include <cstddef>
@@ -49,10 +52,12 @@
 namespace weft {
 
 // Rank tolerance: after centring and scaling every working column to unit length, a
-// column whose distance from the span of the columns before it (|R_kk| of the pivoted
-// QR of R) is at most kRankTolerance is treated as collinear and dropped. 1e-10 keeps
-// NIST Filip (smallest such distance about 1e-8 after centring) while exact
-// collinearity in double (distances of order 1e-15) is caught.
+// column whose distance from the span of the kept columns before it (|R_kk| when the
+// small R of the tall-skinny QR is re-triangularised in term order) is at most
+// kRankTolerance times its length is treated as collinear and dropped. 1e-10 keeps
+// NIST Filip (all 11 terms) while exact collinearity in double (distances of order
+// 1e-15) is caught. A column that centring reduces to below 1e-13 of its raw length is
+// a multiple of the intercept column and dropped as well.
 inline constexpr double kRankTolerance = 1e-10;
 
 enum class DropReason { collinear, no_within_variation };
@@ -79,7 +84,8 @@ struct Equation {
     // The factorisation (reused by covariances and tests). Working design Z:
     //   Z_j = (X_j - shift[j] * X_c) / scale[j]   (c = intercept_column; shift[c] = 0)
     // i.e. columns centred against the intercept column and scaled to unit length.
-    // Z = Q R with R upper-triangular K x K (Q is not stored). Then
+    // Z = Q R with R upper-triangular K x K (Q is not stored; on the Gram route R is the
+    // Cholesky factor of Z'Z, the same R up to row signs). Then
     // (X'X)^-1 = M^-1 (R'R)^-1 M^-T with X = Z M.
     Eigen::VectorXd shift;              // K
     Eigen::VectorXd scale;              // K
@@ -116,7 +122,7 @@ struct EquationInput {
     std::size_t absorbed = 0;
 };
 
-// OLS through weft's solver (centring, scaling, TSQR, pivoted rank decision,
+// OLS through weft's solver (centring, scaling, Gram or tall-skinny QR, in-order rank decision,
 // refinement). Collinear columns are dropped and listed in Equation::dropped.
 // Throws weft::Error if there are fewer rows than kept terms or no rows.
 Equation solve_equation(EquationInput input);
