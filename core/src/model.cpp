@@ -202,15 +202,16 @@ Design build_fd(const Context& ctx, std::size_t& pairs_lost_to_gaps) {
     std::vector<Index> invariant;
     for (std::size_t j = 0; j < ctx.k_reg; ++j, ++col) {
         const Column& x = ctx.data.regressors[j];
-        long double levels = 0, diffs = 0;
+        // (double sums suffice: they only feed the 1e-13 "no variation" threshold)
+        double levels = 0, diffs = 0;
         for (Index i = 0; i < N; ++i) {
             const double a = value(x, later[static_cast<std::size_t>(i)]);
             const double b = value(x, earlier[static_cast<std::size_t>(i)]);
             in.X(i, col) = a - b;
-            levels += static_cast<long double>(a) * a;
-            diffs += static_cast<long double>(a - b) * (a - b);
+            levels += a * a;
+            diffs += (a - b) * (a - b);
         }
-        if (N > 0 && (diffs == 0 || std::sqrt(diffs) <= 1e-13L * std::sqrt(levels))) invariant.push_back(col);
+        if (N > 0 && (diffs == 0 || std::sqrt(diffs) <= 1e-13 * std::sqrt(levels))) invariant.push_back(col);
         in.terms.push_back(ctx.regressor_names[j]);
     }
     for (std::int32_t p : pcols) {
@@ -258,16 +259,16 @@ Design build_within(const Context& ctx, const std::vector<std::size_t>& rows, co
     for (std::size_t j = 0; j < ctx.k_reg; ++j, ++col) {
         const Column& x = ctx.data.regressors[j];
         const std::vector<double> means = run_means(runs, [&](std::size_t k) { return value(x, rows[k]); });
-        long double levels = 0, within = 0;
+        double levels = 0, within = 0;  // only for the 1e-13 threshold: double suffices
         for (std::size_t r = 0; r < runs.begin.size(); ++r)
             for (std::size_t k = runs.begin[r]; k < runs.end[r]; ++k) {
                 const double v = value(x, rows[k]);
                 const double dm = v - means[r];
                 in.X(static_cast<Index>(k), col) = dm;
-                levels += static_cast<long double>(v) * v;
-                within += static_cast<long double>(dm) * dm;
+                levels += v * v;
+                within += dm * dm;
             }
-        if (within == 0 || std::sqrt(within) <= 1e-13L * std::sqrt(levels)) invariant.push_back(col);
+        if (within == 0 || std::sqrt(within) <= 1e-13 * std::sqrt(levels)) invariant.push_back(col);
         in.terms.push_back(ctx.regressor_names[j]);
     }
     for (std::int32_t p : pcols) {

@@ -365,15 +365,18 @@ Equation solve_equation(EquationInput in) {
             }
             c_work = coef_work.cast<long double>();
         }
-        // well conditioned: the double residual of the centred working design is exact
-        // to rounding; one vectorised pass
-        MatrixXd z;
-        for (Index r0 = 0; r0 < N; r0 += detail::kBlockRows) {
-            const Index b = std::min(detail::kBlockRows, N - r0);
-            detail::working_block(eq, r0, b, z);
-            VectorXd r_block = eq.y.segment(r0, b) - z * coef_work;
-            if (c_kept >= 0) r_block -= shift_y_d * eq.X.col(c_kept).segment(r0, b);
-            for (Index i = 0; i < b; ++i) resid[r0 + i] = r_block[i];
+        {
+            // well conditioned: the double residual of the centred working design is
+            // exact to rounding; one vectorised pass (measured: reusing the last
+            // refinement step's residual instead costs Pontius 0.6 digits of SSR)
+            MatrixXd z;
+            for (Index r0 = 0; r0 < N; r0 += detail::kBlockRows) {
+                const Index b = std::min(detail::kBlockRows, N - r0);
+                detail::working_block(eq, r0, b, z);
+                VectorXd r_block = eq.y.segment(r0, b) - z * coef_work;
+                if (c_kept >= 0) r_block -= shift_y_d * eq.X.col(c_kept).segment(r0, b);
+                for (Index i = 0; i < b; ++i) resid[r0 + i] = r_block[i];
+            }
         }
     }
     for (int step = 0; step < steps; ++step) {
