@@ -211,6 +211,18 @@ Design build_fd(const Context& ctx, std::size_t& pairs_lost_to_gaps) {
             levels += a * a;
             diffs += (a - b) * (a - b);
         }
+        if (!std::isfinite(levels) || !std::isfinite(diffs)) {
+            // values near the double range: redo the sums where they cannot overflow
+            long double l = 0, dd = 0;
+            for (Index i = 0; i < N; ++i) {
+                const long double a = value(x, later[static_cast<std::size_t>(i)]);
+                const long double b = value(x, earlier[static_cast<std::size_t>(i)]);
+                l += a * a;
+                dd += (a - b) * (a - b);
+            }
+            levels = (dd == 0) ? 1.0 : 0.0;
+            diffs = (dd == 0 || std::sqrt(dd) <= 1e-13L * std::sqrt(l)) ? 0.0 : 1.0;
+        }
         if (N > 0 && (diffs == 0 || std::sqrt(diffs) <= 1e-13 * std::sqrt(levels))) invariant.push_back(col);
         in.terms.push_back(ctx.regressor_names[j]);
     }
@@ -268,6 +280,18 @@ Design build_within(const Context& ctx, const std::vector<std::size_t>& rows, co
                 levels += v * v;
                 within += dm * dm;
             }
+        if (!std::isfinite(levels) || !std::isfinite(within)) {
+            // values near the double range: redo the sums where they cannot overflow
+            long double l = 0, w = 0;
+            for (Index k = 0; k < N; ++k) {
+                const long double v = value(x, rows[static_cast<std::size_t>(k)]);
+                const long double dm = in.X(k, col);
+                l += v * v;
+                w += dm * dm;
+            }
+            levels = 1.0;
+            within = (w == 0 || std::sqrt(w) <= 1e-13L * std::sqrt(l)) ? 0.0 : 1.0;
+        }
         if (within == 0 || std::sqrt(within) <= 1e-13 * std::sqrt(levels)) invariant.push_back(col);
         in.terms.push_back(ctx.regressor_names[j]);
     }
@@ -422,8 +446,9 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
                 throw Error("fd: no unit has two usable rows in adjacent periods, so there is nothing to "
                             "difference");
             if (pairs_lost > 0)
-                fit.warnings.push_back(std::to_string(pairs_lost) +
-                                       " differences were not formed because a unit skips a period of the grid");
+                fit.warnings.push_back("fd: " + std::to_string(pairs_lost) +
+                                       (pairs_lost == 1 ? " difference was" : " differences were") +
+                                       " not formed because a unit skips a period of the grid");
             break;
         case Estimator::within:
             if (runs.begin.size() < 2)
@@ -433,6 +458,9 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
             design = build_within(ctx, rows, runs);
             break;
         case Estimator::between: {
+            if (spec.period_effects)
+                throw Error("between: the word \"periods\" does not apply to between (one row per unit, "
+                            "no periods); remove it or choose pooled, fd, within or random");
             const std::vector<std::int32_t> row_periods = [&] {
                 std::vector<std::int32_t> p(rows.size());
                 for (std::size_t k = 0; k < rows.size(); ++k) p[k] = index.period_of_row[rows[k]];
@@ -568,7 +596,10 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
         if (K == 0)
             throw Error(std::string(to_word(spec.estimator)) +
                         ": no terms left to estimate" +
-                        (design.dropped.empty() ? std::string() : " (" + design.dropped.front().message + ")"));
+                        (design.dropped.empty() ? std::string() : " (" + design.dropped.front().message + ")") +
+                        "; give at least one regressor" +
+                        (spec.estimator == Estimator::within || spec.estimator == Estimator::fd
+                             ? " that varies within units" : ""));
         if (N <= K + in.absorbed)
             throw Error(std::string(to_word(spec.estimator)) + ": the estimated equation has " + std::to_string(N) +
                         " rows for " + std::to_string(K) + " terms" +

@@ -119,6 +119,12 @@ TEST_CASE("bad input raises weft::Error with an actionable message", "[errors]")
         d.regressors.resize(1);  // 3 units: between can estimate 2 terms
         const std::string msg = core_test::message_of([&] { weft::fit_model(d, weft::parse_model_text("between cluster-period")); });
         CHECK(msg.find("cluster-period") != std::string::npos);
+        const std::string msg2 = core_test::message_of([&] { weft::fit_model(d, weft::parse_model_text("between periods")); });
+        CHECK(msg2.find("\"periods\" does not apply to between") != std::string::npos);
+        weft::PanelData none = tiny();
+        none.regressors.clear();
+        const std::string msg3 = core_test::message_of([&] { weft::fit_model(none, weft::parse_model_text("within")); });
+        CHECK(msg3.find("no terms left to estimate") != std::string::npos);
     }
 }
 
