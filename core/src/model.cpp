@@ -415,9 +415,25 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
     fit.rows_input = n_rows;
     fit.rows_used = rows_used;
     fit.rows_dropped = n_rows - rows_used;
-    if (rows_used == 0)
+    if (rows_used == 0) {
+        // name a column that is missing in every row: that is usually the mistake
+        auto all_missing = [&](const Column& c) {
+            return n_rows > 0 && c.missing.size() == n_rows &&
+                   std::all_of(c.missing.begin(), c.missing.end(), [](std::uint8_t m) { return m != 0; });
+        };
+        std::string culprit;
+        if (all_missing(data.outcome)) culprit = "the outcome";
+        for (std::size_t j = 0; j < data.regressors.size() && culprit.empty(); ++j)
+            if (all_missing(data.regressors[j]))
+                culprit = data.regressors[j].name.empty() ? "regressor " + std::to_string(j + 1)
+                                                          : "regressor \"" + data.regressors[j].name + "\"";
+        if (culprit.empty() && all_missing(data.periods)) culprit = "periods";
+        if (!culprit.empty())
+            throw Error("no usable rows: " + culprit + " is blank or not a number in all " + std::to_string(n_rows) +
+                        " rows; check that its range points at the data");
         throw Error("no usable rows: every row misses the outcome, a regressor, the unit or the period (" +
                     std::to_string(n_rows) + " rows given)");
+    }
 
     Context ctx{data, spec, index, used, {}, data.regressors.size()};
     for (std::size_t j = 0; j < data.regressors.size(); ++j)
@@ -649,6 +665,24 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
         fit.ci_low[k] = eq.coef[k] - q * se;
         fit.ci_high[k] = eq.coef[k] + q * se;
     }
+    // An exact fit (every residual 0 to rounding) has standard errors 0: rounding noise
+    // must not be shown as tiny SEs with huge t, so they are set to 0, and t and p are
+    // undefined (NaN here; hosts show them as not available), with a warning.
+    {
+        long double yy = 0;
+        for (Index i = 0; i < eq.y.size(); ++i) yy += static_cast<long double>(eq.y[i]) * eq.y[i];
+        if (static_cast<long double>(eq.ssr) <= 1e-28L * yy) {
+            fit.exact_fit = true;
+            fit.covariance.matrix.setZero();
+            for (Index k = 0; k < static_cast<Index>(K); ++k) {
+                fit.se[k] = 0;
+                fit.t[k] = fit.p[k] = std::numeric_limits<double>::quiet_NaN();
+                fit.ci_low[k] = fit.ci_high[k] = eq.coef[k];
+            }
+            fit.warnings.push_back("the fit is exact: every residual is 0 (to rounding), so the standard "
+                                   "errors are 0 and t and p-values are not defined");
+        }
+    }
 
     // fit statistics
     const bool has_intercept = eq.intercept_column >= 0;
@@ -701,7 +735,7 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
                 fit.f_rule = has_intercept ? "((TSS-SSR)/q)/(SSR/df), TSS centred"
                                            : "((TSS-SSR)/q)/(SSR/df), TSS uncentred";
             }
-            if (std::isfinite(f)) {
+            if (std::isfinite(f) && !fit.exact_fit) {
                 fit.f = f;
                 fit.f_df1 = qn;
                 fit.f_df2 = fit.df_residual;

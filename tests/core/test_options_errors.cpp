@@ -183,3 +183,31 @@ TEST_CASE("distributions: upper tails as complements keep tiny p-values", "[dist
     // t quantile: 97.5% point on 9 df is 2.262157163 (common practice, printed t tables)
     CORE_CHECK_REL(weft::t_quantile(0.975, 9), 2.2621571627982, 1e-12, "t quantile");
 }
+
+TEST_CASE("an exact fit reports se 0, no t or p, and says so", "[errors]") {
+    // y = 1 + 2 x exactly: the residuals are 0, so s^2 = 0 (common practice, no source)
+    weft::PanelData d = tiny();
+    d.regressors.resize(1);
+    for (std::size_t i = 0; i < 12; ++i) d.outcome.values[i] = 1 + 2 * d.regressors[0].values[i];
+    for (const char* model : {"pooled", "pooled hc1", "fd cluster", "within"}) {
+        INFO(model);
+        const weft::Fit fit = weft::fit_model(d, weft::parse_model_text(model));
+        CHECK(fit.exact_fit);
+        const auto x = fit.term_position("x");
+        REQUIRE(x);
+        CORE_CHECK_REL(fit.coef[static_cast<Eigen::Index>(*x)], 2.0, 1e-12, "slope");
+        CHECK(fit.se[static_cast<Eigen::Index>(*x)] == 0);
+        CHECK(std::isnan(fit.t[static_cast<Eigen::Index>(*x)]));
+        CHECK_FALSE(fit.f);
+        REQUIRE_FALSE(fit.warnings.empty());
+        CHECK(fit.warnings.back().find("exact") != std::string::npos);
+    }
+}
+
+TEST_CASE("no usable rows names a column that is blank in every row", "[errors]") {
+    weft::PanelData d = tiny();
+    d.regressors[1].missing.assign(12, 1);
+    const std::string msg = core_test::message_of([&] { weft::fit_model(d, {}); });
+    CHECK(msg == "no usable rows: regressor \"z\" is blank or not a number in all 12 rows; check that its range "
+                 "points at the data");
+}

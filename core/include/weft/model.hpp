@@ -32,6 +32,7 @@
 //
 // Stability: fields may be added; existing names and meanings do not change. Changes
 // are announced here:
+//   2026-12-02: Fit::exact_fit added; an exact fit reports se 0 and t, p NaN with a warning.
 //   2026-12-02: solver gained the Gram route for well-conditioned designs (no API
 //   change; r_factor is then the Cholesky factor of Z'Z, with the same meaning R'R = Z'Z).
 #pragma once
@@ -187,6 +188,8 @@ struct Fit {
     std::string f_rule;
     std::optional<RandomEffectsInfo> random_effects;
     std::vector<double> unit_effects;   // within: ybar_i - xbar_i' b per unit number (empty otherwise)
+    bool exact_fit = false;             // every residual 0 to rounding (SSR <= 1e-28 y'y): se = 0,
+                                        // t and p NaN (not defined), F empty, and a warning
     std::vector<std::string> warnings;
 
     Series residuals;                   // aligned to input rows
