@@ -88,6 +88,10 @@ void check_dataset(const std::string& name, double required) {
 }  // namespace
 
 // Requirement: LRE >= 9 for every coefficient and SD (issue 2); Filip at least 7.
+// Filip stays near 7.6 / 7.2 because its cells x^k are rounded to double: solving the
+// same double cells in long double (centred, Householder QR, 64-bit mantissa) gives
+// 7.61 for the coefficients, while x^k kept in long double gives 11.5 (measured by the
+// core engineer while writing this test); the loss is in the input, not the solver.
 TEST_CASE("NIST StRD Norris", "[nist]") { check_dataset("Norris", 9.0); }
 TEST_CASE("NIST StRD Pontius", "[nist]") { check_dataset("Pontius", 9.0); }
 TEST_CASE("NIST StRD NoInt1", "[nist]") { check_dataset("NoInt1", 9.0); }
