@@ -12,6 +12,7 @@
 //     (corrected semi-normal equations, Bjorck 1996 section 6.6.5), which recovers the
 //     digits that the double QR loses on ill-conditioned designs (NIST Filip, Wampler).
 #include <cmath>
+#include <limits>
 #include <cstdlib>
 #include <numeric>
 #include <string>
@@ -100,6 +101,11 @@ Equation solve_equation(EquationInput in) {
             throw Error("equation: the dependent variable is not finite in equation row " + std::to_string(i + 1));
     }
     if (!in.X.allFinite()) throw Error("equation: the design has a value that is not finite");
+    // Sums of squares of the outcome must stay finite, or every SSR-based number (sigma,
+    // standard errors, R-squared, tests) would come out as inf or NaN: refuse instead.
+    if (!std::isfinite(in.y.squaredNorm()))
+        throw Error("the outcome has values too large to compute with (their squares overflow a double); "
+                    "divide the outcome by a power of 10 and scale the estimates back");
 
     Equation eq;
     eq.estimator = in.estimator;
@@ -130,6 +136,11 @@ Equation solve_equation(EquationInput in) {
         }
         const double raw = in.X.col(j).squaredNorm();
         if (!std::isfinite(raw)) throw Error(term_name(in.terms, j) + " has values too large to compute with (their squares overflow a double); divide the column by a power of 10 and scale its estimate back");
+        // Squares that underflow to zero (or to subnormals, which carry few digits) for a
+        // column that is not zero: the column would wrongly look empty. Refuse it by name.
+        if (raw < std::numeric_limits<double>::min() && (in.X.col(j).array() != 0.0).any())
+            throw Error(term_name(in.terms, j) + " has values too small to compute with (their squares underflow a double); "
+                        "multiply the column by a power of 10 and scale its estimate back");
         double s = 0, ss = raw;
         if (c >= 0) {
             s = unit_weight ? in.X.col(j).sum() / static_cast<double>(N) : in.X.col(j).dot(in.X.col(c)) / ww;
