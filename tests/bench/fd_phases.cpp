@@ -1,7 +1,7 @@
 // fd_phases: where a first-difference fit with cluster-by-unit SEs spends its time,
 // phase by phase, on the core library directly (not through the C interface), next
 // to the floor on the same data. For the core engineer: the numbers behind
-// /work/notes/bench-findings.md come from this program.
+// the benchmark notes come from this program.
 //   fd_phases [UNITSxPERIODSxK] [reps]     default 50000x20x20, 5 reps
 #include <weft/core.hpp>
 

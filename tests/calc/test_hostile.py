@@ -594,7 +594,7 @@ def main(argv):
                 passed += 1
                 print("ok    %-44s" % "determinism")
     print("hostile calc: %d cases in real cells, %d failing with an open finding "
-          "(/work/notes/hostile-findings.md)" % (passed + failed + known, known))
+          "(see tests/hostile/README.md)" % (passed + failed + known, known))
     print("%d passed, %d failed" % (passed, failed))
     return 0 if failed == 0 else 1
 

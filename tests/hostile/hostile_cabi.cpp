@@ -740,7 +740,7 @@ int run_catalogue(const std::string &path, const std::vector<std::string> &only)
         std::fflush(stdout);
     }
     std::printf("hostile: %d cases through weft.h, %d not expressible in C, %d failing with an open finding "
-                "(/work/notes/hostile-findings.md)\n", passed + failed + known, not_applicable, known);
+                "(see tests/hostile/README.md)\n", passed + failed + known, not_applicable, known);
     std::printf("%d passed, %d failed\n", passed, failed);
     return failed == 0 ? 0 : 1;
 }
