@@ -34,7 +34,7 @@ ADDIN = "ORG.WEFT.CALCFUNCTIONS."  # stored name = service name + method name
 # ==================================================================== the data
 
 def branch_panel(seed):
-    """Service branches of the (invented) Harrowby Vale Regional Services Agency.
+    """Service branches of the (invented) Regional Services Agency.
 
     cost_per_case = 80 + a_i + g_t - 2.0 caseload - 0.40 online_share + u_it
     Branches with a larger caseload have higher fixed costs (a_i rises with the
@@ -67,7 +67,7 @@ def branch_panel(seed):
 
 
 def clinic_panel(seed):
-    """Clinics of the (invented) Lowmere Community Health Cooperative, by quarter.
+    """Clinics of the (invented) Community Health Cooperative, by quarter.
 
     wait_days = 20 + a_i + g_q - 0.90 nurses_per_10k - 0.25 evening_hours + u_iq,
     u_iq = 0.6 u_i,q-1 + e_iq (serially correlated level errors), a_i independent of
@@ -107,9 +107,9 @@ SCENARIOS = {
     "branch-service-costs": {
         "seed": 20240611,
         "title": "Branch service costs: caseload and online filing",
-        "organisation": "Harrowby Vale Regional Services Agency (invented)",
+        "organisation": "Regional Services Agency (invented)",
         "story": [
-            "The Harrowby Vale Regional Services Agency is an invented public body. Its 36 "
+            "The Regional Services Agency is an invented public body. Its 36 "
             "service branches handle applications from residents; each year every branch "
             "reports its cost per case handled, its caseload and the share of cases filed "
             "online.",
@@ -135,9 +135,9 @@ SCENARIOS = {
     "clinic-waiting-times": {
         "seed": 7304,
         "title": "Clinic waiting times: nurse staffing and evening hours",
-        "organisation": "Lowmere Community Health Cooperative (invented)",
+        "organisation": "Community Health Cooperative (invented)",
         "story": [
-            "The Lowmere Community Health Cooperative is an invented network of 24 "
+            "The Community Health Cooperative is an invented network of 24 "
             "clinics. Each quarter from 2021 Q1 to 2024 Q4 every clinic reports the "
             "average number of days a patient waits for a routine appointment, its nurse "
             "staffing per 10,000 registered patients and its weekly opening hours after "
