@@ -10,7 +10,6 @@ weft add-in installed (tests/calc/office.py), recalculates it, stores the result
 
 import argparse
 import os
-import shutil
 import sys
 
 REPO = os.path.normpath(os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
@@ -39,17 +38,6 @@ def table_text(rows):
     return "\n".join(lines)
 
 
-def load_copy(office, path):
-    """Open a copy of the workbook placed in the office's own work folder: when we are
-    root the office runs as an unprivileged user, who may not be able to read the
-    source tree (a clone under a private folder)."""
-    dest = os.path.join(office.work_dir, os.path.basename(path))
-    shutil.copyfile(path, dest)
-    if os.geteuid() == 0:
-        os.chown(dest, 65534, 65534)  # nobody, as office.py runs the office
-    return office.load(dest)
-
-
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--oxt", required=True)
@@ -59,7 +47,7 @@ def main():
     ap.add_argument("--table", required=True)
     args = ap.parse_args()
     with Office(extensions=[args.oxt], timeout=300) as office:
-        doc = load_copy(office, args.workbook)
+        doc = office.load_copy(args.workbook)
         doc.calculateAll()
         # The office runs as an unprivileged user when we are root: let it write into
         # its own work folder, then copy the files out.

@@ -164,6 +164,16 @@ class Office:
         url = uno.systemPathToFileUrl(os.path.abspath(path))
         return self.desktop.loadComponentFromURL(url, "_blank", 0, _props(Hidden=True))
 
+    def load_copy(self, path):
+        """Open a copy of a document placed in the office's own work folder: when we are
+        root the office runs as an unprivileged user, who may not be able to read the
+        source tree (a clone under a private folder)."""
+        dest = os.path.join(self.work_dir, os.path.basename(path))
+        shutil.copyfile(path, dest)
+        if self._as_user:
+            os.chown(dest, UNPRIVILEGED_UID, UNPRIVILEGED_UID)
+        return self.load(dest)
+
     def save_as(self, doc, path, filter_name="calc8"):
         """Store doc to path with a filter ("calc8" .ods, "Calc Office Open XML" .xlsx)."""
         url = uno.systemPathToFileUrl(os.path.abspath(path))

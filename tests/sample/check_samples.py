@@ -15,7 +15,6 @@ with numpy's lstsq (an independent route, not weft).
 
 import argparse
 import os
-import shutil
 import sys
 
 HERE = os.path.dirname(os.path.abspath(__file__))
@@ -89,17 +88,6 @@ def independent_fd(sc, rows):
     return dict(zip(sc["regressors"], b[1:1 + len(ix)])), len(y)
 
 
-def load_copy(office, path):
-    """Open a copy of the workbook placed in the office's own work folder: when we are
-    root the office runs as an unprivileged user, who may not be able to read the
-    source tree (a clone under a private folder)."""
-    dest = os.path.join(office.work_dir, os.path.basename(path))
-    shutil.copyfile(path, dest)
-    if os.geteuid() == 0:
-        os.chown(dest, 65534, 65534)  # nobody, as office.py runs the office
-    return office.load(dest)
-
-
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("workbook")
@@ -115,7 +103,7 @@ def main():
     rows = sc["make"](sc["seed"])
 
     with Office(extensions=[args.oxt], timeout=240) as office:
-        doc = load_copy(office, args.workbook)
+        doc = office.load_copy(args.workbook)
         doc.calculateAll()
         if args.dump:
             for name in doc.NamedRanges.getElementNames():
