@@ -7,6 +7,7 @@
 #include "cells.hpp"
 #include "functions.hpp"
 #include "texts.hpp"
+#include "trace.hpp"
 
 #include <org/weft/XCalcFunctions.hpp>
 
@@ -148,6 +149,7 @@ std::vector<Table> to_tables(std::initializer_list<const AnyRows*> ranges) {
     }
     std::vector<Table> out;
     for (const AnyRows* r : ranges) out.push_back(to_table(*r, same ? keep : used_rows(*r)));
+    CallTrace::mark("convert");
     const double ms = std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() -
                                                                 start).count();
     log_line("convert " + std::to_string(ms) + " ms, " +
@@ -231,7 +233,12 @@ std::string guarded(F&& body) noexcept {
 template <class F>
 AnyRows table_result(F&& compute) {
     AnyRows result;
-    const std::string error = guarded([&] { result = to_rows(compute()); });
+    const std::string error = guarded([&] {
+        OutTable out = compute();
+        CallTrace::mark("compute");
+        result = to_rows(out);
+        CallTrace::mark("out");
+    });
     if (!error.empty()) {
         try {
             return to_rows(message_table(error));
@@ -261,6 +268,7 @@ public:
     // ---- XCalcFunctions ------------------------------------------------------
     AnyRows SAL_CALL estimates(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                                const AnyRows& t, const Any& model) override {
+        CallTrace trace("estimates");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&y, &x, &u, &t});
             return fn_estimates({r[0], r[1], r[2], r[3]}, to_arg(model));
@@ -268,6 +276,7 @@ public:
     }
     AnyRows SAL_CALL summary(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                              const AnyRows& t, const Any& model) override {
+        CallTrace trace("summary");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&y, &x, &u, &t});
             return fn_summary({r[0], r[1], r[2], r[3]}, to_arg(model));
@@ -275,6 +284,7 @@ public:
     }
     Any SAL_CALL value(const AnyRows& y, const AnyRows& x, const AnyRows& u, const AnyRows& t,
                        const Any& model, const Any& what, const Any& term) override {
+        CallTrace trace("value");
         Any result;
         const std::string error = guarded([&] {
             const std::vector<Table> r = to_tables({&y, &x, &u, &t});
@@ -292,6 +302,7 @@ public:
     }
     AnyRows SAL_CALL residuals(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                                const AnyRows& t, const Any& model) override {
+        CallTrace trace("residuals");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&y, &x, &u, &t});
             return fn_residuals({r[0], r[1], r[2], r[3]}, to_arg(model));
@@ -299,6 +310,7 @@ public:
     }
     AnyRows SAL_CALL fitted(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                             const AnyRows& t, const Any& model) override {
+        CallTrace trace("fitted");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&y, &x, &u, &t});
             return fn_fitted({r[0], r[1], r[2], r[3]}, to_arg(model));
@@ -306,6 +318,7 @@ public:
     }
     AnyRows SAL_CALL joint(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                            const AnyRows& t, const Any& model, const Any& terms) override {
+        CallTrace trace("joint");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&y, &x, &u, &t});
             return fn_joint({r[0], r[1], r[2], r[3]}, to_arg(model), to_arg(terms));
@@ -313,6 +326,7 @@ public:
     }
     AnyRows SAL_CALL hetero(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                             const AnyRows& t, const Any& model, const Any& form) override {
+        CallTrace trace("hetero");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&y, &x, &u, &t});
             return fn_hetero({r[0], r[1], r[2], r[3]}, to_arg(model), to_arg(form));
@@ -320,6 +334,7 @@ public:
     }
     AnyRows SAL_CALL serial(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                             const AnyRows& t, const Any& model) override {
+        CallTrace trace("serial");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&y, &x, &u, &t});
             return fn_serial({r[0], r[1], r[2], r[3]}, to_arg(model));
@@ -327,6 +342,7 @@ public:
     }
     AnyRows SAL_CALL hausman(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                              const AnyRows& t, const Any& model) override {
+        CallTrace trace("hausman");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&y, &x, &u, &t});
             return fn_hausman({r[0], r[1], r[2], r[3]}, to_arg(model));
@@ -334,6 +350,7 @@ public:
     }
     AnyRows SAL_CALL effects(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                              const AnyRows& t, const Any& model) override {
+        CallTrace trace("effects");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&y, &x, &u, &t});
             return fn_effects({r[0], r[1], r[2], r[3]}, to_arg(model));
@@ -341,6 +358,7 @@ public:
     }
     AnyRows SAL_CALL diff(const AnyRows& v, const AnyRows& u, const AnyRows& t,
                           const Any& k) override {
+        CallTrace trace("diff");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&v, &u, &t});
             return fn_diff(r[0], r[1], r[2], to_arg(k));
@@ -348,24 +366,28 @@ public:
     }
     AnyRows SAL_CALL lag(const AnyRows& v, const AnyRows& u, const AnyRows& t,
                          const Any& k) override {
+        CallTrace trace("lag");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&v, &u, &t});
             return fn_lag(r[0], r[1], r[2], to_arg(k));
         });
     }
     AnyRows SAL_CALL demean(const AnyRows& v, const AnyRows& u) override {
+        CallTrace trace("demean");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&v, &u});
             return fn_demean(r[0], r[1]);
         });
     }
     AnyRows SAL_CALL dummies(const AnyRows& t, const Any& omit_first) override {
+        CallTrace trace("dummies");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&t});
             return fn_dummies(r[0], to_arg(omit_first));
         });
     }
     AnyRows SAL_CALL panel(const AnyRows& u, const AnyRows& t) override {
+        CallTrace trace("panel");
         return table_result([&] {
             const std::vector<Table> r = to_tables({&u, &t});
             return fn_panel(r[0], r[1]);

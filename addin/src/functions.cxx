@@ -1,6 +1,7 @@
 #include "functions.hpp"
 
 #include "cache.hpp"
+#include "trace.hpp"
 
 #include <weft.h>
 
@@ -379,6 +380,7 @@ std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string
     const Hash128 key = h.digest();
     if (auto hit = model_cache.find(key)) {
         log_line("hit " + key.hex());
+        CallTrace::note("hit");
         return hit;
     }
     auto entry = std::make_shared<ModelEntry>();
@@ -391,6 +393,7 @@ std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string
         entry->error = e.what();
     }
     log_line("fit " + key.hex());
+    CallTrace::note("fit");
     model_cache.put(key, entry);
     return entry;
 }
@@ -405,7 +408,9 @@ struct Fitted {
 
     Fitted(const PanelRanges& ranges, const Arg& model_arg) {
         input = read_panel(ranges);
+        CallTrace::mark("read");
         entry = cached_model(input, model_text(model_arg));
+        CallTrace::mark("model");
         if (!entry->error.empty()) throw UserError(UserError::FullText{}, entry->error);
         model = entry->model.get();
     }

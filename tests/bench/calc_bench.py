@@ -13,6 +13,10 @@ regressors, from weft_bench's seeded generator, with a header row), measures wit
              the pair minus `first` is what the second function adds.
 The add-in's log (WEFT_ADDIN_LOG) is read to check that `first` fitted and that
 `cached` and the second function did not. Medians over --reps runs.
+The add-in's timing trace (WEFT_ADDIN_TRACE) splits each recalculation into the
+add-in's own phases (convert: cells to plain tables; read: columns, checks and the
+input hash; model: cache lookup or fit; compute, out: result cells) and the rest,
+which is the office's own work (converting the ranges to arguments, storing results).
 
 Usage: /usr/bin/python3 tests/bench/calc_bench.py [--build build-bench]
            [--oxt PATH] [--bench PATH] [--rows 100000,1000000] [--reps 3] [--json OUT]
@@ -71,19 +75,51 @@ def office_cpu_seconds(pid):
     return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
 
 
+def trace_lines(path):
+    if not os.path.exists(path):
+        return []
+    with open(path) as f:
+        return [line.split() for line in f if line.strip()]
+
+
+def phase_seconds(lines):
+    """Sum over the traced calls of each phase ("name=ms" words), in seconds."""
+    sums = {}
+    for words in lines:
+        for w in words[1:]:
+            if "=" in w:
+                name, ms = w.split("=", 1)
+                sums[name] = sums.get(name, 0.0) + float(ms) / 1000.0
+    return sums
+
+
 class Recalc:
     """calculateAll() timed by the wall clock and by the office's CPU time: on a shared
-    machine the wall clock also counts waiting for a core."""
+    machine the wall clock also counts waiting for a core. With a trace file, the
+    add-in's phases of the calls made during the recalculation are kept too."""
 
-    def __init__(self, doc, pid):
-        self.doc, self.pid = doc, pid
+    def __init__(self, doc, pid, trace=None):
+        self.doc, self.pid, self.trace = doc, pid, trace
 
-    def __call__(self, wall, cpu):
+    def __call__(self, wall, cpu, phases=None):
+        before = len(trace_lines(self.trace)) if self.trace else 0
         cpu_start = office_cpu_seconds(self.pid)
         start = time.perf_counter()
         self.doc.calculateAll()
         wall.append(time.perf_counter() - start)
         cpu.append(office_cpu_seconds(self.pid) - cpu_start)
+        if phases is not None and self.trace:
+            phases.append(phase_seconds(trace_lines(self.trace)[before:]))
+
+
+def median_phases(phases, wall):
+    """Median of each traced phase, plus `office`: wall clock minus the add-in's total."""
+    if not phases:
+        return {}
+    names = sorted({k for p in phases for k in p})
+    out = {k: statistics.median(p.get(k, 0.0) for p in phases) for k in names}
+    out["office"] = statistics.median(w - p.get("total", 0.0) for w, p in zip(wall, phases))
+    return out
 
 
 def main():
@@ -104,9 +140,10 @@ def main():
     work = tempfile.mkdtemp(prefix="weft-calc-bench-")
     os.chmod(work, 0o777)  # the office may run as an unprivileged user and writes the log
     log = os.path.join(work, "addin.log")
+    trace = os.path.join(work, "trace.log")
     results = []
     failures = []
-    with Office(extensions=[oxt], timeout=3600, env={"WEFT_ADDIN_LOG": log}) as office:
+    with Office(extensions=[oxt], timeout=3600, env={"WEFT_ADDIN_LOG": log, "WEFT_ADDIN_TRACE": trace}) as office:
         for n_rows in [int(v) for v in args.rows.split(",")]:
             units = n_rows // PERIODS
             csv_path = os.path.join(work, f"panel_{n_rows}.csv")
@@ -135,7 +172,7 @@ def main():
                 def nudge_input(rep):
                     nudge.setValue(y0 + 1e-9 * (rep + 1))
 
-                recalc = Recalc(doc, office.proc.pid)
+                recalc = Recalc(doc, office.proc.pid, trace)
                 # The office's own SUM over the block (first run not counted).
                 probe.setFormula(f"=SUM(A2:{last_col}{last_row})")
                 sums, sums_cpu = [], []
@@ -147,15 +184,16 @@ def main():
                 # First function, cold cache; then the same recalculated (cache answers).
                 estimates.setArrayFormula(f"=WEFT.ESTIMATES({ranges};{model})")
                 first, cached, first_cpu, cached_cpu = [], [], [], []
+                first_ph, cached_ph, pair_ph = [], [], []
                 for rep in range(args.reps):
                     nudge_input(rep)
                     before = len(log_kinds(log))
-                    recalc(first, first_cpu)
+                    recalc(first, first_cpu, first_ph)
                     kinds = log_kinds(log)[before:]
                     if kinds.count("fit") != 1:
                         failures.append(f"{n_rows} rows: cold ESTIMATES logged {kinds}, expected one fit")
                     before = len(kinds) + before
-                    recalc(cached, cached_cpu)
+                    recalc(cached, cached_cpu, cached_ph)
                     kinds = log_kinds(log)[before:]
                     if "fit" in kinds:
                         failures.append(f"{n_rows} rows: unchanged recalculation fitted again ({kinds})")
@@ -169,7 +207,7 @@ def main():
                 for rep in range(args.reps):
                     nudge_input(args.reps + rep)
                     before = len(log_kinds(log))
-                    recalc(pair, pair_cpu)
+                    recalc(pair, pair_cpu, pair_ph)
                     kinds = log_kinds(log)[before:]
                     if kinds.count("fit") != 1:
                         failures.append(f"{n_rows} rows: ESTIMATES + VALUE logged {kinds}, expected one fit")
@@ -186,6 +224,10 @@ def main():
                     "cached_cpu": statistics.median(cached_cpu),
                     "pair_cpu": statistics.median(pair_cpu),
                     "se_x1": se_x1,
+                    "phases": {name: median_phases(ph, wall)
+                               for name, ph, wall in (("first", first_ph, first),
+                                                      ("cached", cached_ph, cached),
+                                                      ("pair", pair_ph, pair))},
                 }
                 row["second_seconds"] = max(row["pair_seconds"] - row["first_seconds"], 0.0)
                 row["second_cpu"] = max(row["pair_cpu"] - row["first_cpu"], 0.0)
@@ -210,6 +252,14 @@ def main():
     print("first: WEFT.ESTIMATES fd cluster, cold; cached: same, unchanged (the cache answers);\n"
           "second: what a WEFT.VALUE on the same model adds to a cold recalculation (pair - first).\n"
           "Medians of calculateAll(); cpu = the office process's CPU time (10 ms resolution).")
+    print()
+    print("Where the time goes (seconds, medians; add-in phases from WEFT_ADDIN_TRACE, office = wall - add-in total):")
+    for r in results:
+        for name in ("first", "cached", "pair"):
+            ph = r["phases"].get(name, {})
+            print("%-9d %-7s " % (r["rows"], name) +
+                  " ".join("%s=%.3f" % (k, ph[k]) for k in
+                           ("office", "total", "key", "lookup", "convert", "read", "model", "compute", "out") if k in ph))
     if args.json:
         with open(args.json, "w") as f:
             json.dump({"results": results, "failures": failures}, f, indent=1)
