@@ -22,6 +22,7 @@
 #include <sal/types.h>
 
 #include <chrono>
+#include <cstdint>
 #include <exception>
 #include <new>
 #include <string>
@@ -158,6 +159,103 @@ std::vector<Table> to_tables(std::initializer_list<const AnyRows*> ranges) {
     return out;
 }
 
+// ------------------------------------------------------------ the cells key
+
+// Kinds of a passed cell, as hashed: every kind the office could pass is kept
+// apart, even where reading treats two alike (void and an empty text are both
+// blank), so equal keys mean equal cells, never merely equal readings.
+enum class CellTag : std::uint64_t {
+    empty_text = 1, text, number, other_number, boolean, none, other
+};
+
+// Every cell of a range as passed: the row count, then the rows up to the last
+// non-blank one (each with its length and its cells), so a blank tail counts by
+// its length only, as the conversion sees it.
+void hash_range(Hasher& h, const AnyRows& rows) {
+    h.add_u64(static_cast<std::uint64_t>(rows.getLength()));
+    const std::size_t keep = used_rows(rows);
+    h.add_u64(keep);
+    if (rows.getLength() > 0) h.add_u64(static_cast<std::uint64_t>(rows[0].getLength()));
+    for (std::size_t r = 0; r < keep; ++r) {
+        const Sequence<Any>& row = rows[static_cast<sal_Int32>(r)];
+        const sal_Int32 n = row.getLength();
+        h.add_u64(static_cast<std::uint64_t>(n));
+        const Any* cells = row.getConstArray();
+        for (sal_Int32 c = 0; c < n; ++c) {
+            const Any& a = cells[c];
+            switch (a.getValueTypeClass()) {
+            case css::uno::TypeClass_DOUBLE:
+                h.add_u64(static_cast<std::uint64_t>(CellTag::number));
+                h.add_double(*static_cast<const double*>(a.getValue()));
+                break;
+            case css::uno::TypeClass_STRING: {
+                const rtl_uString* s = static_cast<const OUString*>(a.getValue())->pData;
+                if (s->length == 0) {
+                    h.add_u64(static_cast<std::uint64_t>(CellTag::empty_text));
+                } else {
+                    h.add_u64(static_cast<std::uint64_t>(CellTag::text));
+                    h.add_u64(static_cast<std::uint64_t>(s->length));
+                    h.add_bytes(reinterpret_cast<const char*>(s->buffer),
+                                static_cast<std::size_t>(s->length) * sizeof(sal_Unicode));
+                }
+                break;
+            }
+            case css::uno::TypeClass_BOOLEAN:
+                h.add_u64(static_cast<std::uint64_t>(CellTag::boolean));
+                h.add_u64(*static_cast<const sal_Bool*>(a.getValue()) ? 1 : 0);
+                break;
+            case css::uno::TypeClass_VOID:
+                h.add_u64(static_cast<std::uint64_t>(CellTag::none));
+                break;
+            case css::uno::TypeClass_FLOAT:
+            case css::uno::TypeClass_LONG:
+            case css::uno::TypeClass_SHORT:
+            case css::uno::TypeClass_HYPER:
+            case css::uno::TypeClass_BYTE:
+            case css::uno::TypeClass_UNSIGNED_LONG:
+            case css::uno::TypeClass_UNSIGNED_SHORT:
+            case css::uno::TypeClass_UNSIGNED_HYPER: {
+                // Not seen from cells; hashed as its type and converted value.
+                double v = 0.0;
+                const bool ok = (a >>= v);
+                h.add_u64(static_cast<std::uint64_t>(CellTag::other_number));
+                h.add_u64(static_cast<std::uint64_t>(a.getValueTypeClass()));
+                h.add_u64(ok ? 1 : 0);
+                h.add_double(v);
+                break;
+            }
+            default:  // read as blank; kept apart by its type class
+                h.add_u64(static_cast<std::uint64_t>(CellTag::other));
+                h.add_u64(static_cast<std::uint64_t>(a.getValueTypeClass()));
+                break;
+            }
+        }
+    }
+}
+
+// The four model ranges as the office passed them: keyed at once (one pass over
+// the cells), converted to tables only when the cache cannot answer.
+class UnoPanelSource : public PanelSource {
+public:
+    UnoPanelSource(const AnyRows& y, const AnyRows& x, const AnyRows& u, const AnyRows& t)
+        : y_(y), x_(x), u_(u), t_(t) {
+        Hasher h;
+        for (const AnyRows* r : {&y, &x, &u, &t}) hash_range(h, *r);
+        key_ = h.digest();
+        CallTrace::mark("key");
+    }
+    const Hash128* cells_key() const override { return &key_; }
+    PanelRanges ranges() const override {
+        if (tables_.empty()) tables_ = to_tables({&y_, &x_, &u_, &t_});
+        return {tables_[0], tables_[1], tables_[2], tables_[3]};
+    }
+
+private:
+    const AnyRows &y_, &x_, &u_, &t_;
+    Hash128 key_;
+    mutable std::vector<Table> tables_;
+};
+
 Arg to_arg(const Any& a) {
     Arg arg;
     if (a.getValueTypeClass() == css::uno::TypeClass_VOID) return arg;
@@ -270,16 +368,16 @@ public:
                                const AnyRows& t, const Any& model) override {
         CallTrace trace("estimates");
         return table_result([&] {
-            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
-            return fn_estimates({r[0], r[1], r[2], r[3]}, to_arg(model));
+            const UnoPanelSource r(y, x, u, t);
+            return fn_estimates(r, to_arg(model));
         });
     }
     AnyRows SAL_CALL summary(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                              const AnyRows& t, const Any& model) override {
         CallTrace trace("summary");
         return table_result([&] {
-            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
-            return fn_summary({r[0], r[1], r[2], r[3]}, to_arg(model));
+            const UnoPanelSource r(y, x, u, t);
+            return fn_summary(r, to_arg(model));
         });
     }
     Any SAL_CALL value(const AnyRows& y, const AnyRows& x, const AnyRows& u, const AnyRows& t,
@@ -287,8 +385,8 @@ public:
         CallTrace trace("value");
         Any result;
         const std::string error = guarded([&] {
-            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
-            result = to_any(fn_value({r[0], r[1], r[2], r[3]}, to_arg(model), to_arg(what),
+            const UnoPanelSource r(y, x, u, t);
+            result = to_any(fn_value(r, to_arg(model), to_arg(what),
                                      to_arg(term)));
         });
         if (!error.empty()) {
@@ -304,56 +402,56 @@ public:
                                const AnyRows& t, const Any& model) override {
         CallTrace trace("residuals");
         return table_result([&] {
-            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
-            return fn_residuals({r[0], r[1], r[2], r[3]}, to_arg(model));
+            const UnoPanelSource r(y, x, u, t);
+            return fn_residuals(r, to_arg(model));
         });
     }
     AnyRows SAL_CALL fitted(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                             const AnyRows& t, const Any& model) override {
         CallTrace trace("fitted");
         return table_result([&] {
-            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
-            return fn_fitted({r[0], r[1], r[2], r[3]}, to_arg(model));
+            const UnoPanelSource r(y, x, u, t);
+            return fn_fitted(r, to_arg(model));
         });
     }
     AnyRows SAL_CALL joint(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                            const AnyRows& t, const Any& model, const Any& terms) override {
         CallTrace trace("joint");
         return table_result([&] {
-            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
-            return fn_joint({r[0], r[1], r[2], r[3]}, to_arg(model), to_arg(terms));
+            const UnoPanelSource r(y, x, u, t);
+            return fn_joint(r, to_arg(model), to_arg(terms));
         });
     }
     AnyRows SAL_CALL hetero(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                             const AnyRows& t, const Any& model, const Any& form) override {
         CallTrace trace("hetero");
         return table_result([&] {
-            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
-            return fn_hetero({r[0], r[1], r[2], r[3]}, to_arg(model), to_arg(form));
+            const UnoPanelSource r(y, x, u, t);
+            return fn_hetero(r, to_arg(model), to_arg(form));
         });
     }
     AnyRows SAL_CALL serial(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                             const AnyRows& t, const Any& model) override {
         CallTrace trace("serial");
         return table_result([&] {
-            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
-            return fn_serial({r[0], r[1], r[2], r[3]}, to_arg(model));
+            const UnoPanelSource r(y, x, u, t);
+            return fn_serial(r, to_arg(model));
         });
     }
     AnyRows SAL_CALL hausman(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                              const AnyRows& t, const Any& model) override {
         CallTrace trace("hausman");
         return table_result([&] {
-            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
-            return fn_hausman({r[0], r[1], r[2], r[3]}, to_arg(model));
+            const UnoPanelSource r(y, x, u, t);
+            return fn_hausman(r, to_arg(model));
         });
     }
     AnyRows SAL_CALL effects(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                              const AnyRows& t, const Any& model) override {
         CallTrace trace("effects");
         return table_result([&] {
-            const std::vector<Table> r = to_tables({&y, &x, &u, &t});
-            return fn_effects({r[0], r[1], r[2], r[3]}, to_arg(model));
+            const UnoPanelSource r(y, x, u, t);
+            return fn_effects(r, to_arg(model));
         });
     }
     AnyRows SAL_CALL diff(const AnyRows& v, const AnyRows& u, const AnyRows& t,

@@ -371,13 +371,14 @@ std::string canonical_model_text(const std::string& text) {
     return std::string(buf.data());
 }
 
-std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string& given_text) {
+std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string& given_text,
+                                         Hash128& key) {
     const std::string text = canonical_model_text(given_text);
     Hasher h;
     h.add_u64(in.hash.a);
     h.add_u64(in.hash.b);
     h.add_string(text);
-    const Hash128 key = h.digest();
+    key = h.digest();
     if (auto hit = model_cache.find(key)) {
         log_line("hit " + key.hex());
         CallTrace::note("hit");
@@ -398,6 +399,38 @@ std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string
     return entry;
 }
 
+// A call's cells and model argument -> the key of the model they gave. Only
+// calls whose ranges were read without error are recorded, so a hit repeats what
+// reading them would give; the model itself stays in model_cache (an evicted
+// model is fitted again through the full path), so memory stays bounded as before.
+struct CallEntry {
+    Hash128 model_key;
+    bool header = false;
+    std::size_t n = 0;
+};
+LruCache<CallEntry> call_cache(16);
+
+void hash_cell(Hasher& h, const Cell& c) {
+    h.add_u64(static_cast<std::uint64_t>(c.kind));
+    if (c.is_number()) h.add_double(c.number);
+    if (c.is_text()) h.add_string(c.text);
+}
+
+// The cells key plus every cell of the model argument, as given (not its
+// canonical text: that is checked only after the ranges have been read).
+Hash128 call_key_of(const Hash128& cells, const Arg& model_arg) {
+    Hasher h;
+    h.add_u64(cells.a);
+    h.add_u64(cells.b);
+    h.add_u64(model_arg.given ? 1 : 0);
+    h.add_u64(model_arg.table.rows);
+    h.add_u64(model_arg.table.cols);
+    h.add_u64(model_arg.table.given_rows);
+    h.add_u64(model_arg.table.cells.size());
+    for (const Cell& c : model_arg.table.cells) hash_cell(h, c);
+    return h.digest();
+}
+
 // Everything a model function needs: the input (for row alignment and names)
 // and the fitted model. Holds the lock while the model is used.
 struct Fitted {
@@ -406,13 +439,41 @@ struct Fitted {
     std::shared_ptr<ModelEntry> entry;
     const weft_model* model = nullptr;
 
-    Fitted(const PanelRanges& ranges, const Arg& model_arg) {
-        input = read_panel(ranges);
-        CallTrace::mark("read");
-        entry = cached_model(input, model_text(model_arg));
-        CallTrace::mark("model");
+    Fitted(const PanelSource& source, const Arg& model_arg) {
+        const Hash128* cells = source.cells_key();
+        Hash128 call_key;
+        if (cells != nullptr) {
+            call_key = call_key_of(*cells, model_arg);
+            entry = shortcut(call_key);
+        }
+        CallTrace::mark("lookup");
+        if (!entry) {
+            input = read_panel(source.ranges());
+            CallTrace::mark("read");
+            Hash128 model_key;
+            entry = cached_model(input, model_text(model_arg), model_key);
+            CallTrace::mark("model");
+            if (cells != nullptr)
+                call_cache.put(call_key, std::make_shared<CallEntry>(
+                                             CallEntry{model_key, input.header, input.n}));
+        }
         if (!entry->error.empty()) throw UserError(UserError::FullText{}, entry->error);
         model = entry->model.get();
+    }
+
+private:
+    // The model this call found the last time these cells and this model argument
+    // were passed, if it is still cached; fills what the results need of the input.
+    std::shared_ptr<ModelEntry> shortcut(const Hash128& call_key) {
+        const std::shared_ptr<CallEntry> call = call_cache.find(call_key);
+        if (!call) return nullptr;
+        std::shared_ptr<ModelEntry> found = model_cache.find(call->model_key);
+        if (!found) return nullptr;
+        log_line("hit " + call->model_key.hex());
+        CallTrace::note("hit-cells");
+        input.header = call->header;
+        input.n = call->n;
+        return found;
     }
 };
 
@@ -470,7 +531,7 @@ OutTable aligned_column(bool header, const std::string& label, const std::vector
 
 using RowValues = int (*)(const weft_model*, double*, unsigned char*, size_t, size_t*);
 
-OutTable model_column(const PanelRanges& ranges, const Arg& model_arg, RowValues get,
+OutTable model_column(const PanelSource& ranges, const Arg& model_arg, RowValues get,
                       const char* label) {
     Fitted f(ranges, model_arg);
     std::vector<double> v(f.input.n);
@@ -603,7 +664,7 @@ OutTable run_transform(const Table& values_in, const Table& units_in, const Tabl
 
 // =================================================================== functions
 
-OutTable fn_estimates(const PanelRanges& in, const Arg& model) {
+OutTable fn_estimates(const PanelSource& in, const Arg& model) {
     Fitted f(in, model);
     size_t n_terms = 0, n_dropped = 0;
     check(weft_model_term_count(f.model, &n_terms));
@@ -639,7 +700,7 @@ OutTable fn_estimates(const PanelRanges& in, const Arg& model) {
     return t;
 }
 
-OutTable fn_summary(const PanelRanges& in, const Arg& model) {
+OutTable fn_summary(const PanelSource& in, const Arg& model) {
     Fitted f(in, model);
     size_t n_items = 0;
     check(weft_model_summary_count(f.model, &n_items));
@@ -656,7 +717,7 @@ OutTable fn_summary(const PanelRanges& in, const Arg& model) {
     return lv.table();
 }
 
-OutCell fn_value(const PanelRanges& in, const Arg& model, const Arg& what_arg, const Arg& term_arg) {
+OutCell fn_value(const PanelSource& in, const Arg& model, const Arg& what_arg, const Arg& term_arg) {
     const std::string what = lower(optional_word(what_arg, "what", "\"estimate\""));
     if (what.empty())
         fail("WEFT.VALUE needs what: one of estimate, se, t, p, ci-low, ci-high (with a term), "
@@ -695,15 +756,15 @@ OutCell fn_value(const PanelRanges& in, const Arg& model, const Arg& what_arg, c
     return out;
 }
 
-OutTable fn_residuals(const PanelRanges& in, const Arg& model) {
+OutTable fn_residuals(const PanelSource& in, const Arg& model) {
     return model_column(in, model, weft_model_residuals, "residual");
 }
 
-OutTable fn_fitted(const PanelRanges& in, const Arg& model) {
+OutTable fn_fitted(const PanelSource& in, const Arg& model) {
     return model_column(in, model, weft_model_fitted, "fitted");
 }
 
-OutTable fn_joint(const PanelRanges& in, const Arg& model, const Arg& terms) {
+OutTable fn_joint(const PanelSource& in, const Arg& model, const Arg& terms) {
     // Collect the names first, so a bad terms argument is reported before a fit.
     std::vector<std::string> names;
     bool single_list = false;
@@ -740,7 +801,7 @@ OutTable fn_joint(const PanelRanges& in, const Arg& model, const Arg& terms) {
     return lv.table();
 }
 
-OutTable fn_hetero(const PanelRanges& in, const Arg& model, const Arg& form_arg) {
+OutTable fn_hetero(const PanelSource& in, const Arg& model, const Arg& form_arg) {
     const std::string word = lower(optional_word(form_arg, "form", "\"koenker\""));
     int form = WEFT_HETERO_KOENKER;
     check(weft_hetero_form_parse(word.c_str(), &form));
@@ -759,7 +820,7 @@ OutTable fn_hetero(const PanelRanges& in, const Arg& model, const Arg& form_arg)
     return lv.table();
 }
 
-OutTable fn_serial(const PanelRanges& in, const Arg& model) {
+OutTable fn_serial(const PanelSource& in, const Arg& model) {
     Fitted f(in, model);
     weft_serial_result r;
     check(weft_test_serial(f.model, &r));
@@ -780,9 +841,9 @@ OutTable fn_serial(const PanelRanges& in, const Arg& model) {
     return lv.table();
 }
 
-OutTable fn_hausman(const PanelRanges& in, const Arg& model) {
+OutTable fn_hausman(const PanelSource& in, const Arg& model) {
     std::unique_lock<std::mutex> lock(cache_mutex);
-    const PanelInput input = read_panel(in);
+    const PanelInput input = read_panel(in.ranges());
     const weft_options o = parse_options(model_text(model));
     const weft_panel* panel = panel_or_throw(*cached_panel(input));
     weft_hausman_result r;
@@ -804,9 +865,9 @@ OutTable fn_hausman(const PanelRanges& in, const Arg& model) {
     return lv.table();
 }
 
-OutTable fn_effects(const PanelRanges& in, const Arg& model) {
+OutTable fn_effects(const PanelSource& in, const Arg& model) {
     std::unique_lock<std::mutex> lock(cache_mutex);
-    const PanelInput input = read_panel(in);
+    const PanelInput input = read_panel(in.ranges());
     const weft_options o = parse_options(model_text(model));
     const weft_panel* panel = panel_or_throw(*cached_panel(input));
     weft_effects_result r;
@@ -819,6 +880,24 @@ OutTable fn_effects(const PanelRanges& in, const Arg& model) {
     add_test_warnings(lv);
     return lv.table();
 }
+
+// Over plain tables: no cells key, so the ranges are always read.
+OutTable fn_estimates(const PanelRanges& in, const Arg& model) { return fn_estimates(TableSource(in), model); }
+OutTable fn_summary(const PanelRanges& in, const Arg& model) { return fn_summary(TableSource(in), model); }
+OutCell fn_value(const PanelRanges& in, const Arg& model, const Arg& what, const Arg& term) {
+    return fn_value(TableSource(in), model, what, term);
+}
+OutTable fn_residuals(const PanelRanges& in, const Arg& model) { return fn_residuals(TableSource(in), model); }
+OutTable fn_fitted(const PanelRanges& in, const Arg& model) { return fn_fitted(TableSource(in), model); }
+OutTable fn_joint(const PanelRanges& in, const Arg& model, const Arg& terms) {
+    return fn_joint(TableSource(in), model, terms);
+}
+OutTable fn_hetero(const PanelRanges& in, const Arg& model, const Arg& form) {
+    return fn_hetero(TableSource(in), model, form);
+}
+OutTable fn_serial(const PanelRanges& in, const Arg& model) { return fn_serial(TableSource(in), model); }
+OutTable fn_hausman(const PanelRanges& in, const Arg& model) { return fn_hausman(TableSource(in), model); }
+OutTable fn_effects(const PanelRanges& in, const Arg& model) { return fn_effects(TableSource(in), model); }
 
 OutTable fn_diff(const Table& values, const Table& units, const Table& periods, const Arg& k) {
     const int steps = integer_arg(k, "k", 1);

@@ -3,6 +3,7 @@
 // a "weft: " text; component.cxx turns it into the first cell of the result.
 #pragma once
 
+#include "cache.hpp"
 #include "cells.hpp"
 
 #include <string>
@@ -18,6 +19,44 @@ struct PanelRanges {
     const Table& periods;
 };
 
+// The four panel ranges as a model function receives them: a key of the cells
+// as the office passed them, and the plain tables, converted only on demand. The
+// cache maps (cells_key, model argument) to the fitted model it found last time,
+// so a second function over unchanged ranges skips converting and reading them.
+class PanelSource {
+public:
+    virtual ~PanelSource() = default;
+    // A 128-bit hash of every cell of the four ranges as passed: the shape of each
+    // range and each cell's kind (number, boolean, text, blank, other) and exact
+    // value. nullptr when the caller has none (then nothing is skipped).
+    virtual const Hash128* cells_key() const = 0;
+    // The four ranges converted to tables; the source keeps them alive.
+    virtual PanelRanges ranges() const = 0;
+};
+
+// Plain tables (the logic tests): no key, so every call reads the ranges.
+class TableSource : public PanelSource {
+public:
+    explicit TableSource(const PanelRanges& in) : in_(in) {}
+    const Hash128* cells_key() const override { return nullptr; }
+    PanelRanges ranges() const override { return in_; }
+
+private:
+    PanelRanges in_;
+};
+
+OutTable fn_estimates(const PanelSource& in, const Arg& model);
+OutTable fn_summary(const PanelSource& in, const Arg& model);
+OutCell fn_value(const PanelSource& in, const Arg& model, const Arg& what, const Arg& term);
+OutTable fn_residuals(const PanelSource& in, const Arg& model);
+OutTable fn_fitted(const PanelSource& in, const Arg& model);
+OutTable fn_joint(const PanelSource& in, const Arg& model, const Arg& terms);
+OutTable fn_hetero(const PanelSource& in, const Arg& model, const Arg& form);
+OutTable fn_serial(const PanelSource& in, const Arg& model);
+OutTable fn_hausman(const PanelSource& in, const Arg& model);
+OutTable fn_effects(const PanelSource& in, const Arg& model);
+
+// The same over plain tables.
 OutTable fn_estimates(const PanelRanges& in, const Arg& model);
 OutTable fn_summary(const PanelRanges& in, const Arg& model);
 OutCell fn_value(const PanelRanges& in, const Arg& model, const Arg& what, const Arg& term);

@@ -104,6 +104,83 @@ class RecalcTests(unittest.TestCase):
         self.assertTrue(close(est.getValue(), WITHIN["coef"]["value"]), src)
         self.assertTrue(close(self.cell("R1").getValue(), WITHIN["coef"]["value"]), src)
 
+    def test_second_function_answers_from_the_cells_key_and_sees_every_kind_change(self):
+        """A second function over unchanged ranges is a cache hit without reading the
+        ranges again (keyed by every cell as passed); a cell that changes only its
+        kind (number -> the same digits as text -> blank -> number) or a header that
+        changes only its text must never be answered with the previous model.
+        Expected: grunfeld_within.json sample.nobs (200) and coef; one row dropped
+        gives 199 observations (the rule "text in a number column drops the row",
+        FUNCTIONS.md)."""
+        model = '"within cluster"'
+        est = self.cell("H1:N3")
+        est.setArrayFormula(f"=WEFT.ESTIMATES({R};{model})")
+        n = self.cell("R1")
+        n.setFormula(f'=WEFT.VALUE({R};{model};"n")')
+        b = self.cell("R2")
+        b.setFormula(f'=WEFT.VALUE({R};{model};"estimate";"value")')
+        before = len(fits())
+        self.doc.calculateAll()
+        # at most one fit (none when an earlier test left this model in the cache)
+        self.assertLessEqual(len(fits()), before + 1, f"log: {log_lines()}")
+        self.assertEqual(n.getValue(), 200.0, "grunfeld_within.json:sample.nobs")
+        self.assertTrue(close(b.getValue(), WITHIN["coef"]["value"]),
+                        "grunfeld_within.json:results.coef.value")
+
+        cell = self.cell("D5")
+        original = cell.getValue()
+        digits = repr(original) if original != int(original) else str(int(original))
+        seen = []
+        for label, edit in (("text", lambda: cell.setString(digits)),
+                            ("blank", lambda: cell.setString("")),
+                            ("number", lambda: cell.setValue(original))):
+            edit()
+            self.doc.calculateAll()
+            seen.append((label, n.getValue(), b.getValue(), est.getDataArray()[1][1]))
+        self.assertEqual([s[1] for s in seen], [199.0, 199.0, 200.0],
+                         f"observations after text, blank, number in D5: {seen}")
+        self.assertFalse(close(seen[0][2], WITHIN["coef"]["value"], rel=1e-6),
+                         "text in D5 still shows the estimate of all 200 rows")
+        self.assertEqual(seen[0][2], seen[1][2], "text and blank in D5 drop the same row")
+        self.assertTrue(close(seen[2][2], WITHIN["coef"]["value"]),
+                        "grunfeld_within.json:results.coef.value after restoring D5")
+        for label, _, value, table_value in seen:
+            self.assertEqual(value, table_value, f"VALUE and ESTIMATES disagree after {label}")
+
+        # A header that changes only its text renames the term in every result.
+        self.cell("D1").setString("worth")
+        self.doc.calculateAll()
+        self.assertEqual(est.getDataArray()[1][0], "worth")
+        self.assertTrue(self.cell("R2").getString().startswith("weft:"),
+                        "VALUE for the term 'value' after renaming it: "
+                        + self.cell("R2").getString())
+
+    def test_same_addresses_in_two_documents(self):
+        """Two documents, same formula text and addresses, different data: each shows
+        its own model (the key is the cells' contents, not their addresses).
+        Expected: grunfeld_within.json coef.value; the other document holds the
+        Grunfeld data with inv doubled, so its slope is doubled (OLS is linear in
+        the outcome, common practice, no source)."""
+        formula = f'=WEFT.VALUE({R};"within";"estimate";"value")'
+        self.cell("H1").setFormula(formula)
+        self.doc.calculateAll()
+        other = OFFICE.new_calc()
+        try:
+            sheet2 = other.Sheets.getByIndex(0)
+            header, rows = grunfeld()
+            put_rows(sheet2, 0, 0, [header] + [r[:2] + [2 * r[2]] + r[3:] for r in rows])
+            sheet2.getCellRangeByName("H1").setFormula(formula)
+            other.calculateAll()
+            self.doc.calculateAll()
+            mine = self.cell("H1").getValue()
+            theirs = sheet2.getCellRangeByName("H1").getValue()
+            self.assertTrue(close(mine, WITHIN["coef"]["value"]),
+                            "grunfeld_within.json:results.coef.value")
+            self.assertTrue(close(theirs, 2 * WITHIN["coef"]["value"], rel=1e-9),
+                            f"doubled inv: got {theirs}")
+        finally:
+            other.close(True)
+
     def test_cache_is_bounded(self):
         words = ["classical", "hc0", "hc1", "hc2", "hc3", "cluster", "cluster0",
                  "cluster-period", "cluster-both", "dk"]
