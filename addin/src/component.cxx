@@ -21,6 +21,7 @@
 #include <rtl/ustring.hxx>
 #include <sal/types.h>
 
+#include <algorithm>
 #include <chrono>
 #include <cstdint>
 #include <exception>
@@ -168,67 +169,90 @@ enum class CellTag : std::uint64_t {
     empty_text = 1, text, number, other_number, boolean, none, other
 };
 
+CellTag cell_tag(const Any& a) {
+    switch (a.getValueTypeClass()) {
+    case css::uno::TypeClass_DOUBLE:
+        return CellTag::number;
+    case css::uno::TypeClass_STRING:
+        return static_cast<const OUString*>(a.getValue())->isEmpty() ? CellTag::empty_text
+                                                                     : CellTag::text;
+    case css::uno::TypeClass_BOOLEAN:
+        return CellTag::boolean;
+    case css::uno::TypeClass_VOID:
+        return CellTag::none;
+    case css::uno::TypeClass_FLOAT:
+    case css::uno::TypeClass_LONG:
+    case css::uno::TypeClass_SHORT:
+    case css::uno::TypeClass_HYPER:
+    case css::uno::TypeClass_BYTE:
+    case css::uno::TypeClass_UNSIGNED_LONG:
+    case css::uno::TypeClass_UNSIGNED_SHORT:
+    case css::uno::TypeClass_UNSIGNED_HYPER:
+        return CellTag::other_number;
+    default:
+        return CellTag::other;
+    }
+}
+
+// The words after a cell's tag; how many follows from the tag (and a text's length).
+void hash_payload(Hasher& h, const Any& a, CellTag tag) {
+    switch (tag) {
+    case CellTag::number:
+        h.add_double(*static_cast<const double*>(a.getValue()));
+        break;
+    case CellTag::text: {
+        const rtl_uString* s = static_cast<const OUString*>(a.getValue())->pData;
+        h.add_u64(static_cast<std::uint64_t>(s->length));
+        h.add_bytes(reinterpret_cast<const char*>(s->buffer),
+                    static_cast<std::size_t>(s->length) * sizeof(sal_Unicode));
+        break;
+    }
+    case CellTag::boolean:
+        h.add_u64(*static_cast<const sal_Bool*>(a.getValue()) ? 1 : 0);
+        break;
+    case CellTag::other_number: {
+        // Not seen from cells; hashed as its type and converted value.
+        double v = 0.0;
+        const bool ok = (a >>= v);
+        h.add_u64(static_cast<std::uint64_t>(a.getValueTypeClass()));
+        h.add_u64(ok ? 1 : 0);
+        h.add_double(v);
+        break;
+    }
+    case CellTag::other:  // read as blank; kept apart by its type class
+        h.add_u64(static_cast<std::uint64_t>(a.getValueTypeClass()));
+        break;
+    default:  // empty text, void: the tag says it all
+        break;
+    }
+}
+
 // Every cell of a range as passed: the row count, then the rows up to the last
 // non-blank one (each with its length and its cells), so a blank tail counts by
-// its length only, as the conversion sees it.
+// its length only, as the conversion sees it. The tags of up to 16 cells share
+// one word that comes before their values, so the words still decode to exactly
+// one sequence of cells (equal keys mean equal cells) at about one word per number.
 void hash_range(Hasher& h, const AnyRows& rows) {
+    constexpr sal_Int32 group = 16;  // 4 bits per tag
     h.add_u64(static_cast<std::uint64_t>(rows.getLength()));
     const std::size_t keep = used_rows(rows);
     h.add_u64(keep);
     if (rows.getLength() > 0) h.add_u64(static_cast<std::uint64_t>(rows[0].getLength()));
+    CellTag tags[group];
     for (std::size_t r = 0; r < keep; ++r) {
         const Sequence<Any>& row = rows[static_cast<sal_Int32>(r)];
         const sal_Int32 n = row.getLength();
         h.add_u64(static_cast<std::uint64_t>(n));
         const Any* cells = row.getConstArray();
-        for (sal_Int32 c = 0; c < n; ++c) {
-            const Any& a = cells[c];
-            switch (a.getValueTypeClass()) {
-            case css::uno::TypeClass_DOUBLE:
-                h.add_u64(static_cast<std::uint64_t>(CellTag::number));
-                h.add_double(*static_cast<const double*>(a.getValue()));
-                break;
-            case css::uno::TypeClass_STRING: {
-                const rtl_uString* s = static_cast<const OUString*>(a.getValue())->pData;
-                if (s->length == 0) {
-                    h.add_u64(static_cast<std::uint64_t>(CellTag::empty_text));
-                } else {
-                    h.add_u64(static_cast<std::uint64_t>(CellTag::text));
-                    h.add_u64(static_cast<std::uint64_t>(s->length));
-                    h.add_bytes(reinterpret_cast<const char*>(s->buffer),
-                                static_cast<std::size_t>(s->length) * sizeof(sal_Unicode));
-                }
-                break;
+        for (sal_Int32 g = 0; g < n; g += group) {
+            const sal_Int32 m = std::min(group, n - g);
+            std::uint64_t word = 0;
+            for (sal_Int32 i = 0; i < m; ++i) {
+                tags[i] = cell_tag(cells[g + i]);
+                word |= static_cast<std::uint64_t>(tags[i]) << (4 * i);
             }
-            case css::uno::TypeClass_BOOLEAN:
-                h.add_u64(static_cast<std::uint64_t>(CellTag::boolean));
-                h.add_u64(*static_cast<const sal_Bool*>(a.getValue()) ? 1 : 0);
-                break;
-            case css::uno::TypeClass_VOID:
-                h.add_u64(static_cast<std::uint64_t>(CellTag::none));
-                break;
-            case css::uno::TypeClass_FLOAT:
-            case css::uno::TypeClass_LONG:
-            case css::uno::TypeClass_SHORT:
-            case css::uno::TypeClass_HYPER:
-            case css::uno::TypeClass_BYTE:
-            case css::uno::TypeClass_UNSIGNED_LONG:
-            case css::uno::TypeClass_UNSIGNED_SHORT:
-            case css::uno::TypeClass_UNSIGNED_HYPER: {
-                // Not seen from cells; hashed as its type and converted value.
-                double v = 0.0;
-                const bool ok = (a >>= v);
-                h.add_u64(static_cast<std::uint64_t>(CellTag::other_number));
-                h.add_u64(static_cast<std::uint64_t>(a.getValueTypeClass()));
-                h.add_u64(ok ? 1 : 0);
-                h.add_double(v);
-                break;
-            }
-            default:  // read as blank; kept apart by its type class
-                h.add_u64(static_cast<std::uint64_t>(CellTag::other));
-                h.add_u64(static_cast<std::uint64_t>(a.getValueTypeClass()));
-                break;
-            }
+            h.add_u64(word);
+            for (sal_Int32 i = 0; i < m; ++i) hash_payload(h, cells[g + i], tags[i]);
         }
     }
 }
