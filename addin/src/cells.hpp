@@ -22,14 +22,31 @@ struct Cell {
     bool is_blank() const { return kind == Kind::blank; }
 };
 
+// A rectangular range read cell by cell: a Table, or the cells as the office
+// passed them, converted one at a time (so a large range is never copied whole
+// before its columns are built).
+class CellGrid {
+public:
+    virtual ~CellGrid() = default;
+    virtual std::size_t row_count() const = 0;        // rows kept (trailing empty rows trimmed)
+    virtual std::size_t col_count() const = 0;
+    virtual std::size_t given_row_count() const = 0;  // rows as the sheet passed them
+    virtual Cell cell(std::size_t r, std::size_t c) const = 0;
+};
+
 // A rectangular range, row-major.
-struct Table {
+struct Table : CellGrid {
     std::size_t rows = 0;        // rows kept (trailing empty rows trimmed)
     std::size_t cols = 0;
     std::size_t given_rows = 0;  // rows as the sheet passed them, for size checks
     std::vector<Cell> cells;
 
     const Cell& at(std::size_t r, std::size_t c) const { return cells[r * cols + c]; }
+
+    std::size_t row_count() const override { return rows; }
+    std::size_t col_count() const override { return cols; }
+    std::size_t given_row_count() const override { return given_rows; }
+    Cell cell(std::size_t r, std::size_t c) const override { return at(r, c); }
 };
 
 // An optional scalar-or-range argument: given == false when it was omitted.

@@ -129,36 +129,78 @@ Table to_table(const AnyRows& rows, std::size_t keep) {
     for (std::size_t r = 0; r < keep; ++r)
         t.cols = std::max(t.cols, static_cast<std::size_t>(rows[static_cast<sal_Int32>(r)].getLength()));
     if (keep == 0 && rows.getLength() > 0) t.cols = static_cast<std::size_t>(rows[0].getLength());
-    t.cells.resize(t.rows * t.cols);
+    // Built in place, one write per cell (a resize then assignment writes twice).
+    t.cells.reserve(t.rows * t.cols);
     for (std::size_t r = 0; r < keep; ++r) {
         const Sequence<Any>& row = rows[static_cast<sal_Int32>(r)];
-        for (sal_Int32 c = 0; c < row.getLength(); ++c)
-            t.cells[r * t.cols + static_cast<std::size_t>(c)] = to_cell(row[c]);
+        const Any* cells = row.getConstArray();
+        const std::size_t n = static_cast<std::size_t>(row.getLength());
+        for (std::size_t c = 0; c < n; ++c) t.cells.push_back(to_cell(cells[c]));
+        for (std::size_t c = n; c < t.cols; ++c) t.cells.emplace_back();
     }
     return t;
 }
 
-// Convert ranges that must line up row by row. Trailing rows blank in every
+// Rows kept of ranges that must line up row by row. Trailing rows blank in every
 // range are dropped together, so a blank outcome at the bottom is still a
 // dropped row when other ranges have data there.
-std::vector<Table> to_tables(std::initializer_list<const AnyRows*> ranges) {
-    const auto start = std::chrono::steady_clock::now();
+std::vector<std::size_t> kept_rows(std::initializer_list<const AnyRows*> ranges) {
     bool same = true;
     std::size_t keep = 0;
     for (const AnyRows* r : ranges) {
         if (r->getLength() != (*ranges.begin())->getLength()) same = false;
         keep = std::max(keep, used_rows(*r));
     }
-    std::vector<Table> out;
-    for (const AnyRows* r : ranges) out.push_back(to_table(*r, same ? keep : used_rows(*r)));
-    CallTrace::mark("convert");
-    const double ms = std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() -
-                                                                start).count();
-    log_line("convert " + std::to_string(ms) + " ms, " +
-             std::to_string((*ranges.begin())->getLength()) + " rows given, " +
-             std::to_string(out.front().rows) + " kept");
+    std::vector<std::size_t> out;
+    for (const AnyRows* r : ranges) out.push_back(same ? keep : used_rows(*r));
     return out;
 }
+
+void log_convert(std::chrono::steady_clock::time_point start, const AnyRows& first,
+                 std::size_t kept) {
+    const double ms = std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() -
+                                                                start).count();
+    log_line("convert " + std::to_string(ms) + " ms, " + std::to_string(first.getLength()) +
+             " rows given, " + std::to_string(kept) + " kept");
+}
+
+// Convert ranges that must line up row by row (the helper functions).
+std::vector<Table> to_tables(std::initializer_list<const AnyRows*> ranges) {
+    const auto start = std::chrono::steady_clock::now();
+    const std::vector<std::size_t> keep = kept_rows(ranges);
+    std::vector<Table> out;
+    std::size_t i = 0;
+    for (const AnyRows* r : ranges) out.push_back(to_table(*r, keep[i++]));
+    CallTrace::mark("convert");
+    log_convert(start, **ranges.begin(), keep.front());
+    return out;
+}
+
+// A range as the office passed it, read one cell at a time: the model functions
+// build their columns straight from it, without a converted copy of every cell.
+class AnyGrid : public CellGrid {
+public:
+    AnyGrid(const AnyRows& rows, std::size_t keep) : rows_(rows), keep_(keep) {
+        for (std::size_t r = 0; r < keep; ++r)
+            cols_ = std::max(cols_, static_cast<std::size_t>(rows[static_cast<sal_Int32>(r)].getLength()));
+        if (keep == 0 && rows.getLength() > 0) cols_ = static_cast<std::size_t>(rows[0].getLength());
+    }
+    std::size_t row_count() const override { return keep_; }
+    std::size_t col_count() const override { return cols_; }
+    std::size_t given_row_count() const override {
+        return static_cast<std::size_t>(rows_.getLength());
+    }
+    Cell cell(std::size_t r, std::size_t c) const override {
+        const Sequence<Any>& row = rows_[static_cast<sal_Int32>(r)];
+        if (c >= static_cast<std::size_t>(row.getLength())) return Cell();
+        return to_cell(row.getConstArray()[c]);
+    }
+
+private:
+    const AnyRows& rows_;
+    std::size_t keep_;
+    std::size_t cols_ = 0;
+};
 
 // ------------------------------------------------------------ the cells key
 
@@ -270,14 +312,24 @@ public:
     }
     const Hash128* cells_key() const override { return &key_; }
     PanelRanges ranges() const override {
-        if (tables_.empty()) tables_ = to_tables({&y_, &x_, &u_, &t_});
-        return {tables_[0], tables_[1], tables_[2], tables_[3]};
+        if (grids_.empty()) {
+            const auto start = std::chrono::steady_clock::now();
+            const std::vector<std::size_t> keep = kept_rows({&y_, &x_, &u_, &t_});
+            grids_.reserve(4);  // the references handed out must stay valid
+            grids_.emplace_back(y_, keep[0]);
+            grids_.emplace_back(x_, keep[1]);
+            grids_.emplace_back(u_, keep[2]);
+            grids_.emplace_back(t_, keep[3]);
+            CallTrace::mark("trim");
+            log_convert(start, y_, keep[0]);
+        }
+        return {grids_[0], grids_[1], grids_[2], grids_[3]};
     }
 
 private:
     const AnyRows &y_, &x_, &u_, &t_;
     Hash128 key_;
-    mutable std::vector<Table> tables_;
+    mutable std::vector<AnyGrid> grids_;
 };
 
 Arg to_arg(const Any& a) {

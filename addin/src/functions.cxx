@@ -14,6 +14,7 @@
 #include <memory>
 #include <mutex>
 #include <string>
+#include <utility>
 #include <vector>
 
 namespace weft_addin {
@@ -86,13 +87,13 @@ struct UnitColumn {
 };
 
 // Rows start..end-1 of column c; anything but a number (blank, text) is missing.
-NumericColumn read_numbers(const Table& t, std::size_t c, std::size_t start, std::size_t end) {
+NumericColumn read_numbers(const CellGrid& t, std::size_t c, std::size_t start, std::size_t end) {
     NumericColumn col;
     const std::size_t n = end - start;
     col.values.assign(n, 0.0);
     col.missing.assign(n, 1);
     for (std::size_t i = 0; i < n; ++i) {
-        const Cell& cell = t.at(start + i, c);
+        const Cell cell = t.cell(start + i, c);
         if (cell.is_number()) {
             col.values[i] = cell.number;
             col.missing[i] = 0;
@@ -103,18 +104,18 @@ NumericColumn read_numbers(const Table& t, std::size_t c, std::size_t start, std
 
 // Unit ids are text when any id is text (numbers are then written out, so that
 // a column mixing 7 and "North 7" still names two different units).
-UnitColumn read_units(const Table& t, std::size_t start, std::size_t end) {
+UnitColumn read_units(const CellGrid& t, std::size_t start, std::size_t end) {
     UnitColumn col;
     const std::size_t n = end - start;
     for (std::size_t i = 0; i < n && !col.text; ++i)
-        if (t.at(start + i, 0).is_text()) col.text = true;
+        if (t.cell(start + i, 0).is_text()) col.text = true;
     col.missing.assign(n, 1);
     if (col.text) {
         col.ids.assign(n, std::string());
         for (std::size_t i = 0; i < n; ++i) {
-            const Cell& cell = t.at(start + i, 0);
+            Cell cell = t.cell(start + i, 0);
             if (cell.is_text()) {
-                col.ids[i] = cell.text;
+                col.ids[i] = std::move(cell.text);
                 col.missing[i] = 0;
             } else if (cell.is_number()) {
                 col.ids[i] = format_number(cell.number);
@@ -124,7 +125,7 @@ UnitColumn read_units(const Table& t, std::size_t start, std::size_t end) {
     } else {
         col.numbers.assign(n, 0.0);
         for (std::size_t i = 0; i < n; ++i) {
-            const Cell& cell = t.at(start + i, 0);
+            const Cell cell = t.cell(start + i, 0);
             if (cell.is_number()) {
                 col.numbers[i] = cell.number;
                 col.missing[i] = 0;
@@ -165,16 +166,17 @@ void hash_units(Hasher& h, const UnitColumn& u) {
     }
 }
 
-void require_one_column(const Table& t, const char* name, const char* what) {
-    if (t.cols != 1)
-        fail(std::string(name) + " has " + std::to_string(t.cols) +
+void require_one_column(const CellGrid& t, const char* name, const char* what) {
+    if (t.col_count() != 1)
+        fail(std::string(name) + " has " + std::to_string(t.col_count()) +
              " columns; give one column (" + what + ")");
 }
 
-void require_same_rows(const Table& t, const char* name, const Table& ref, const char* ref_name) {
-    if (t.given_rows != ref.given_rows)
-        fail(std::string(name) + " has " + std::to_string(t.given_rows) + " rows but " + ref_name +
-             " has " + std::to_string(ref.given_rows) +
+void require_same_rows(const CellGrid& t, const char* name, const CellGrid& ref,
+                       const char* ref_name) {
+    if (t.given_row_count() != ref.given_row_count())
+        fail(std::string(name) + " has " + std::to_string(t.given_row_count()) + " rows but " +
+             ref_name + " has " + std::to_string(ref.given_row_count()) +
              "; give all ranges the same rows (the same first and last row)");
 }
 
@@ -230,34 +232,48 @@ PanelInput read_panel(const PanelRanges& in) {
     require_one_column(in.outcome, "outcome", "the dependent variable");
     require_one_column(in.units, "units", "the unit id of each row");
     require_one_column(in.periods, "periods", "the period of each row");
-    if (in.regressors.cols == 0) fail("regressors is empty; give one column per regressor");
+    if (in.regressors.col_count() == 0) fail("regressors is empty; give one column per regressor");
     require_same_rows(in.regressors, "regressors", in.outcome, "outcome");
     require_same_rows(in.units, "units", in.outcome, "outcome");
     require_same_rows(in.periods, "periods", in.outcome, "outcome");
 
     PanelInput p;
-    const std::size_t rows = std::min({in.outcome.rows, in.regressors.rows, in.units.rows,
-                                       in.periods.rows});
-    p.header = rows > 0 && in.outcome.at(0, 0).is_text();
+    const std::size_t rows = std::min({in.outcome.row_count(), in.regressors.row_count(),
+                                       in.units.row_count(), in.periods.row_count()});
+    p.header = rows > 0 && in.outcome.cell(0, 0).is_text();
     require_data_rows(rows, p.header);
     const std::size_t start = p.header ? 1 : 0;
     p.n = rows - start;
     p.first_row = start + 1;
 
     // Trimming made the four row counts equal; `rows` guards the rest.
-    const Table &outcome = in.outcome, &regressors = in.regressors, &units = in.units,
-                &periods = in.periods;
+    const CellGrid &outcome = in.outcome, &regressors = in.regressors, &units = in.units,
+                   &periods = in.periods;
+    const std::size_t n_regressors = regressors.col_count();
 
     if (p.header) {
-        p.outcome_name = header_text(outcome.at(0, 0));
-        for (std::size_t c = 0; c < regressors.cols; ++c)
-            p.regressor_names.push_back(header_text(regressors.at(0, c)));
+        p.outcome_name = header_text(outcome.cell(0, 0));
+        for (std::size_t c = 0; c < n_regressors; ++c)
+            p.regressor_names.push_back(header_text(regressors.cell(0, c)));
     } else {
-        p.regressor_names.assign(regressors.cols, std::string());
+        p.regressor_names.assign(n_regressors, std::string());
     }
     p.outcome = read_numbers(outcome, 0, start, rows);
-    for (std::size_t c = 0; c < regressors.cols; ++c)
-        p.regressors.push_back(read_numbers(regressors, c, start, rows));
+    // One pass over the rows for all regressors: the table is row-major, so a pass
+    // per column would touch every row once per column.
+    p.regressors.resize(n_regressors);
+    for (NumericColumn& x : p.regressors) {
+        x.values.assign(p.n, 0.0);
+        x.missing.assign(p.n, 1);
+    }
+    for (std::size_t i = 0; i < p.n; ++i) {
+        for (std::size_t c = 0; c < n_regressors; ++c) {
+            const Cell cell = regressors.cell(start + i, c);
+            if (!cell.is_number()) continue;
+            p.regressors[c].values[i] = cell.number;
+            p.regressors[c].missing[i] = 0;
+        }
+    }
     p.units = read_units(units, start, rows);
     p.periods = read_numbers(periods, 0, start, rows);
     require_some_values(p);

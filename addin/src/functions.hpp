@@ -13,10 +13,10 @@ namespace weft_addin {
 // The four panel ranges of every model function, as Calc passed them (already
 // trimmed of trailing empty rows common to all four).
 struct PanelRanges {
-    const Table& outcome;
-    const Table& regressors;
-    const Table& units;
-    const Table& periods;
+    const CellGrid& outcome;
+    const CellGrid& regressors;
+    const CellGrid& units;
+    const CellGrid& periods;
 };
 
 // The four panel ranges as a model function receives them: a key of the cells

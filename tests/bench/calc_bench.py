@@ -259,7 +259,7 @@ def main():
             ph = r["phases"].get(name, {})
             print("%-9d %-7s " % (r["rows"], name) +
                   " ".join("%s=%.3f" % (k, ph[k]) for k in
-                           ("office", "total", "key", "lookup", "convert", "read", "model", "compute", "out") if k in ph))
+                           ("office", "total", "key", "lookup", "trim", "convert", "read", "model", "compute", "out") if k in ph))
     if args.json:
         with open(args.json, "w") as f:
             json.dump({"results": results, "failures": failures}, f, indent=1)
