@@ -4,6 +4,7 @@
 
 #include "weft.h"
 
+#include <weft/buffer.hpp>
 #include <weft/options.hpp>
 #include <weft/panel.hpp>
 #include <weft/transforms.hpp>
@@ -30,6 +31,7 @@ inline weft::Column copy_column(const char* name, const double* values,
                                 const unsigned char* missing, std::size_t n) {
     weft::Column column;
     if (name != nullptr) column.name = name;
+    weft::reserve_large(column.values, n);
     column.values.assign(values, values + n);
     column.missing = copy_mask(missing, n);
     return column;

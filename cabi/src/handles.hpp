@@ -7,6 +7,7 @@
 #include <weft/panel.hpp>
 
 #include <memory>
+#include <mutex>
 #include <string>
 #include <vector>
 
@@ -33,7 +34,10 @@ struct SummaryEntry {
 };
 
 struct weft_model {
-    weft::Fit fit;
+    weft::Fit fit;                                 // may be lean (Equation::rows_held() false)
+    std::shared_ptr<const weft::PanelData> data;   // kept only for a lean fit
+    mutable std::mutex full_mutex;                 // guards `full`
+    mutable std::shared_ptr<const weft::Fit> full; // the full refit, made on first need
     weft_options options{};
     std::vector<double> table;                     // K x WEFT_COEF_COLUMNS, row-major
     std::vector<SummaryEntry> summary;
@@ -45,4 +49,7 @@ void require_units(const weft_panel* panel, const char* function);
 void require_periods(const weft_panel* panel, const char* function);
 void require_model_columns(const weft_panel* panel, const char* function);
 void require_model(const weft_model* model, const char* function);
+// The model's fit with the estimated equation's rows: the fit itself, or (for a lean
+// fit) a full refit of the same data and options, made once and kept.
+const weft::Fit& full_fit(const weft_model* model);
 }  // namespace weft_cabi

@@ -21,6 +21,13 @@ void require_model(const weft_model* model, const char* function) {
     require(model, function, "model");
 }
 
+const weft::Fit& full_fit(const weft_model* model) {
+    if (model->fit.equation.rows_held()) return model->fit;
+    std::lock_guard<std::mutex> lock(model->full_mutex);
+    if (!model->full) model->full = std::make_shared<const weft::Fit>(weft::fit_model(*model->data, model->fit.spec));
+    return *model->full;
+}
+
 namespace {
 
 const char* estimator_text(weft::Estimator e) {
@@ -176,7 +183,9 @@ constexpr const char* value_words =
 }  // namespace
 
 // Fit and package a model; shared by weft_model_new and the tests that fit their own.
-weft_model* new_model(const weft_panel* panel, const weft::ModelSpec& spec, const char* fn) {
+// lean: the fit may be lean (weft::fit_model_lean); the model then keeps the panel's
+// data so that a test needing the equation's rows can refit it in full (full_fit).
+weft_model* new_model(const weft_panel* panel, const weft::ModelSpec& spec, const char* fn, bool lean) {
     require_model_columns(panel, fn);
     // Term names are how every result is addressed, so they must be unambiguous.
     const std::vector<weft::Column>& regressors = panel->data->regressors;
@@ -191,7 +200,8 @@ weft_model* new_model(const weft_panel* panel, const weft::ModelSpec& spec, cons
                                   " are both named \"" + name + "\"; give each regressor its own name");
     }
     auto model = std::make_unique<weft_model>();
-    model->fit = weft::fit_model(*panel->data, spec);
+    model->fit = lean ? weft::fit_model_lean(*panel->data, spec) : weft::fit_model(*panel->data, spec);
+    if (!model->fit.equation.rows_held()) model->data = panel->data;
     model->options = from_spec(model->fit.spec);
     model->table = build_table(model->fit);
     model->summary = build_summary(model->fit);
@@ -211,7 +221,7 @@ int weft_model_new(weft_model** out, const weft_panel* panel, const weft_options
         *out = nullptr;
         require(panel, fn, "panel");
         const weft::ModelSpec spec = read_options(options, fn);
-        *out = new_model(panel, spec, fn);
+        *out = new_model(panel, spec, fn, true);
         return WEFT_OK;
     });
 }
@@ -224,7 +234,7 @@ int weft_model_new_text(weft_model** out, const weft_panel* panel, const char* m
         require(panel, fn, "panel");
         const weft::ModelSpec spec = weft::parse_model_text(model_text == nullptr ? "" : model_text);
         return guarded(WEFT_EDATA, [&] {
-            *out = new_model(panel, spec, fn);
+            *out = new_model(panel, spec, fn, true);
             return WEFT_OK;
         });
     });

@@ -2,6 +2,7 @@
 // and the transforms.
 #include "boundary.hpp"
 #include "convert.hpp"
+#include <weft/buffer.hpp>
 #include "handles.hpp"
 
 #include <weft/transforms.hpp>
@@ -137,6 +138,7 @@ int weft_panel_set_units_number(weft_panel* panel, const double* ids,
         require_unset(p.has_units, fn, "units");
         weft::UnitColumn units;
         units.name = "units";
+        weft::reserve_large(units.numbers, p.n_rows);
         units.numbers.assign(ids, ids + p.n_rows);
         units.missing = copy_mask(missing, p.n_rows);
         p.writable().units = std::move(units);

@@ -14,7 +14,7 @@
 using namespace weft_cabi;
 
 namespace weft_cabi {
-weft_model* new_model(const weft_panel* panel, const weft::ModelSpec& spec, const char* fn);
+weft_model* new_model(const weft_panel* panel, const weft::ModelSpec& spec, const char* fn, bool lean);
 }
 
 namespace {
@@ -81,7 +81,7 @@ std::unique_ptr<weft_model> fit_for_test(const weft_panel* panel, weft::ModelSpe
     spec.dk_lag = -1;
     std::unique_ptr<weft_model> model;
     const int status = guarded(WEFT_EDATA, [&] {
-        model.reset(new_model(panel, spec, fn));
+        model.reset(new_model(panel, spec, fn, false));
         return WEFT_OK;
     });
     if (status != WEFT_OK) {
@@ -187,7 +187,7 @@ int weft_test_hetero(const weft_model* model, int form, weft_hetero_result* out)
                 fail(WEFT_EINVAL, std::string(fn) + ": form is " + std::to_string(form) +
                                       ", which is not a weft_hetero_form value (0 to 3)");
         }
-        const weft::HeteroResult r = weft::hetero_test(model->fit, core_form);
+        const weft::HeteroResult r = weft::hetero_test(full_fit(model), core_form);
         keep_warnings(r.warnings);
         *out = weft_hetero_result{r.lm, r.lm_df, r.lm_p, r.f, r.f_df1, r.f_df2, r.f_p, r.aux_r2};
         return WEFT_OK;
@@ -200,7 +200,7 @@ int weft_test_serial(const weft_model* model, weft_serial_result* out) {
         test_warnings.clear();
         require_model(model, fn);
         require(out, fn, "out");
-        const weft::SerialResult r = weft::serial_test(model->fit);
+        const weft::SerialResult r = weft::serial_test(full_fit(model));
         keep_warnings(r.warnings);
         weft_serial_result s;
         s.intercept = r.intercept;

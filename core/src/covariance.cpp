@@ -96,7 +96,105 @@ void require_clusters(std::size_t G, const char* what, const char* covariance_wo
 
 }  // namespace
 
+namespace detail {
+
+void require_rows(const Equation& eq, const char* what) {
+    if (!eq.rows_held())
+        throw Error(std::string("internal: ") + what + " needs the estimated equation's rows; this fit is "
+                    "lean (fit_model_lean): fit the model with fit_model");
+}
+
+MatrixXd dk_meat(const MatrixXd& h, int lag) {
+    const Index grid = h.rows();
+    MatrixXd meat = h.transpose() * h;
+    for (int j = 1; j <= lag && j < grid; ++j) {
+        const Index rows = grid - j;
+        MatrixXd gamma = h.bottomRows(rows).transpose() * h.topRows(rows);
+        meat += (1.0 - static_cast<double>(j) / (lag + 1.0)) * (gamma + gamma.transpose());
+    }
+    return meat;
+}
+
+int dk_default_lag(std::size_t periods) {
+    return static_cast<int>(std::floor(std::pow(static_cast<double>(periods), 0.25)));
+}
+
+CovarianceResult covariance_from_meat(const Equation& eq, Covariance kind, const MatrixXd& meat,
+                                      std::size_t clusters, int lag) {
+    CovarianceResult out;
+    out.kind = kind;
+    const double n_d = static_cast<double>(eq.nobs()), k_d = static_cast<double>(eq.n_terms());
+    const double df_resid = eq.df_residual();
+    const std::string resid_rule = eq.absorbed > 0 ? "N-n-K" : "N-K";
+    if (!(df_resid > 0))
+        throw Error("the estimated equation has " + std::to_string(eq.nobs()) + " rows for " +
+                    std::to_string(eq.n_terms()) + " terms" +
+                    (eq.absorbed > 0 ? " and " + std::to_string(eq.absorbed) + " unit effects" : std::string()) +
+                    ": there must be more rows than terms");
+    if (kind == Covariance::classical) {
+        out.matrix = (eq.ssr / df_resid) * eq.xtx_inverse;
+        out.df = df_resid;
+        out.df_rule = resid_rule;
+        out.factor_rule = "s^2 = SSR/(" + resid_rule + ")";
+        out.label = "classical";
+        return out;
+    }
+    const MatrixXd r_inv = r_inverse(eq);
+    const MatrixXd bread = working_to_original(eq) * r_inv * r_inv.transpose();
+    MatrixXd v = bread * meat * bread.transpose();
+    out.matrix = 0.5 * (v + v.transpose());
+    switch (kind) {
+        case Covariance::hc0:
+        case Covariance::hc1:
+        case Covariance::hc2:
+        case Covariance::hc3:
+            if (kind == Covariance::hc1) {
+                out.factor = n_d / df_resid;
+                out.factor_rule = "N/(" + resid_rule + ")";
+                out.matrix *= out.factor;
+            }
+            out.df = df_resid;
+            out.df_rule = resid_rule;
+            out.label = to_word(kind);
+            break;
+        case Covariance::cluster:
+        case Covariance::cluster0:
+        case Covariance::cluster_period: {
+            const bool by_period = kind == Covariance::cluster_period;
+            const double g_d = static_cast<double>(clusters);
+            if (kind != Covariance::cluster0) {
+                // Unit effects are nested in unit clusters and not counted in K
+                // (Cameron & Miller 2015); the reference values count them the same way
+                // for period clusters, so K here is always the estimated terms.
+                out.factor = g_d / (g_d - 1.0) * (n_d - 1.0) / (n_d - k_d);
+                out.factor_rule = "G/(G-1) * (N-1)/(N-K)";
+                out.matrix *= out.factor;
+            }
+            out.clusters = clusters;
+            out.df = g_d - 1.0;
+            out.df_rule = by_period ? "G_period-1" : "G-1";
+            out.label = by_period ? "cluster by period (CR1)"
+                                  : (kind == Covariance::cluster ? "cluster by unit (CR1)" : "cluster by unit (CR0)");
+            break;
+        }
+        case Covariance::dk:
+            out.clusters = clusters;
+            out.dk_lag = lag;
+            out.df = static_cast<double>(clusters) - 1.0;
+            out.df_rule = "T-1";
+            out.factor_rule = "none (Bartlett weights 1 - j/(L+1))";
+            out.label = "Driscoll-Kraay, lag " + std::to_string(lag);
+            break;
+        default:
+            throw Error("internal: covariance_from_meat does not build " + std::string(to_word(kind)));
+    }
+    return out;
+}
+
+}  // namespace detail
+
 CovarianceResult compute_covariance(const Equation& eq, Covariance kind, int dk_lag) {
+    detail::require_rows(eq, "this covariance");
     CovarianceResult out;
     out.kind = kind;
     const Index N = eq.X.rows(), K = eq.X.cols();
@@ -117,22 +215,17 @@ CovarianceResult compute_covariance(const Equation& eq, Covariance kind, int dk_
     };
 
     switch (kind) {
-        case Covariance::classical: {
-            out.matrix = (eq.ssr / df_resid) * eq.xtx_inverse;
-            out.df = df_resid;
-            out.df_rule = resid_rule;
-            out.factor_rule = "s^2 = SSR/(" + resid_rule + ")";
-            out.label = "classical";
+        case Covariance::classical:
+            out = detail::covariance_from_meat(eq, kind, MatrixXd(), 0, -1);
             break;
-        }
         case Covariance::hc0:
         case Covariance::hc1:
         case Covariance::hc2:
         case Covariance::hc3: {
             VectorXd omega = eq.residual.array().square();
+            std::size_t full_leverage = 0;
             if (kind == Covariance::hc2 || kind == Covariance::hc3) {
                 const VectorXd h = leverages(eq);
-                std::size_t full_leverage = 0;
                 for (Index i = 0; i < N; ++i) {
                     const double one_minus = 1.0 - h[i];
                     if (one_minus <= 1e-10) {
@@ -144,19 +237,11 @@ CovarianceResult compute_covariance(const Equation& eq, Covariance kind, int dk_
                         omega[i] /= (kind == Covariance::hc2) ? one_minus : one_minus * one_minus;
                     }
                 }
-                if (full_leverage > 0)
-                    out.warnings.push_back(std::to_string(full_leverage) +
-                                           " rows have leverage 1 and were left out of the hc2/hc3 sum");
             }
-            out.matrix = sandwich(weighted_meat(eq, omega));
-            if (kind == Covariance::hc1) {
-                out.factor = n_d / df_resid;
-                out.factor_rule = "N/(" + resid_rule + ")";
-                out.matrix *= out.factor;
-            }
-            out.df = df_resid;
-            out.df_rule = resid_rule;
-            out.label = to_word(kind);
+            out = detail::covariance_from_meat(eq, kind, weighted_meat(eq, omega), 0, -1);
+            if (full_leverage > 0)
+                out.warnings.push_back(std::to_string(full_leverage) +
+                                       " rows have leverage 1 and were left out of the hc2/hc3 sum");
             break;
         }
         case Covariance::cluster:
@@ -169,21 +254,7 @@ CovarianceResult compute_covariance(const Equation& eq, Covariance kind, int dk_
             std::vector<std::int32_t> dense;
             const std::size_t G = densify(ids, dense);
             require_clusters(G, by_period ? "period" : "unit", word);
-            out.matrix = sandwich(cluster_meat(eq, dense, G));
-            const double g_d = static_cast<double>(G);
-            if (kind != Covariance::cluster0) {
-                // Unit effects are nested in unit clusters and not counted in K
-                // (Cameron & Miller 2015); the reference values count them the same way
-                // for period clusters, so K here is always the estimated terms.
-                out.factor = g_d / (g_d - 1.0) * (n_d - 1.0) / (n_d - k_d);
-                out.factor_rule = "G/(G-1) * (N-1)/(N-K)";
-                out.matrix *= out.factor;
-            }
-            out.clusters = G;
-            out.df = g_d - 1.0;
-            out.df_rule = by_period ? "G_period-1" : "G-1";
-            out.label = by_period ? "cluster by period (CR1)"
-                                  : (kind == Covariance::cluster ? "cluster by unit (CR1)" : "cluster by unit (CR0)");
+            out = detail::covariance_from_meat(eq, kind, cluster_meat(eq, dense, G), G, -1);
             break;
         }
         case Covariance::cluster_both: {
@@ -254,21 +325,8 @@ CovarianceResult compute_covariance(const Equation& eq, Covariance kind, int dk_
             std::size_t T = 0;
             for (std::uint8_t v : present) T += v;
             require_clusters(T, "period", "dk");
-            int lag = dk_lag;
-            if (lag < 0) lag = static_cast<int>(std::floor(std::pow(static_cast<double>(T), 0.25)));
-            MatrixXd meat = h.transpose() * h;
-            for (int j = 1; j <= lag && static_cast<std::size_t>(j) < grid; ++j) {
-                const Index rows = static_cast<Index>(grid) - j;
-                MatrixXd gamma = h.bottomRows(rows).transpose() * h.topRows(rows);
-                meat += (1.0 - static_cast<double>(j) / (lag + 1.0)) * (gamma + gamma.transpose());
-            }
-            out.matrix = sandwich(meat);
-            out.clusters = T;
-            out.dk_lag = lag;
-            out.df = static_cast<double>(T) - 1.0;
-            out.df_rule = "T-1";
-            out.factor_rule = "none (Bartlett weights 1 - j/(L+1))";
-            out.label = "Driscoll-Kraay, lag " + std::to_string(lag);
+            const int lag = dk_lag < 0 ? detail::dk_default_lag(T) : dk_lag;
+            out = detail::covariance_from_meat(eq, kind, detail::dk_meat(h, lag), T, lag);
             break;
         }
     }

@@ -15,6 +15,10 @@ std::string column_label(const std::string& name, const char* fallback);
 void check_length(std::size_t expected, const char* expected_what, std::size_t got,
                   const std::string& what);
 
+// Length and mask size only.
+void check_column_shape(const Column& column, std::size_t n_rows, const char* expected_what,
+                        const std::string& what);
+
 // Length and mask size, and no NaN/Inf outside the missing mask.
 void check_column(const Column& column, std::size_t n_rows, const char* expected_what,
                   const std::string& what, std::size_t first_row_number);
@@ -40,6 +44,18 @@ Eigen::MatrixXd working_to_original(const Equation& eq);
 // R^-1 of the equation's upper-triangular factor.
 Eigen::MatrixXd r_inverse(const Equation& eq);
 
+// Cholesky factor R (R'R = gram) of a working-basis Gram matrix, accepted only when
+// cond(R) (Frobenius estimate) is at most condition_limit: the solver's Gram route.
+bool gram_factor(const Eigen::MatrixXd& gram, Eigen::MatrixXd& r_out, double condition_limit);
+
+// Working-basis solution c_work (y shifted by shift_y against the intercept) back to
+// the coefficients of the original columns (uses eq.shift, eq.scale, eq.intercept_column).
+Eigen::VectorXd original_coefficients(const Equation& eq, const Eigen::Matrix<long double, Eigen::Dynamic, 1>& c_work,
+                                      long double shift_y);
+
+// (X'X)^-1 = M^-1 (R'R)^-1 M^-T of an equation with its factor set.
+Eigen::MatrixXd xtx_inverse(const Equation& eq);
+
 // Rows per block in the tall-skinny QR and in the blockwise score passes.
 inline constexpr Eigen::Index kBlockRows = 2048;
 // Rows per block of the tall-skinny QR (sized so a block stays in the L1/L2 cache).
@@ -50,5 +66,67 @@ inline constexpr Eigen::Index kTsqrBlockRows = 256;
 // keeps SE LRE 15.0 on the QR but 12.6 on the Gram route, Wampler3-5 (about 1e4) drop
 // from 13.7 to 10.3, so the limit sits below both.
 inline constexpr double kGramConditionLimit = 1e2;
+
+// Driscoll-Kraay meat from the per-period score sums h (grid x K, rows in grid order)
+// with Bartlett weights 1 - j/(lag+1); and the default lag floor(T^(1/4)).
+Eigen::MatrixXd dk_meat(const Eigen::MatrixXd& h, int lag);
+int dk_default_lag(std::size_t periods);
+
+}  // namespace weft::detail
+
+#include "weft/model.hpp"
+
+namespace weft::detail {
+
+// Throws unless the equation holds its rows (a lean equation does not).
+void require_rows(const Equation& eq, const char* what);
+
+// The sandwich B meat B' (meat in the working basis) with the factor, df and label of
+// `kind` (hc0-hc3, cluster, cluster0, cluster-period, dk; classical ignores the meat);
+// clusters = G (or T for dk).
+CovarianceResult covariance_from_meat(const Equation& eq, Covariance kind, const Eigen::MatrixXd& meat,
+                                      std::size_t clusters, int lag);
+
+}  // namespace weft::detail
+
+#include <optional>
+#include <vector>
+
+namespace weft::detail {
+
+// Sums of an estimated equation's y (long double): sum, sum of squares, and sum of
+// squares about the mean (two-pass).
+struct OutcomeSums {
+    long double sum = 0;
+    long double raw = 0;
+    long double centred = 0;
+};
+OutcomeSums outcome_sums(const Eigen::VectorXd& y);
+
+// ---- lean fits (lean.cpp): the estimated equation in streaming passes over the columns.
+struct LeanInput {
+    const PanelData& data;
+    const ModelSpec& spec;
+    const PanelIndex& index;
+    const std::vector<std::size_t>& later;    // per equation row: its input row (fd: the later row)
+    const std::vector<std::size_t>& earlier;  // fd: the earlier row of each difference; pooled: empty
+    const std::vector<std::string>& regressor_names;
+};
+
+struct LeanResult {
+    Equation equation;                        // lean: Equation::rows_held() is false
+    CovarianceResult covariance;
+    OutcomeSums outcome;
+    Series residuals;                         // aligned to input rows
+    Series fitted;
+};
+
+// Whether the estimator and covariance of spec have a lean route at all.
+bool lean_applies(const ModelSpec& spec);
+
+// The lean equation, or empty when this design needs the full route (a term to drop,
+// a design the Gram route does not take, values near the limits of double, too few
+// clusters...): the full route then decides and words any error.
+std::optional<LeanResult> lean_equation(const LeanInput& in);
 
 }  // namespace weft::detail

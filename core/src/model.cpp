@@ -9,6 +9,7 @@
 
 #include "weft/distributions.hpp"
 #include "weft/error.hpp"
+#include "weft/buffer.hpp"
 #include "weft/model.hpp"
 #include "internal.hpp"
 
@@ -46,7 +47,7 @@ double value(const Column& column, std::size_t row) { return column.values[row];
 // Equation rows of pooled / within / random: the used rows, in unit-period order.
 std::vector<std::size_t> used_rows_in_order(const Context& ctx) {
     std::vector<std::size_t> rows;
-    rows.reserve(ctx.index.rows_by_unit.size());
+    reserve_large(rows, ctx.index.rows_by_unit.size());
     for (std::size_t row : ctx.index.rows_by_unit)
         if (ctx.used[row]) rows.push_back(row);
     return rows;
@@ -161,14 +162,17 @@ void drop_columns(Design& d, const std::vector<Index>& columns, DropReason reaso
     in.intercept_column = intercept;
 }
 
-// ---- fd: dy on [1, dX, period indicators of the later period]
-Design build_fd(const Context& ctx, std::size_t& pairs_lost_to_gaps) {
-    Design d;
-    EquationInput& in = d.input;
-    in.estimator = Estimator::fd;
+// The differences of fd: for each unit, consecutive used rows in adjacent grid periods
+// (later row, earlier row); a pair of consecutive used rows with a grid period between
+// them is counted in pairs_lost_to_gaps.
+void fd_pairs(const Context& ctx, std::vector<std::size_t>& later, std::vector<std::size_t>& earlier,
+              std::size_t& pairs_lost_to_gaps) {
     const PanelIndex& index = ctx.index;
-    std::vector<std::size_t> later, earlier;
     pairs_lost_to_gaps = 0;
+    later.clear();
+    earlier.clear();
+    reserve_large(later, index.rows_by_unit.size());
+    reserve_large(earlier, index.rows_by_unit.size());
     for (std::size_t u = 0; u < index.n_units(); ++u) {
         std::size_t prev_used = std::numeric_limits<std::size_t>::max();
         for (std::size_t k = index.unit_start[u]; k < index.unit_start[u + 1]; ++k) {
@@ -184,6 +188,16 @@ Design build_fd(const Context& ctx, std::size_t& pairs_lost_to_gaps) {
             }
         }
     }
+}
+
+// ---- fd: dy on [1, dX, period indicators of the later period]
+Design build_fd(const Context& ctx, std::size_t& pairs_lost_to_gaps) {
+    Design d;
+    EquationInput& in = d.input;
+    in.estimator = Estimator::fd;
+    const PanelIndex& index = ctx.index;
+    std::vector<std::size_t> later, earlier;
+    fd_pairs(ctx, later, earlier, pairs_lost_to_gaps);
     fill_ids(ctx, later, in);
     const bool intercept = ctx.spec.intercept;
     const std::vector<std::int32_t> pcols =
@@ -385,14 +399,22 @@ std::optional<double> finite_or_empty(double v) {
 
 }  // namespace
 
-Fit fit_model(const PanelData& data, const ModelSpec& spec) {
+// The whole fit. lean: take the lean route (lean.cpp) or return nothing; the lean
+// route checks the values itself (no NaN or infinity outside the masks) as it reads
+// them, and any error on it is left to the full route to find and word.
+static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec& spec, bool lean) {
     const std::size_t n_rows = data.outcome.size();
     const std::size_t first = data.first_row_number;
-    detail::check_column(data.outcome, n_rows, "outcome", "outcome", first);
+    auto check = [&](const Column& c, const std::string& what) {
+        if (lean)
+            detail::check_column_shape(c, n_rows, "outcome", what);
+        else
+            detail::check_column(c, n_rows, "outcome", what, first);
+    };
+    check(data.outcome, "outcome");
     for (std::size_t j = 0; j < data.regressors.size(); ++j) {
         const Column& x = data.regressors[j];
-        const std::string what = x.name.empty() ? "regressor " + std::to_string(j + 1) : "regressor \"" + x.name + "\"";
-        detail::check_column(x, n_rows, "outcome", what, first);
+        check(x, x.name.empty() ? "regressor " + std::to_string(j + 1) : "regressor \"" + x.name + "\"");
     }
     detail::check_length(n_rows, "outcome", data.units.size(), "units");
     detail::check_length(n_rows, "outcome", data.periods.size(), "periods");
@@ -404,14 +426,18 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
     fit.index = build_index(data.units, data.periods, first);
     const PanelIndex& index = fit.index;
 
-    std::vector<std::uint8_t> used(n_rows, 0);
+    // listwise: a row is used when its unit, period, outcome and every regressor are present
+    std::vector<std::uint8_t> used;
+    assign_large(used, n_rows, std::uint8_t{0});
+    for (std::size_t i = 0; i < n_rows; ++i) used[i] = index.unit_of_row[i] >= 0 ? 1 : 0;
+    auto drop_missing = [&](const Column& c) {
+        if (c.missing.empty()) return;
+        for (std::size_t i = 0; i < n_rows; ++i) used[i] &= static_cast<std::uint8_t>(c.missing[i] == 0);
+    };
+    drop_missing(data.outcome);
+    for (const Column& x : data.regressors) drop_missing(x);
     std::size_t rows_used = 0;
-    for (std::size_t i = 0; i < n_rows; ++i) {
-        bool ok = index.unit_of_row[i] >= 0 && !data.outcome.is_missing(i);
-        for (const Column& x : data.regressors) ok = ok && !x.is_missing(i);
-        used[i] = ok ? 1 : 0;
-        rows_used += ok ? 1 : 0;
-    }
+    for (std::size_t i = 0; i < n_rows; ++i) rows_used += used[i];
     fit.rows_input = n_rows;
     fit.rows_used = rows_used;
     fit.rows_dropped = n_rows - rows_used;
@@ -440,19 +466,43 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
         ctx.regressor_names.push_back(data.regressors[j].name.empty() ? "x" + std::to_string(j + 1)
                                                                       : data.regressors[j].name);
 
-    const std::vector<std::size_t> rows = used_rows_in_order(ctx);
-    const UnitRuns runs = unit_runs(index, rows);
     {
-        std::vector<std::uint8_t> seen(index.n_periods(), 0);
-        for (std::size_t row : rows) seen[static_cast<std::size_t>(index.period_of_row[row])] = 1;
-        fit.n_periods = static_cast<std::size_t>(std::count(seen.begin(), seen.end(), 1));
+        // units and periods among the used rows
+        std::vector<std::uint8_t> unit_seen(index.n_units(), 0), period_seen(index.n_periods(), 0);
+        for (std::size_t i = 0; i < n_rows; ++i) {
+            if (!used[i]) continue;
+            unit_seen[static_cast<std::size_t>(index.unit_of_row[i])] = 1;
+            period_seen[static_cast<std::size_t>(index.period_of_row[i])] = 1;
+        }
+        fit.n_units = static_cast<std::size_t>(std::count(unit_seen.begin(), unit_seen.end(), 1));
+        fit.n_periods = static_cast<std::size_t>(std::count(period_seen.begin(), period_seen.end(), 1));
     }
-    fit.n_units = runs.begin.size();
+    // equation rows of pooled, within, random, between: the used rows in unit order
+    // (the lean fd route does not need them)
+    std::vector<std::size_t> rows;
+    UnitRuns runs;
+    if (!(lean && spec.estimator == Estimator::fd)) {
+        rows = used_rows_in_order(ctx);
+        runs = unit_runs(index, rows);
+    }
 
     Design design;
     std::size_t pairs_lost = 0;
     std::vector<double> theta_by_run;
-    switch (spec.estimator) {
+    std::optional<detail::LeanResult> lean_result;
+    if (lean) {
+        if (!detail::lean_applies(spec)) return std::nullopt;
+        if (spec.estimator == Estimator::pooled) {
+            lean_result = detail::lean_equation({data, spec, index, rows, {}, ctx.regressor_names});
+        } else {
+            std::vector<std::size_t> later, earlier;
+            fd_pairs(ctx, later, earlier, pairs_lost);
+            if (!later.empty())
+                lean_result = detail::lean_equation({data, spec, index, later, earlier, ctx.regressor_names});
+        }
+        if (!lean_result) return std::nullopt;
+    }
+    if (!lean_result) switch (spec.estimator) {
         case Estimator::pooled:
             design = build_pooled(ctx, rows);
             break;
@@ -461,10 +511,6 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
             if (design.input.X.rows() == 0)
                 throw Error("fd: no unit has two usable rows in adjacent periods, so there is nothing to "
                             "difference");
-            if (pairs_lost > 0)
-                fit.warnings.push_back("fd: " + std::to_string(pairs_lost) +
-                                       (pairs_lost == 1 ? " difference was" : " differences were") +
-                                       " not formed because a unit skips a period of the grid");
             break;
         case Estimator::within:
             if (runs.begin.size() < 2)
@@ -604,6 +650,24 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
         }
     }
 
+    if (spec.estimator == Estimator::fd && pairs_lost > 0)
+        fit.warnings.push_back("fd: " + std::to_string(pairs_lost) +
+                               (pairs_lost == 1 ? " difference was" : " differences were") +
+                               " not formed because a unit skips a period of the grid");
+
+    detail::OutcomeSums ysums;
+    if (lean_result) {
+        fit.equation = std::move(lean_result->equation);
+        fit.covariance = std::move(lean_result->covariance);
+        fit.residuals = std::move(lean_result->residuals);
+        fit.fitted = std::move(lean_result->fitted);
+        ysums = lean_result->outcome;
+        fit.nobs = fit.equation.nobs();
+        fit.n_terms = fit.equation.n_terms();
+        fit.df_residual = fit.equation.df_residual();
+        fit.ssr = fit.equation.ssr;
+        fit.sigma = std::sqrt(fit.ssr / fit.df_residual);
+    } else {
     // fewer rows than terms
     {
         const EquationInput& in = design.input;
@@ -641,8 +705,13 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
     fit.ssr = eq.ssr;
     fit.sigma = std::sqrt(eq.ssr / fit.df_residual);
 
-    // covariance and inference
     fit.covariance = compute_covariance(eq, spec.covariance, spec.dk_lag);
+    ysums = detail::outcome_sums(eq.y);
+    }  // full equation
+    const Equation& eq = fit.equation;
+    const std::size_t N = eq.nobs(), K = eq.n_terms();
+
+    // inference
     for (const std::string& w : fit.covariance.warnings) fit.warnings.push_back(w);
     if (spec.estimator == Estimator::within &&
         (spec.covariance == Covariance::hc0 || spec.covariance == Covariance::hc1 ||
@@ -669,9 +738,7 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
     // must not be shown as tiny SEs with huge t, so they are set to 0, and t and p are
     // undefined (NaN here; hosts show them as not available), with a warning.
     {
-        long double yy = 0;
-        for (Index i = 0; i < eq.y.size(); ++i) yy += static_cast<long double>(eq.y[i]) * eq.y[i];
-        if (static_cast<long double>(eq.ssr) <= 1e-28L * yy) {
+        if (static_cast<long double>(eq.ssr) <= 1e-28L * ysums.raw) {
             fit.exact_fit = true;
             fit.covariance.matrix.setZero();
             for (Index k = 0; k < static_cast<Index>(K); ++k) {
@@ -688,14 +755,7 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
     const bool has_intercept = eq.intercept_column >= 0;
     const double N_d = static_cast<double>(N);
     {
-        long double sum = 0;
-        for (Index i = 0; i < eq.y.size(); ++i) sum += eq.y[i];
-        const long double mean = sum / static_cast<long double>(N);
-        long double centred = 0, raw = 0;
-        for (Index i = 0; i < eq.y.size(); ++i) {
-            centred += (eq.y[i] - mean) * (eq.y[i] - mean);
-            raw += static_cast<long double>(eq.y[i]) * eq.y[i];
-        }
+        const long double centred = ysums.centred, raw = ysums.raw;
         // within: y is demeaned by unit, so the uncentred sum is sum (y - ybar_i)^2
         const bool centre = has_intercept || spec.estimator == Estimator::random;
         const double tss = static_cast<double>(spec.estimator == Estimator::within ? raw : (centre ? centred : raw));
@@ -789,7 +849,8 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
         }
     }
 
-    // aligned residuals and fitted values
+    // aligned residuals and fitted values (a lean fit has them already)
+    if (lean_result) return fit;
     fit.residuals.value.assign(n_rows, 0.0);
     fit.residuals.defined.assign(n_rows, 0);
     fit.fitted = fit.residuals;
@@ -810,6 +871,19 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec) {
         }
     }
     return fit;
+}
+
+Fit fit_model(const PanelData& data, const ModelSpec& spec) { return *fit_model_impl(data, spec, false); }
+
+Fit fit_model_lean(const PanelData& data, const ModelSpec& spec) {
+    if (detail::lean_applies(spec)) {
+        try {
+            if (std::optional<Fit> fit = fit_model_impl(data, spec, true)) return std::move(*fit);
+        } catch (const Error&) {
+            // the full route below finds the same problem and words it
+        }
+    }
+    return fit_model(data, spec);
 }
 
 }  // namespace weft

@@ -9,7 +9,10 @@
 #include <numeric>
 #include <string>
 
+#include <Eigen/Core>
+
 #include "weft/error.hpp"
+#include "weft/buffer.hpp"
 #include "internal.hpp"
 
 namespace weft {
@@ -19,8 +22,19 @@ std::string format_number(double value) {
     char buffer[40];
     // whole numbers (years, ids, date serials) in plain digits, never "1.94e+03"
     if (std::fabs(value) < 1e15 && value == std::floor(value)) {
-        std::snprintf(buffer, sizeof buffer, "%.0f", value);
-        return buffer;
+        // exact in a 64-bit integer; digits by hand (snprintf is slow for the many unit
+        // labels of a large panel)
+        long long v = static_cast<long long>(value);
+        const bool negative = v < 0;
+        unsigned long long a = negative ? 0ull - static_cast<unsigned long long>(v) : static_cast<unsigned long long>(v);
+        char* end = buffer + sizeof buffer;
+        char* at = end;
+        do {
+            *--at = static_cast<char>('0' + a % 10);
+            a /= 10;
+        } while (a != 0);
+        if (negative) *--at = '-';
+        return std::string(at, end);
     }
     for (int digits = 1; digits <= 17; ++digits) {
         std::snprintf(buffer, sizeof buffer, "%.*g", digits, value);
@@ -43,12 +57,23 @@ void check_length(std::size_t expected, const char* expected_what, std::size_t g
                     std::to_string(expected) + "; give all columns the same rows");
 }
 
-void check_column(const Column& column, std::size_t n_rows, const char* expected_what,
-                  const std::string& what, std::size_t first_row_number) {
+void check_column_shape(const Column& column, std::size_t n_rows, const char* expected_what,
+                        const std::string& what) {
     check_length(n_rows, expected_what, column.values.size(), what);
     if (!column.missing.empty() && column.missing.size() != column.values.size())
         throw Error(what + ": the missing-value mask has " + std::to_string(column.missing.size()) +
                     " entries for " + std::to_string(column.values.size()) + " rows");
+}
+
+void check_column(const Column& column, std::size_t n_rows, const char* expected_what,
+                  const std::string& what, std::size_t first_row_number) {
+    check_column_shape(column, n_rows, expected_what, what);
+    // every value finite: one vectorised test (the common case); else find the row
+    if (column.missing.empty() &&
+        Eigen::Map<const Eigen::ArrayXd>(column.values.data(), static_cast<Eigen::Index>(column.values.size()))
+            .isFinite()
+            .all())
+        return;
     for (std::size_t i = 0; i < column.values.size(); ++i) {
         if (column.is_missing(i)) continue;
         if (!std::isfinite(column.values[i]))
@@ -84,7 +109,7 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
                                     PanelIndex& index) {
     const std::size_t n = units.size();
     std::vector<std::size_t> rows;
-    rows.reserve(n);
+    reserve_large(rows, n);
     for (std::size_t i = 0; i < n; ++i) {
         if (units.is_missing(i)) continue;
         if (periods != nullptr && periods->is_missing(i)) continue;
@@ -111,8 +136,8 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
         if (!std::is_sorted(rows.begin(), rows.end(), less)) std::sort(rows.begin(), rows.end(), less);
     }
     index.n_rows = n;
-    index.unit_of_row.assign(n, -1);
-    index.period_of_row.assign(n, -1);
+    assign_large(index.unit_of_row, n, std::int32_t{-1});
+    assign_large(index.period_of_row, n, std::int32_t{-1});
     index.unit_labels.clear();
     index.unit_start.clear();
     auto same_unit = [&](std::size_t a, std::size_t b) {

@@ -45,7 +45,7 @@ void working_block(const Equation& eq, Index first, Index count, MatrixXd& out) 
 }
 
 MatrixXd working_to_original(const Equation& eq) {
-    const Index K = eq.X.cols();
+    const Index K = eq.scale.size();
     MatrixXd m_inverse = MatrixXd::Zero(K, K);
     const int c = eq.intercept_column;
     for (Index j = 0; j < K; ++j) {
@@ -59,6 +59,40 @@ MatrixXd r_inverse(const Equation& eq) {
     const Index K = eq.r_factor.cols();
     MatrixXd identity = MatrixXd::Identity(K, K);
     return eq.r_factor.triangularView<Eigen::Upper>().solve(identity);
+}
+
+bool gram_factor(const MatrixXd& gram, MatrixXd& r_out, double condition_limit) {
+    const Index p = gram.rows();
+    Eigen::LLT<MatrixXd> llt(gram);
+    if (llt.info() != Eigen::Success) return false;
+    MatrixXd r_try = llt.matrixU();
+    const MatrixXd r_try_inv = r_try.triangularView<Eigen::Upper>().solve(MatrixXd::Identity(p, p));
+    const double cond = r_try.norm() * r_try_inv.norm();
+    if (!(std::isfinite(cond) && cond <= condition_limit)) return false;
+    r_out = std::move(r_try);
+    return true;
+}
+
+VectorXd original_coefficients(const Equation& eq, const Eigen::Matrix<long double, Eigen::Dynamic, 1>& c_work,
+                               long double shift_y) {
+    const Index K = c_work.size();
+    const int c_kept = eq.intercept_column;
+    Eigen::Matrix<long double, Eigen::Dynamic, 1> b(K);
+    long double correction = 0;
+    for (Index k = 0; k < K; ++k) {
+        b[k] = c_work[k] / static_cast<long double>(eq.scale[k]);
+        if (c_kept >= 0 && k != c_kept) correction += static_cast<long double>(eq.shift[k]) * b[k];
+    }
+    if (c_kept >= 0) b[c_kept] = shift_y + c_work[c_kept] / static_cast<long double>(eq.scale[c_kept]) - correction;
+    return b.cast<double>();
+}
+
+MatrixXd xtx_inverse(const Equation& eq) {
+    const MatrixXd r_inv = r_inverse(eq);
+    // (Measured: polishing this inverse with Newton-Schulz steps against a long-double
+    // Z'Z gains nothing on NIST; Filip's SEs are limited by its powers rounded to double.)
+    const MatrixXd p_mat = working_to_original(eq) * r_inv;
+    return p_mat * p_mat.transpose();
 }
 
 }  // namespace detail
@@ -205,18 +239,11 @@ Equation solve_equation(EquationInput in) {
             gram.selfadjointView<Eigen::Lower>().rankUpdate(block_rows.topRows(b).transpose());
         }
         const MatrixXd g_design = gram.topLeftCorner(p, p).selfadjointView<Eigen::Lower>();
-        Eigen::LLT<MatrixXd> llt(g_design);
-        if (N > p && llt.info() == Eigen::Success) {
-            MatrixXd r_try = llt.matrixU();
-            const MatrixXd r_try_inv = r_try.triangularView<Eigen::Upper>().solve(MatrixXd::Identity(p, p));
-            const double cond = r_try.norm() * r_try_inv.norm();
-            if (std::isfinite(cond) && cond <= detail::kGramConditionLimit) {
-                gram_route = true;
-                R = r_try;
-                const VectorXd zty = gram.col(p).head(p);
-                qty = r_try.transpose().triangularView<Eigen::Lower>().solve(zty);
-                for (Index jj = 0; jj < p; ++jj) kept_local.push_back(jj);
-            }
+        if (N > p && detail::gram_factor(g_design, R, detail::kGramConditionLimit)) {
+            gram_route = true;
+            const VectorXd zty = gram.col(p).head(p);
+            qty = R.transpose().triangularView<Eigen::Lower>().solve(zty);
+            for (Index jj = 0; jj < p; ++jj) kept_local.push_back(jj);
         }
     }
 
@@ -411,14 +438,7 @@ Equation solve_equation(EquationInput in) {
     }
 
     // ---- 5. back to the original basis
-    VectorL b(K);
-    long double correction = 0;
-    for (Index k = 0; k < K; ++k) {
-        b[k] = c_work[k] / static_cast<long double>(eq.scale[k]);
-        if (c_kept >= 0 && k != c_kept) correction += static_cast<long double>(eq.shift[k]) * b[k];
-    }
-    if (c_kept >= 0) b[c_kept] = shift_y + c_work[c_kept] / static_cast<long double>(eq.scale[c_kept]) - correction;
-    eq.coef = b.cast<double>();
+    eq.coef = detail::original_coefficients(eq, c_work, shift_y);
     eq.residual.resize(N);
     eq.fitted.resize(N);
     long double ssr = 0;
@@ -430,11 +450,7 @@ Equation solve_equation(EquationInput in) {
     eq.ssr = static_cast<double>(ssr);
 
     // ---- 6. (X'X)^-1 = M^-1 (Z'Z)^-1 M^-T, (Z'Z)^-1 = R^-1 R^-T
-    const MatrixXd r_inv = detail::r_inverse(eq);
-    // (Measured: polishing this inverse with Newton-Schulz steps against a long-double
-    // Z'Z gains nothing on NIST; Filip's SEs are limited by its powers rounded to double.)
-    const MatrixXd p_mat = detail::working_to_original(eq) * r_inv;
-    eq.xtx_inverse = p_mat * p_mat.transpose();
+    eq.xtx_inverse = detail::xtx_inverse(eq);
 
     // distinct units and periods among the rows
     auto count_distinct = [](const std::vector<std::int32_t>& ids) {
@@ -456,6 +472,7 @@ Equation solve_equation(EquationInput in) {
 }
 
 Eigen::VectorXd leverages(const Equation& eq) {
+    detail::require_rows(eq, "leverages");
     const Index N = eq.X.rows();
     VectorXd h(N);
     const MatrixXd r_inv = detail::r_inverse(eq);

@@ -10,6 +10,7 @@
 
 #include "weft/distributions.hpp"
 #include "weft/error.hpp"
+#include "internal.hpp"
 #include "weft/panel.hpp"
 #include "weft/spec.hpp"
 
@@ -18,6 +19,8 @@ namespace weft {
 namespace {
 
 bool same_rows(const Equation& a, const Equation& b) {
+    detail::require_rows(a, "comparing two fits");
+    detail::require_rows(b, "comparing two fits");
     if (a.nobs() != b.nobs()) return false;
     std::vector<std::size_t> ra = a.input_row, rb = b.input_row;
     std::sort(ra.begin(), ra.end());

@@ -8,6 +8,7 @@
 
 #include "weft/distributions.hpp"
 #include "weft/error.hpp"
+#include "internal.hpp"
 #include "weft/spec.hpp"
 
 namespace weft {
@@ -46,6 +47,7 @@ const char* to_word(HeteroForm form) {
 }
 
 HeteroResult hetero_test(const Equation& equation, HeteroForm form) {
+    detail::require_rows(equation, "the heteroskedasticity test");
     const auto n = static_cast<Eigen::Index>(equation.nobs());
     const auto k = static_cast<Eigen::Index>(equation.n_terms());
 

@@ -8,12 +8,14 @@
 
 #include "weft/distributions.hpp"
 #include "weft/error.hpp"
+#include "internal.hpp"
 #include "weft/panel.hpp"
 #include "weft/spec.hpp"
 
 namespace weft {
 
 SerialResult serial_test(const Equation& equation) {
+    detail::require_rows(equation, "the serial-correlation test");
     if (equation.estimator == Estimator::between)
         throw Error("serial test: between has one row per unit, so there is no residual of "
                     "an earlier period to compare with; use pooled, fd or within");

@@ -107,11 +107,22 @@ void check_case(const Case& c) {
     const weft::PanelData data = case_data(ref);
     const std::vector<std::string> names = ref["regressors_estimated"].get<std::vector<std::string>>();
 
+    // Each case through fit_model and through fit_model_lean (the route the C interface
+    // takes: streaming passes where it applies, else the same full fit).
+    for (const bool lean : {false, true})
     for (const SeKey& k : se_keys(ref)) {
         weft::ModelSpec spec = weft::parse_model_text(c.model);
         spec.covariance = k.word;
-        INFO(c.file << " with " << weft::describe(spec) << " (JSON key " << k.key << ")");
-        const weft::Fit fit = weft::fit_model(data, spec);
+        INFO(c.file << " with " << weft::describe(spec) << " (JSON key " << k.key << ")" << (lean ? ", lean fit" : ""));
+        const weft::Fit fit = lean ? weft::fit_model_lean(data, spec) : weft::fit_model(data, spec);
+        {
+            // the lean route is taken for pooled and fd without period indicators and
+            // with a covariance it computes in its streaming pass
+            const bool lean_kind = spec.covariance != weft::Covariance::hc2 && spec.covariance != weft::Covariance::hc3 &&
+                                   spec.covariance != weft::Covariance::cluster_both;
+            const bool lean_estimator = spec.estimator == weft::Estimator::pooled || spec.estimator == weft::Estimator::fd;
+            CHECK(fit.equation.rows_held() == !(lean && lean_kind && lean_estimator && !spec.period_effects));
+        }
         REQUIRE(fit.equation.terms.size() == names.size());
         CHECK(fit.dropped.empty());
         for (std::size_t j = 0; j < names.size(); ++j) CHECK(fit.equation.terms[j] == weft_term(names[j]));

@@ -32,6 +32,8 @@
 //
 // Stability: fields may be added; existing names and meanings do not change. Changes
 // are announced here:
+//   2026-12-02: fit_model_lean and Equation::lean_rows / rows_held() added (lean fits for
+//   large data; fit_model is unchanged).
 //   2026-12-02: Fit::exact_fit added; an exact fit reports se 0 and t, p NaN with a warning.
 //   2026-12-02: solver gained the Gram route for well-conditioned designs (no API
 //   change; r_factor is then the Cholesky factor of Z'Z, with the same meaning R'R = Z'Z).
@@ -101,7 +103,14 @@ struct Equation {
     std::size_t n_periods = 0;          // distinct periods among the equation rows
     std::size_t absorbed = 0;           // effects absorbed by the transform, counted in df (within: n_units)
 
-    std::size_t nobs() const { return static_cast<std::size_t>(X.rows()); }
+    // A lean equation (fit_model_lean) holds no per-row arrays: X has 0 rows (but its K
+    // columns), y, residual, fitted, input_row, unit and period are empty, and
+    // lean_rows gives N. Everything else (terms, coef, ssr, shift, scale, r_factor,
+    // xtx_inverse, n_units, n_periods, absorbed) is as for a full equation.
+    std::size_t lean_rows = 0;
+    bool rows_held() const { return lean_rows == 0; }
+
+    std::size_t nobs() const { return rows_held() ? static_cast<std::size_t>(X.rows()) : lean_rows; }
     std::size_t n_terms() const { return static_cast<std::size_t>(X.cols()); }
     // N - K - absorbed
     double df_residual() const {
@@ -202,5 +211,16 @@ struct Fit {
 };
 
 Fit fit_model(const PanelData& data, const ModelSpec& spec);
+
+// The same Fit as fit_model, computed where possible in streaming passes over the
+// columns that never hold the estimated equation's rows: pooled and fd without period
+// indicators, covariance classical, hc0, hc1, cluster, cluster0, cluster-period or dk,
+// a well-conditioned design (the solver's Gram route) with no term to drop. Its
+// Fit::equation is then lean (Equation::rows_held() is false); Fit::residuals and
+// Fit::fitted are filled as always. Anywhere else it is fit_model(data, spec). The tests
+// that need the equation's rows (heteroskedasticity, serial correlation, unit effects,
+// another covariance of the same equation) take a fit_model result. Estimates agree with
+// fit_model's to rounding (the same solver steps, accumulated in another order).
+Fit fit_model_lean(const PanelData& data, const ModelSpec& spec);
 
 }  // namespace weft
