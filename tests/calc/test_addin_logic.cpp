@@ -301,3 +301,59 @@ TEST_CASE("a specification test's warnings come as a last 'warnings' row") {
     const OutTable k = fn_hetero({table(y), table(x), table(u), table(t)}, Arg(), Arg());
     CHECK(k.rows == 7);  // koenker: no warning
 }
+
+namespace {
+
+// Tables with a cells key of the test's choosing; counts how often they are read.
+class KeyedSource : public PanelSource {
+public:
+    KeyedSource(const PanelRanges& in, Hash128 key) : in_(in), key_(key) {}
+    const Hash128* cells_key() const override { return &key_; }
+    PanelRanges ranges() const override {
+        ++reads;
+        return in_;
+    }
+    mutable int reads = 0;
+
+private:
+    PanelRanges in_;
+    Hash128 key_;
+};
+
+}  // namespace
+
+TEST_CASE("a call with a known cells key and model argument skips reading the ranges") {
+    const Grunfeld g = grunfeld(true);
+    const auto ref = reference("grunfeld_pooled.json")["results"];
+    // keys and a model text no other test case uses, so the caches start empty of them
+    KeyedSource src({g.inv, g.x, g.firm, g.year}, Hash128{0x5eed0001u, 0x5eed0002u});
+    const OutCell first = fn_value(src, word("pooled hc2 level=0.8"), word("estimate"),
+                                   word("value"));
+    CHECK(src.reads == 1);
+    // grunfeld_pooled.json results.coef.value
+    CHECK(rel_close(first.number, ref["coef"]["value"].get<double>()));
+
+    // same key, same model argument: answered without reading
+    const OutTable table = fn_estimates(src, word("pooled hc2 level=0.8"));
+    CHECK(src.reads == 1);
+    REQUIRE(table.rows == 4);
+    CHECK(table.cells[14].text == "value");
+    CHECK(table.cells[15].number == first.number);
+    // grunfeld_pooled.json results.se.HC2.value
+    CHECK(rel_close(table.cells[16].number, ref["se"]["HC2"]["value"].get<double>()));
+
+    // another model argument (even one meaning the same model) reads the ranges again
+    fn_value(src, word("hc2 pooled level=0.8"), word("estimate"), word("value"));
+    CHECK(src.reads == 2);
+
+    // ranges that fail to read are never remembered: every call reads them again
+    Table short_units = g.firm;
+    short_units.given_rows = short_units.rows = 200;
+    short_units.cells.resize(200);
+    KeyedSource bad({g.inv, g.x, short_units, g.year}, Hash128{0x5eed0003u, 0x5eed0004u});
+    const std::string e1 = error_of([&] { fn_estimates(bad, word("pooled hc2 level=0.8")); });
+    const std::string e2 = error_of([&] { fn_estimates(bad, word("pooled hc2 level=0.8")); });
+    CHECK(starts_with(e1, "weft: units has 200 rows but outcome has 201"));
+    CHECK(e1 == e2);
+    CHECK(bad.reads == 2);
+}
