@@ -89,6 +89,7 @@ CovarianceResult covariance_from_meat(const Equation& eq, Covariance kind, const
 
 }  // namespace weft::detail
 
+#include <cstdint>
 #include <optional>
 #include <vector>
 
@@ -108,9 +109,18 @@ struct LeanInput {
     const PanelData& data;
     const ModelSpec& spec;
     const PanelIndex& index;
-    const std::vector<std::size_t>& later;    // per equation row: its input row (fd: the later row)
-    const std::vector<std::size_t>& earlier;  // fd: the earlier row of each difference; pooled: empty
     const std::vector<std::string>& regressor_names;
+    // The equation rows, given one of two ways:
+    //  - input sorted by unit and period: is_row[r] = 1 when input row r is an equation
+    //    row (fd: the difference of rows r - 1 and r);
+    //  - otherwise later (the input row of each equation row; fd: the later row) and,
+    //    for fd, earlier (the earlier row of each difference).
+    const std::vector<std::uint8_t>* is_row = nullptr;
+    const std::vector<std::size_t>* later = nullptr;
+    const std::vector<std::size_t>* earlier = nullptr;
+    std::size_t count = 0;    // equation rows N
+    std::size_t units = 0;    // distinct units among them
+    std::size_t periods = 0;  // distinct grid periods among them
 };
 
 struct LeanResult {

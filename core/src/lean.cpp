@@ -19,6 +19,10 @@
 #include <cmath>
 #include <limits>
 
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
+
 #include <Eigen/Dense>
 
 #include "weft/error.hpp"
@@ -69,8 +73,6 @@ namespace {
 constexpr double kLeanDropMargin = 1e3;
 constexpr double kLeanConditionLimit = 0.9 * kGramConditionLimit;
 
-constexpr std::size_t kNoRow = std::numeric_limits<std::size_t>::max();
-
 // A run of equation rows whose input rows (and earlier rows) are consecutive.
 struct Piece {
     Index at;              // first equation row
@@ -79,35 +81,42 @@ struct Piece {
     Index length;
 };
 
+// One block of the estimated equation's rows as the reader wrote them.
+struct Block {
+    Index rows = 0;                    // block rows
+    std::size_t first = 0;             // sorted input: the input row of block row 0 (rows are consecutive)
+    const double* keep = nullptr;      // per block row: 1 for an equation row, 0 for a row to skip
+    const std::size_t* input = nullptr;  // unsorted input: the input row of each block row
+    std::size_t input_row(Index i) const { return input != nullptr ? input[i] : first + static_cast<std::size_t>(i); }
+};
+
 // Reads [X, y] of the estimated equation (original scale; fd: differences) in blocks.
-// When the equation rows are the input rows in increasing order (fd: each with the
-// row before it as its earlier row; true whenever the input is sorted by unit and
-// period), a block is a range of input rows read by whole-column vector operations,
-// and the rows that are not equation rows (a unit's first row, a row with a missing
-// value) are marked and later given weight 0. Otherwise rows are gathered.
+// Sorted input (LeanInput::is_row): a block is a range of input rows, read by
+// whole-column vector operations; rows that are not equation rows (a unit's first row,
+// a row with a missing value) are written as 0 and have weight 0. Otherwise the
+// equation rows are gathered from LeanInput::later (and earlier), in runs.
 class BlockReader {
 public:
-    BlockReader(const LeanInput& in, Index block) : in_(in), fd_(!in.earlier.empty()), block_(block) {
-        const std::size_t n = in.later.size();
-        contiguous_ = true;
-        for (std::size_t i = 0; i < n && contiguous_; ++i) {
-            if (i > 0 && in.later[i] <= in.later[i - 1]) contiguous_ = false;
-            if (fd_ && in.earlier[i] + 1 != in.later[i]) contiguous_ = false;
-        }
-        if (contiguous_) {
-            first_ = in.later.front();
-            end_ = in.later.back() + 1;
-            is_row_.assign(end_ - first_, 0);
-            for (std::size_t r : in.later) is_row_[r - first_] = 1;
+    BlockReader(const LeanInput& in, Index block) : in_(in), fd_(in.spec.estimator == Estimator::fd), block_(block) {
+        if (in.is_row != nullptr) {
+            const std::vector<std::uint8_t>& is_row = *in.is_row;
+            lo_ = 0;
+            while (lo_ < is_row.size() && !is_row[lo_]) ++lo_;
+            hi_ = is_row.size();
+            while (hi_ > lo_ && !is_row[hi_ - 1]) --hi_;
+            assign_large(keep_, hi_ - lo_, 0.0);
+            for (std::size_t r = lo_; r < hi_; ++r) keep_[r - lo_] = is_row[r] ? 1.0 : 0.0;
         } else {
-            for (std::size_t i = 0; i < n; ++i) {
-                const bool extends = i > 0 && in.later[i] == in.later[i - 1] + 1 &&
-                                     (!fd_ || in.earlier[i] == in.earlier[i - 1] + 1);
+            const std::vector<std::size_t>& later = *in.later;
+            for (std::size_t i = 0; i < later.size(); ++i) {
+                const bool extends = i > 0 && later[i] == later[i - 1] + 1 &&
+                                     (!fd_ || (*in.earlier)[i] == (*in.earlier)[i - 1] + 1);
                 if (extends)
                     ++pieces_.back().length;
                 else
-                    pieces_.push_back({static_cast<Index>(i), in.later[i], fd_ ? in.earlier[i] : 0, 1});
+                    pieces_.push_back({static_cast<Index>(i), later[i], fd_ ? (*in.earlier)[i] : 0, 1});
             }
+            keep_.assign(static_cast<std::size_t>(block), 1.0);
         }
         for (const Column& x : in.data.regressors) {
             columns_.push_back(x.values.data());
@@ -117,74 +126,50 @@ public:
         masks_.push_back(in.data.outcome.missing.empty() ? nullptr : in.data.outcome.missing.data());
     }
 
-    // Every cell outside the missing masks is a finite number. The rows that the
-    // contiguous reads cover are checked as they are read with check_values (call
-    // this after such a pass); the others here.
-    bool values_finite() const {
-        const std::size_t n = in_.data.outcome.size();
-        auto finite_rows = [&](std::size_t from, std::size_t to) {
-            for (std::size_t c = 0; c < columns_.size(); ++c)
-                for (std::size_t r = from; r < to; ++r)
-                    if (!(masks_[c] != nullptr && masks_[c][r] != 0) && !std::isfinite(columns_[c][r])) return false;
-            return true;
-        };
-        if (!contiguous_) return finite_rows(0, n);
-        return finite_ && finite_rows(0, first_) && finite_rows(end_, n);
-    }
-
     Index width() const { return static_cast<Index>(columns_.size()); }
     Index blocks() const {
-        const std::size_t span = contiguous_ ? end_ - first_ : in_.later.size();
+        const std::size_t span = sorted() ? hi_ - lo_ : in_.later->size();
         return static_cast<Index>((span + static_cast<std::size_t>(block_) - 1) / static_cast<std::size_t>(block_));
     }
+    void restart() { cursor_ = 0; }
 
-    // Block k: column c of [X, y] (original scale; fd: differences) is written as
-    // (v - shift[c]) * mult[c] into column col0 + c of out's top rows. rows[i] is the
-    // input row of block row i, or kNoRow for a row that is not an equation row (its
-    // block row is then 0); keep[i] is 1 or 0 accordingly. levels (fd, optional) adds the squares of the later rows'
-    // values per column. Returns the block's row count.
-    Index read(Index k, MatrixXd& out, Index col0, const VectorXd& shift, const VectorXd& mult,
-               std::vector<std::size_t>& rows, VectorXd& keep, VectorXd* levels = nullptr,
-               bool check_values = false) {
-        if (contiguous_) {
-            const std::size_t a = first_ + static_cast<std::size_t>(k * block_);
-            const Index b = static_cast<Index>(std::min<std::size_t>(static_cast<std::size_t>(block_), end_ - a));
-            for (Index i = 0; i < b; ++i) {
-                const bool row = is_row_[a - first_ + static_cast<std::size_t>(i)] != 0;
-                rows[static_cast<std::size_t>(i)] = row ? a + static_cast<std::size_t>(i) : kNoRow;
-                keep[i] = row ? 1.0 : 0.0;
-            }
+    // Every cell outside the missing masks is a finite number. Sorted input: the rows
+    // read with check_values are checked as they are read (call this after such a
+    // pass), the others here; unsorted: all here.
+    bool values_finite() const {
+        const std::size_t n = in_.data.outcome.size();
+        if (!sorted()) return finite_rows(0, n);
+        return finite_ && finite_rows(0, lo_) && finite_rows(hi_, n);
+    }
+
+    // Block k: column c of [X, y] is written as (v - shift[c]) * mult[c] into column
+    // col0 + c of out's top rows (0 in a row of weight 0).
+    Block read(Index k, MatrixXd& out, Index col0, const VectorXd& shift, const VectorXd& mult,
+               VectorXd* levels = nullptr, bool check_values = false) {
+        Block blk;
+        if (sorted()) {
+            const std::size_t a = lo_ + static_cast<std::size_t>(k * block_);
+            const Index b = static_cast<Index>(std::min<std::size_t>(static_cast<std::size_t>(block_), hi_ - a));
+            blk.rows = b;
+            blk.first = a;
+            blk.keep = keep_.data() + (a - lo_);
             for (Index c = 0; c < width(); ++c) {
                 const double* x = columns_[static_cast<std::size_t>(c)];
-                const Eigen::Map<const VectorXd> now(x + a, b);
-                if (check_values && finite_) {
-                    const std::uint8_t* mask = masks_[static_cast<std::size_t>(c)];
-                    if (mask == nullptr) {
-                        // inf * 0 and NaN * 0 are NaN: one vectorised sum tests the block
-                        if (!std::isfinite((now.array() * 0.0).sum())) finite_ = false;
-                    } else {
-                        for (Index i = 0; i < b; ++i)
-                            if (mask[a + static_cast<std::size_t>(i)] == 0 && !std::isfinite(now[i])) finite_ = false;
-                    }
-                }
-                auto dest = out.col(col0 + c).head(b);
-                // rows that are not equation rows are set to 0 (select, not a product:
-                // a missing cell may hold any value, NaN included)
-                const auto kept = keep.head(b).array() != 0.0;
-                if (fd_) {
-                    // a > 0: the first equation row has its earlier row before it
-                    const Eigen::Map<const VectorXd> before(x + a - 1, b);
-                    dest = kept.select(((now - before).array() - shift[c]) * mult[c], 0.0);
-                    if (levels != nullptr) (*levels)[c] += kept.select(now.array().square(), 0.0).sum();
-                } else {
-                    dest = kept.select((now.array() - shift[c]) * mult[c], 0.0);
-                }
+                if (check_values && finite_) finite_ = finite_block(c, a, b);
+                // a > 0 for fd: the first equation row has its earlier row before it
+                double squares = 0;
+                kept_column(x + a, fd_ ? x + a - 1 : nullptr, blk.keep, shift[c], mult[c], out.col(col0 + c).data(), b,
+                            levels != nullptr ? &squares : nullptr);
+                if (levels != nullptr) (*levels)[c] += squares;
             }
-            return b;
+            return blk;
         }
+        const std::vector<std::size_t>& later = *in_.later;
         const Index first = k * block_;
-        const Index end = std::min(first + block_, static_cast<Index>(in_.later.size()));
-        const Index b = end - first;
+        const Index end = std::min(first + block_, static_cast<Index>(later.size()));
+        blk.rows = end - first;
+        blk.keep = keep_.data();
+        blk.input = later.data() + first;
         while (cursor_ < pieces_.size() && pieces_[cursor_].at + pieces_[cursor_].length <= first) ++cursor_;
         for (std::size_t q_i = cursor_; q_i < pieces_.size() && pieces_[q_i].at < end; ++q_i) {
             const Piece& q = pieces_[q_i];
@@ -192,32 +177,85 @@ public:
             const Index len = to - from, off = from - q.at, at = from - first;
             for (Index c = 0; c < width(); ++c) {
                 const double* x = columns_[static_cast<std::size_t>(c)];
-                const Eigen::Map<const VectorXd> now(x + q.later + off, len);
-                auto dest = out.col(col0 + c).segment(at, len);
+                const Eigen::Map<const Eigen::ArrayXd> now(x + q.later + off, len);
+                auto dest = out.col(col0 + c).segment(at, len).array();
                 if (fd_) {
-                    dest = ((now - Eigen::Map<const VectorXd>(x + q.earlier + off, len)).array() - shift[c]) * mult[c];
-                    if (levels != nullptr) (*levels)[c] += now.squaredNorm();
+                    dest = (now - Eigen::Map<const Eigen::ArrayXd>(x + q.earlier + off, len) - shift[c]) * mult[c];
+                    if (levels != nullptr) (*levels)[c] += now.square().sum();
                 } else {
-                    dest = (now.array() - shift[c]) * mult[c];
+                    dest = (now - shift[c]) * mult[c];
                 }
             }
         }
-        for (Index i = 0; i < b; ++i) {
-            rows[static_cast<std::size_t>(i)] = in_.later[static_cast<std::size_t>(first + i)];
-            keep[i] = 1.0;
-        }
-        return b;
+        return blk;
     }
 
-    void restart() { cursor_ = 0; }
-
 private:
+    bool sorted() const { return in_.is_row != nullptr; }
+
+    // dest[i] = ((now[i] - before[i]) - shift) * mult where keep[i] != 0, else 0 (a
+    // select, not a product: a missing cell may hold any value, NaN included); before
+    // null: no difference. squares (optional) gets the sum of now[i]^2 over kept rows.
+    // Plain loops, so that the compiler vectorises them.
+    static void kept_column(const double* __restrict now, const double* __restrict before,
+                            const double* __restrict keep, double shift, double mult, double* __restrict dest,
+                            Index b, double* squares) {
+        Index i = 0;
+#if defined(__SSE2__)
+        // two rows at a time; the select is an AND with the comparison mask
+        const __m128d s = _mm_set1_pd(shift), m = _mm_set1_pd(mult), zero = _mm_setzero_pd();
+        for (; i + 2 <= b; i += 2) {
+            __m128d v = _mm_loadu_pd(now + i);
+            if (before != nullptr) v = _mm_sub_pd(v, _mm_loadu_pd(before + i));
+            v = _mm_mul_pd(_mm_sub_pd(v, s), m);
+            _mm_storeu_pd(dest + i, _mm_and_pd(v, _mm_cmpneq_pd(_mm_loadu_pd(keep + i), zero)));
+        }
+#endif
+        for (; i < b; ++i) {
+            const double v = ((before != nullptr ? now[i] - before[i] : now[i]) - shift) * mult;
+            dest[i] = keep[i] != 0.0 ? v : 0.0;
+        }
+        if (squares != nullptr) {
+            // (a threshold test only: four partial sums, in any order)
+            double sum[4] = {0, 0, 0, 0};
+            Index r = 0;
+            for (; r + 4 <= b; r += 4)
+                for (int j = 0; j < 4; ++j) {
+                    const double v = keep[r + j] != 0.0 ? now[r + j] : 0.0;
+                    sum[j] += v * v;
+                }
+            for (; r < b; ++r) {
+                const double v = keep[r] != 0.0 ? now[r] : 0.0;
+                sum[0] += v * v;
+            }
+            *squares = (sum[0] + sum[1]) + (sum[2] + sum[3]);
+        }
+    }
+
+    bool finite_block(Index c, std::size_t a, Index b) const {
+        const double* x = columns_[static_cast<std::size_t>(c)];
+        const std::uint8_t* mask = masks_[static_cast<std::size_t>(c)];
+        // inf * 0 and NaN * 0 are NaN: one vectorised sum tests the block
+        if (mask == nullptr) return std::isfinite((Eigen::Map<const Eigen::ArrayXd>(x + a, b) * 0.0).sum());
+        for (Index i = 0; i < b; ++i)
+            if (mask[a + static_cast<std::size_t>(i)] == 0 && !std::isfinite(x[a + static_cast<std::size_t>(i)]))
+                return false;
+        return true;
+    }
+
+    bool finite_rows(std::size_t from, std::size_t to) const {
+        for (Index c = 0; c < width(); ++c)
+            for (std::size_t a = from; a < to; a += static_cast<std::size_t>(block_))
+                if (!finite_block(c, a, static_cast<Index>(std::min<std::size_t>(static_cast<std::size_t>(block_), to - a))))
+                    return false;
+        return true;
+    }
+
     const LeanInput& in_;
     bool fd_;
     Index block_;
-    bool contiguous_ = true;
-    std::size_t first_ = 0, end_ = 0;
-    std::vector<std::uint8_t> is_row_;
+    std::size_t lo_ = 0, hi_ = 0;          // sorted: the input rows [lo_, hi_) hold every equation row
+    std::vector<double> keep_;             // sorted: weights of rows lo_..hi_-1; unsorted: ones
     std::vector<Piece> pieces_;
     std::vector<const double*> columns_;
     std::vector<const std::uint8_t*> masks_;
@@ -229,20 +267,18 @@ private:
 
 std::optional<LeanResult> lean_equation(const LeanInput& in) {
     const ModelSpec& spec = in.spec;
-    const bool fd = !in.earlier.empty();
+    const bool fd = spec.estimator == Estimator::fd;
     const Index k_reg = static_cast<Index>(in.data.regressors.size());
     if (k_reg == 0) return std::nullopt;
     const Index block = kBlockRows;
     BlockReader reader(in, block);
-    const Index N = static_cast<Index>(in.later.size());
+    const Index N = static_cast<Index>(in.count);
     const Index m = k_reg + 1;                 // [X, y]
     const bool intercept = spec.intercept;
     const Index p = k_reg + (intercept ? 1 : 0);
     const Index c0 = intercept ? 1 : 0;         // working column of the first regressor
     if (N <= p) return std::nullopt;
     const double n_d = static_cast<double>(N);
-    std::vector<std::size_t> rows(static_cast<std::size_t>(block));
-    VectorXd keep(block);
 
     // ---- 1. Gram matrix of [w, v - s0] with w the row weight (1, or 0 for a row that
     // is not an equation row): its first row holds the count and the column sums.
@@ -252,18 +288,20 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     reader.restart();
     bool shifted = !intercept;
     for (Index k = 0; k < reader.blocks(); ++k) {
-        const Index b = reader.read(k, B, 1, s0, ones, rows, keep, fd ? &levels : nullptr, true);
+        const Block blk = reader.read(k, B, 1, s0, ones, fd ? &levels : nullptr, true);
+        const Index b = blk.rows;
+        const Eigen::Map<const VectorXd> keep(blk.keep, b);
         if (!shifted) {
             // s0: the first block's column means, close to the means of all rows
-            const double count = keep.head(b).sum();
+            const double count = keep.sum();
             if (count > 0) {
                 s0 = B.block(0, 1, b, m).colwise().sum().transpose() / count;
                 B.block(0, 1, b, m).rowwise() -= s0.transpose();
-                B.block(0, 1, b, m).array().colwise() *= keep.head(b).array();
+                B.block(0, 1, b, m).array().colwise() *= keep.array();
                 shifted = true;
             }
         }
-        B.col(0).head(b) = keep.head(b);
+        B.col(0).head(b) = keep;
         S.selfadjointView<Eigen::Lower>().rankUpdate(B.topRows(b).transpose());
     }
     // a NaN or infinity outside the masks: the full route words the message
@@ -331,10 +369,11 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     VectorXd u(block);
     // u = y - t_y - Z c, the residual of working solution c (0 in rows that are not
     // equation rows)
-    auto residual = [&](Index b, const VectorXd& c) {
+    auto residual = [&](const Block& blk, const VectorXd& c) {
+        const Index b = blk.rows;
         u.head(b) = B.col(k_reg).head(b).array() - (intercept ? c[0] / scale_c : 0.0);
         u.head(b).noalias() -= B.topLeftCorner(b, k_reg) * c.tail(k_reg);
-        u.head(b).array() *= keep.head(b).array();
+        u.head(b).array() *= Eigen::Map<const Eigen::ArrayXd>(blk.keep, b);
     };
     auto add_gradient = [&](Index b, VectorXd& g) {
         if (intercept) g[0] += u.head(b).sum() / scale_c;
@@ -351,9 +390,9 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
         VectorXd g = VectorXd::Zero(p);
         reader.restart();
         for (Index k = 0; k < reader.blocks(); ++k) {
-            const Index b = reader.read(k, B, 0, shift, mult, rows, keep);
-            residual(b, c);
-            add_gradient(b, g);
+            const Block blk = reader.read(k, B, 0, shift, mult);
+            residual(blk, c);
+            add_gradient(blk.rows, g);
         }
         c += correction(g);
     }
@@ -375,49 +414,57 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     const std::size_t groups = by_unit ? in.index.n_units() : in.index.n_periods();
     MatrixXd group_sums;   // p x groups: score sums per unit or per grid period
     if (by_unit || by_period) group_sums = MatrixXd::Zero(p, static_cast<Index>(groups));
-    std::vector<std::uint8_t> unit_seen(in.index.n_units(), 0), period_seen(in.index.n_periods(), 0);
+    const std::int32_t* id_of_row = by_unit ? in.index.unit_of_row.data() : in.index.period_of_row.data();
     MatrixXd meat = MatrixXd::Zero(p, p);
     MatrixXd W(block, p);
     VectorXd g = VectorXd::Zero(p);
     long double ssr = 0, y_sum = 0, y_squares = 0;   // y here is y - t_y
-    std::vector<std::int32_t> ids(static_cast<std::size_t>(block));
-    const std::vector<std::int32_t>& id_of_row = by_unit ? in.index.unit_of_row : in.index.period_of_row;
     const long double shift_y_l = shift_y;
     reader.restart();
     for (Index k = 0; k < reader.blocks(); ++k) {
-        const Index b = reader.read(k, B, 0, shift, mult, rows, keep);
-        residual(b, c);
+        const Block blk = reader.read(k, B, 0, shift, mult);
+        const Index b = blk.rows;
+        residual(blk, c);
         add_gradient(b, g);
+        const double* y_block = B.col(k_reg).data();
         for (Index i = 0; i < b; ++i) {
-            const std::size_t row = rows[static_cast<std::size_t>(i)];
-            if (row == kNoRow) {
-                ids[static_cast<std::size_t>(i)] = -1;
-                continue;
+            ssr += static_cast<long double>(u[i]) * u[i];
+            y_sum += y_block[i];
+            y_squares += static_cast<long double>(y_block[i]) * y_block[i];
+        }
+        if (blk.input == nullptr) {
+            // consecutive input rows; rows of weight 0 have u = 0 and stay undefined
+            const Eigen::Map<const Eigen::ArrayXd> keep(blk.keep, b);
+            Eigen::Map<Eigen::ArrayXd>(out.residuals.value.data() + blk.first, b) = u.head(b).array();
+            Eigen::Map<Eigen::ArrayXd>(out.fitted.value.data() + blk.first, b) =
+                (keep != 0.0).select(B.col(k_reg).head(b).array() + shift_y - u.head(b).array(), 0.0);
+            for (Index i = 0; i < b; ++i) {
+                const std::uint8_t defined = blk.keep[i] != 0.0 ? 1 : 0;
+                out.residuals.defined[blk.first + static_cast<std::size_t>(i)] = defined;
+                out.fitted.defined[blk.first + static_cast<std::size_t>(i)] = defined;
             }
-            ids[static_cast<std::size_t>(i)] = id_of_row[row];
-            const long double yi = B(i, k_reg);
-            const double ui = u[i];
-            out.residuals.value[row] = ui;
-            out.fitted.value[row] = static_cast<double>(yi + shift_y_l - ui);
-            out.residuals.defined[row] = out.fitted.defined[row] = 1;
-            ssr += static_cast<long double>(ui) * ui;
-            y_sum += yi;
-            y_squares += yi * yi;
-            unit_seen[static_cast<std::size_t>(in.index.unit_of_row[row])] = 1;
-            period_seen[static_cast<std::size_t>(in.index.period_of_row[row])] = 1;
+        } else {
+            for (Index i = 0; i < b; ++i) {
+                const std::size_t row = blk.input[i];
+                out.residuals.value[row] = u[i];
+                out.fitted.value[row] = B(i, k_reg) + shift_y - u[i];
+                out.residuals.defined[row] = out.fitted.defined[row] = 1;
+            }
         }
         if (kind == Covariance::classical) continue;
-        // scores z_i u_i in the working basis
+        // scores z_i u_i in the working basis (0 in rows of weight 0)
         if (intercept) W.col(0).head(b) = u.head(b) / scale_c;
         W.block(0, c0, b, k_reg) = B.topLeftCorner(b, k_reg).array().colwise() * u.head(b).array();
         if (per_row) {
             meat.selfadjointView<Eigen::Lower>().rankUpdate(W.topRows(b).transpose());
             continue;
         }
+        // runs of rows with one id (a row of weight 0 adds a zero score wherever it goes;
+        // a row without an id is skipped)
         for (Index i = 0; i < b;) {
-            const std::int32_t id = ids[static_cast<std::size_t>(i)];
+            const std::int32_t id = id_of_row[blk.input_row(i)];
             Index j = i + 1;
-            while (j < b && ids[static_cast<std::size_t>(j)] == id) ++j;
+            while (j < b && id_of_row[blk.input_row(j)] == id) ++j;
             if (id >= 0) group_sums.col(id) += W.middleRows(i, j - i).colwise().sum().transpose();
             i = j;
         }
@@ -432,8 +479,8 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
         const long double corrected = ssr - 2.0L * dg + rd;
         eq.ssr = static_cast<double>(corrected > 0 ? corrected : ssr);
     }
-    eq.n_units = static_cast<std::size_t>(std::count(unit_seen.begin(), unit_seen.end(), 1));
-    eq.n_periods = static_cast<std::size_t>(std::count(period_seen.begin(), period_seen.end(), 1));
+    eq.n_units = in.units;
+    eq.n_periods = in.periods;
     {
         const long double n_l = static_cast<long double>(N);
         const long double mean = y_sum / n_l;           // of y - t_y

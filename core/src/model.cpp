@@ -481,7 +481,7 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     // (the lean fd route does not need them)
     std::vector<std::size_t> rows;
     UnitRuns runs;
-    if (!(lean && spec.estimator == Estimator::fd)) {
+    if (!lean) {
         rows = used_rows_in_order(ctx);
         runs = unit_runs(index, rows);
     }
@@ -492,14 +492,57 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     std::optional<detail::LeanResult> lean_result;
     if (lean) {
         if (!detail::lean_applies(spec)) return std::nullopt;
-        if (spec.estimator == Estimator::pooled) {
-            lean_result = detail::lean_equation({data, spec, index, rows, {}, ctx.regressor_names});
-        } else {
-            std::vector<std::size_t> later, earlier;
+        const bool fd = spec.estimator == Estimator::fd;
+        detail::LeanInput in{data, spec, index, ctx.regressor_names};
+        // sorted input (every row has a unit and a period, in unit-period order): the
+        // equation rows as a mask over the input rows
+        bool sorted = index.rows_by_unit.size() == n_rows;
+        for (std::size_t k = 0; k < n_rows && sorted; ++k) sorted = index.rows_by_unit[k] == k;
+        std::vector<std::uint8_t> is_row;
+        std::vector<std::size_t> later, earlier;
+        if (sorted) {
+            assign_large(is_row, n_rows, std::uint8_t{0});
+            const std::vector<std::int32_t>& unit = index.unit_of_row;
+            const std::vector<std::int32_t>& period = index.period_of_row;
+            for (std::size_t r = 0; r < n_rows; ++r) {
+                if (!fd) {
+                    is_row[r] = used[r];
+                } else if (r > 0 && used[r] && used[r - 1] && unit[r] == unit[r - 1]) {
+                    // consecutive used rows of one unit: a difference, unless a grid period lies between
+                    if (period[r] == period[r - 1] + 1)
+                        is_row[r] = 1;
+                    else
+                        ++pairs_lost;
+                }
+            }
+            in.is_row = &is_row;
+        } else if (fd) {
             fd_pairs(ctx, later, earlier, pairs_lost);
-            if (!later.empty())
-                lean_result = detail::lean_equation({data, spec, index, later, earlier, ctx.regressor_names});
+            in.later = &later;
+            in.earlier = &earlier;
+        } else {
+            later = used_rows_in_order(ctx);
+            in.later = &later;
         }
+        {
+            // equation rows, and the units and periods among them
+            std::vector<std::uint8_t> unit_seen(index.n_units(), 0), period_seen(index.n_periods(), 0);
+            auto count_row = [&](std::size_t r) {
+                ++in.count;
+                unit_seen[static_cast<std::size_t>(index.unit_of_row[r])] = 1;
+                period_seen[static_cast<std::size_t>(index.period_of_row[r])] = 1;
+            };
+            if (sorted) {
+                for (std::size_t r = 0; r < n_rows; ++r)
+                    if (is_row[r]) count_row(r);
+            } else {
+                for (std::size_t r : later) count_row(r);
+            }
+            in.units = static_cast<std::size_t>(std::count(unit_seen.begin(), unit_seen.end(), 1));
+            in.periods = static_cast<std::size_t>(std::count(period_seen.begin(), period_seen.end(), 1));
+        }
+        if (in.count == 0) return std::nullopt;
+        lean_result = detail::lean_equation(in);
         if (!lean_result) return std::nullopt;
     }
     if (!lean_result) switch (spec.estimator) {
