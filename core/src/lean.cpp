@@ -72,6 +72,55 @@ namespace {
 // route's condition limit, goes to the full route.
 constexpr double kLeanDropMargin = 1e3;
 constexpr double kLeanConditionLimit = 0.9 * kGramConditionLimit;
+// The start of the refinement: the fit of the first blocks (about 32,000 rows), whose
+// system is only required to be solvable.
+constexpr Index kSampleBlocks = 16;
+constexpr double kSampleConditionLimit = 1e6;
+
+// The working system of a Gram matrix S of [w, v - s0] (v = [x, y], w the weights):
+// the shift t (the means, with an intercept; else 0), the scales (centred column
+// lengths), the Gram matrix G of the working design Z (intercept column 1/sqrt(n)
+// first, when there is one) and Z'(y - t_y). usable: every scale is positive.
+struct WorkingSystem {
+    VectorXd shift, scale, zty;
+    MatrixXd G;
+    double n = 0;
+    bool usable = false;
+};
+
+WorkingSystem working_system(const MatrixXd& S, const VectorXd& s0, bool intercept, Index k_reg) {
+    WorkingSystem w;
+    const Index m = k_reg + 1, p = k_reg + (intercept ? 1 : 0), c0 = intercept ? 1 : 0;
+    w.n = S(0, 0);
+    if (!(w.n > 0)) return w;
+    const VectorXd sums = S.col(0).tail(m);
+    const MatrixXd S_v = S.bottomRightCorner(m, m);
+    // sum (v - t)(v - t)' = S_v + d sums' + sums d' + n d d',  d = s0 - t
+    w.shift = VectorXd::Zero(m);
+    if (intercept) w.shift = s0 + sums / w.n;
+    const VectorXd d = s0 - w.shift;
+    const MatrixXd C = S_v + d * sums.transpose() + sums * d.transpose() + w.n * d * d.transpose();
+    const VectorXd centred_sums = sums + w.n * d;   // sum (v - t)
+    w.scale = VectorXd::Ones(m);
+    for (Index j = 0; j < k_reg; ++j) {
+        if (!(C(j, j) > 0)) return w;
+        w.scale[j] = std::sqrt(C(j, j));
+    }
+    const double scale_c = std::sqrt(w.n);
+    w.G.resize(p, p);
+    w.zty.resize(p);
+    if (intercept) {
+        w.G(0, 0) = 1.0;
+        for (Index j = 0; j < k_reg; ++j) w.G(c0 + j, 0) = w.G(0, c0 + j) = centred_sums[j] / (scale_c * w.scale[j]);
+        w.zty[0] = centred_sums[k_reg] / scale_c;
+    }
+    for (Index j = 0; j < k_reg; ++j) {
+        for (Index k = 0; k < k_reg; ++k) w.G(c0 + j, c0 + k) = C(j, k) / (w.scale[j] * w.scale[k]);
+        w.zty[c0 + j] = C(j, k_reg) / w.scale[j];
+    }
+    w.usable = w.G.allFinite() && w.zty.allFinite();
+    return w;
+}
 
 // A run of equation rows whose input rows (and earlier rows) are consecutive.
 struct Piece {
@@ -132,6 +181,8 @@ public:
         return static_cast<Index>((span + static_cast<std::size_t>(block_) - 1) / static_cast<std::size_t>(block_));
     }
     void restart() { cursor_ = 0; }
+    std::size_t cursor() const { return cursor_; }
+    void set_cursor(std::size_t cursor) { cursor_ = cursor; }
 
     // Every cell outside the missing masks is a finite number. Sorted input: the rows
     // read with check_values are checked as they are read (call this after such a
@@ -282,9 +333,24 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
 
     // ---- 1. Gram matrix of [w, v - s0] with w the row weight (1, or 0 for a row that
     // is not an equation row): its first row holds the count and the column sums.
+    // The same pass takes the first refinement step from a starting solution: the fit
+    // of the first kSampleBlocks blocks (all rows, for data of that size or less); its
+    // blocks are read once more for that step, once the start is known.
     MatrixXd B(block, m + 1);
     MatrixXd S = MatrixXd::Zero(m + 1, m + 1);
     VectorXd s0 = VectorXd::Zero(m), ones = VectorXd::Ones(m), levels = VectorXd::Zero(m);
+    VectorXd start_slopes = VectorXd::Zero(k_reg);   // starting solution y ~ start_constant + x' start_slopes
+    double start_constant = 0;
+    VectorXd h = VectorXd::Zero(m + 1);              // sum over rows of [w, v - s0] e, e the start's residual
+    VectorXd e(block);
+    auto add_start_residuals = [&](Index b) {
+        // e = y - start_constant - x' start_slopes, written with the shifted columns
+        const double gamma = start_constant + s0.head(k_reg).dot(start_slopes) - s0[k_reg];
+        e.head(b) = B.col(m).head(b) - gamma * B.col(0).head(b);
+        e.head(b).noalias() -= B.block(0, 1, b, k_reg) * start_slopes;
+        h.noalias() += B.topRows(b).transpose() * e.head(b);
+    };
+    const Index sample_blocks = std::min<Index>(kSampleBlocks, reader.blocks());
     reader.restart();
     bool shifted = !intercept;
     for (Index k = 0; k < reader.blocks(); ++k) {
@@ -303,6 +369,30 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
         }
         B.col(0).head(b) = keep;
         S.selfadjointView<Eigen::Lower>().rankUpdate(B.topRows(b).transpose());
+        if (k >= sample_blocks) {
+            add_start_residuals(b);
+        } else if (k + 1 == sample_blocks) {
+            // the start: the sample's own fit (if its system is usable; else 0)
+            const MatrixXd S_sample = S.selfadjointView<Eigen::Lower>();
+            WorkingSystem sample = working_system(S_sample, s0, intercept, k_reg);
+            MatrixXd R_sample;
+            if (sample.usable && gram_factor(sample.G, R_sample, kSampleConditionLimit)) {
+                const VectorXd c_sample = R_sample.triangularView<Eigen::Upper>().solve(
+                    R_sample.transpose().triangularView<Eigen::Lower>().solve(sample.zty));
+                start_slopes = c_sample.tail(k_reg).cwiseQuotient(sample.scale.head(k_reg));
+                start_constant = sample.shift[k_reg] - sample.shift.head(k_reg).dot(start_slopes) +
+                                 (intercept ? c_sample[0] / std::sqrt(sample.n) : 0.0);
+            }
+            // the sample's blocks once more, for the step from the start
+            const std::size_t keep_cursor = reader.cursor();
+            reader.restart();
+            for (Index kk = 0; kk <= k; ++kk) {
+                const Block again = reader.read(kk, B, 1, s0, ones);
+                B.col(0).head(again.rows) = Eigen::Map<const VectorXd>(again.keep, again.rows);
+                add_start_residuals(again.rows);
+            }
+            reader.set_cursor(keep_cursor);
+        }
     }
     // a NaN or infinity outside the masks: the full route words the message
     if (!reader.values_finite()) return std::nullopt;
@@ -315,36 +405,19 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     if (!raw.allFinite() || raw.maxCoeff() > 1e290) return std::nullopt;
     for (Index j = 0; j < k_reg; ++j)
         if (!(raw[j] > 1e-290)) return std::nullopt;
-    // shift t (the mean, with an intercept) and the Gram matrix about it:
-    // sum (v - t)(v - t)' = S_v + d sums' + sums d' + N d d',  d = s0 - t
-    VectorXd shift = VectorXd::Zero(m);
-    if (intercept) shift = s0 + sums / n_d;
-    const VectorXd d = s0 - shift;
-    const MatrixXd C = S_v + d * sums.transpose() + sums * d.transpose() + n_d * d * d.transpose();
-    const VectorXd centred_sums = sums + n_d * d;   // sum (v - t)
-    VectorXd scale = VectorXd::Ones(m);
+    const WorkingSystem sys = working_system(S, s0, intercept, k_reg);
+    if (!sys.usable) return std::nullopt;
+    const VectorXd& shift = sys.shift;
+    const VectorXd& scale = sys.scale;
     for (Index j = 0; j < k_reg; ++j) {
-        const double ss = C(j, j);
         // fd: a column whose differences vanish (no variation within units)
         if (fd && !(std::sqrt(raw[j]) > kLeanDropMargin * 1e-13 * std::sqrt(levels[j]))) return std::nullopt;
         // a column that centring reduces to noise (a multiple of the intercept)
-        if (!(ss > 0) || !(std::sqrt(ss) > kLeanDropMargin * 1e-13 * std::sqrt(raw[j]))) return std::nullopt;
-        scale[j] = std::sqrt(ss);
+        if (!(scale[j] > kLeanDropMargin * 1e-13 * std::sqrt(raw[j]))) return std::nullopt;
     }
     const double scale_c = std::sqrt(n_d);
-    MatrixXd G(p, p);
-    VectorXd zty(p);
-    if (intercept) {
-        G(0, 0) = 1.0;
-        for (Index j = 0; j < k_reg; ++j) G(c0 + j, 0) = G(0, c0 + j) = centred_sums[j] / (scale_c * scale[j]);
-        zty[0] = centred_sums[k_reg] / scale_c;
-    }
-    for (Index j = 0; j < k_reg; ++j) {
-        for (Index k = 0; k < k_reg; ++k) G(c0 + j, c0 + k) = C(j, k) / (scale[j] * scale[k]);
-        zty[c0 + j] = C(j, k_reg) / scale[j];
-    }
     MatrixXd R;
-    if (!gram_factor(G, R, kLeanConditionLimit)) return std::nullopt;
+    if (!gram_factor(sys.G, R, kLeanConditionLimit)) return std::nullopt;
 
     LeanResult out;
     Equation& eq = out.equation;
@@ -383,17 +456,20 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
         return VectorXd(R.triangularView<Eigen::Upper>().solve(R.transpose().triangularView<Eigen::Lower>().solve(g)));
     };
 
-    // ---- 2. solve and refine (two steps, as the solver's Gram route). The first step
-    // has a pass of its own; the second is taken in the final pass below.
-    VectorXd c = correction(zty);
+    // ---- 2. the first refinement step (corrected semi-normal equations, as the
+    // solver's Gram route) from the start, in the working basis: the start is
+    // c_j = slope_j scale_j, c_0 = sqrt(N) (constant + t_x' slopes - t_y); its gradient
+    // Z'e follows from the sums h as g_j = (h_j + (s0_j - t_j) h_0) / scale_j,
+    // g_0 = h_0 / sqrt(N).
+    VectorXd c(p);
     {
-        VectorXd g = VectorXd::Zero(p);
-        reader.restart();
-        for (Index k = 0; k < reader.blocks(); ++k) {
-            const Block blk = reader.read(k, B, 0, shift, mult);
-            residual(blk, c);
-            add_gradient(blk.rows, g);
+        VectorXd g(p);
+        c.tail(k_reg) = start_slopes.cwiseProduct(scale.head(k_reg));
+        if (intercept) {
+            c[0] = scale_c * (start_constant + shift.head(k_reg).dot(start_slopes) - shift_y);
+            g[0] = h[0] / scale_c;
         }
+        for (Index j = 0; j < k_reg; ++j) g[c0 + j] = (h[1 + j] + (s0[j] - shift[j]) * h[0]) / scale[j];
         c += correction(g);
     }
 
@@ -452,20 +528,54 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
             }
         }
         if (kind == Covariance::classical) continue;
-        // scores z_i u_i in the working basis (0 in rows of weight 0)
-        if (intercept) W.col(0).head(b) = u.head(b) / scale_c;
-        W.block(0, c0, b, k_reg) = B.topLeftCorner(b, k_reg).array().colwise() * u.head(b).array();
         if (per_row) {
+            // scores z_i u_i in the working basis (0 in rows of weight 0)
+            if (intercept) W.col(0).head(b) = u.head(b) / scale_c;
+            W.block(0, c0, b, k_reg) = B.topLeftCorner(b, k_reg).array().colwise() * u.head(b).array();
             meat.selfadjointView<Eigen::Lower>().rankUpdate(W.topRows(b).transpose());
             continue;
         }
-        // runs of rows with one id (a row of weight 0 adds a zero score wherever it goes;
-        // a row without an id is skipped)
+        // score sums over runs of rows with one id, sum z_i u_i = Z_run' u_run (a row of
+        // weight 0 adds a zero score wherever it goes; a row without an id is skipped)
         for (Index i = 0; i < b;) {
             const std::int32_t id = id_of_row[blk.input_row(i)];
             Index j = i + 1;
             while (j < b && id_of_row[blk.input_row(j)] == id) ++j;
-            if (id >= 0) group_sums.col(id) += W.middleRows(i, j - i).colwise().sum().transpose();
+            if (id >= 0) {
+                double* sum = group_sums.col(id).data();
+                const double* ui = u.data() + i;
+                const Index len = j - i;
+                if (intercept) {
+                    double t = 0;
+                    for (Index r = 0; r < len; ++r) t += ui[r];
+                    sum[0] += t / scale_c;
+                }
+                // four columns at a time: four independent sums keep the adder busy
+                Index col = 0;
+                for (; col + 4 <= k_reg; col += 4) {
+                    const double* z0 = B.col(col).data() + i;
+                    const double* z1 = B.col(col + 1).data() + i;
+                    const double* z2 = B.col(col + 2).data() + i;
+                    const double* z3 = B.col(col + 3).data() + i;
+                    double t0 = 0, t1 = 0, t2 = 0, t3 = 0;
+                    for (Index r = 0; r < len; ++r) {
+                        t0 += z0[r] * ui[r];
+                        t1 += z1[r] * ui[r];
+                        t2 += z2[r] * ui[r];
+                        t3 += z3[r] * ui[r];
+                    }
+                    sum[c0 + col] += t0;
+                    sum[c0 + col + 1] += t1;
+                    sum[c0 + col + 2] += t2;
+                    sum[c0 + col + 3] += t3;
+                }
+                for (; col < k_reg; ++col) {
+                    const double* z = B.col(col).data() + i;
+                    double t = 0;
+                    for (Index r = 0; r < len; ++r) t += z[r] * ui[r];
+                    sum[c0 + col] += t;
+                }
+            }
             i = j;
         }
     }

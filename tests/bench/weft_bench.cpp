@@ -39,6 +39,7 @@ struct WeftFit {
   std::vector<double> table;  // terms x WEFT_COEF_COLUMNS, row-major
   double panel_seconds = 0;   // copying the columns into a weft_panel
   double fit_seconds = 0;     // weft_model_new + reading the coefficient table
+  double fit_cpu = 0;         // the same in process CPU seconds
   double estimate(std::size_t t) const { return table[t * WEFT_COEF_COLUMNS + WEFT_COEF_ESTIMATE]; }
   double se(std::size_t t) const { return table[t * WEFT_COEF_COLUMNS + WEFT_COEF_SE]; }
 };
@@ -78,6 +79,7 @@ WeftFit run_weft(const SyntheticPanel& data, const std::string& model_text) {
           "weft_panel_add_regressor");
   }
   const auto fit_start = Clock::now();
+  const double fit_cpu_start = cpu_seconds();
   fit.panel_seconds = std::chrono::duration<double>(fit_start - start).count();
 
   weft_model* model = nullptr;
@@ -92,6 +94,7 @@ WeftFit run_weft(const SyntheticPanel& data, const std::string& model_text) {
   check(weft_model_coefficients(model, fit.table.data(), fit.table.size(), nullptr),
         "weft_model_coefficients");
   fit.fit_seconds = seconds_since(fit_start);
+  fit.fit_cpu = cpu_seconds() - fit_cpu_start;
   for (std::size_t t = 0; t < n_terms; ++t) {
     const char* name = nullptr;
     check(weft_model_term_name(model, t, &name), "weft_model_term_name");
@@ -300,28 +303,29 @@ struct Row {
   double input_bytes = 0;
   double floor_seconds = 0, floor_cpu = 0;
   double cpu_seconds = 0;
-  double total_seconds = 0, panel_seconds = 0, fit_seconds = 0;
+  double total_seconds = 0, panel_seconds = 0, fit_seconds = 0, fit_cpu = 0;
   double peak_bytes = -1, extra_bytes = -1;
   int reps = 0;
 };
 
 void print_header() {
-  std::printf("%-6s %-10s %8s %-6s %-9s %8s %8s %8s %7s %7s %8s %7s %8s %7s\n", "size", "layout", "rows",
-              "estim", "se", "wall_s", "cpu_s", "cpu/Mrow", "x_floor", "x_fl_cpu", "panel_s", "fit_s",
-              "peak_MiB", "peak/in");
+  std::printf("%-6s %-10s %8s %-6s %-9s %8s %8s %8s %7s %7s %8s %7s %7s %8s %7s %6s\n", "size", "layout", "rows",
+              "estim", "se", "wall_s", "cpu_s", "cpu/Mrow", "x_floor", "x_fl_cpu", "panel_s", "fit_s", "fit_fl",
+              "peak_MiB", "peak/in", "own/in");
 }
 
 void print_row(const Row& r) {
   const double millions = static_cast<double>(r.rows) / 1e6;
-  char peak[32] = "n/a", ratio[32] = "n/a";
+  char peak[32] = "n/a", ratio[32] = "n/a", own[32] = "n/a";
   if (r.peak_bytes > 0) {
     std::snprintf(peak, sizeof peak, "%.0f", r.peak_bytes / 1048576.0);
     std::snprintf(ratio, sizeof ratio, "%.2f", r.peak_bytes / r.input_bytes);
+    std::snprintf(own, sizeof own, "%.2f", r.extra_bytes / r.input_bytes);
   }
-  std::printf("%-6s %-10s %8zu %-6s %-9s %8.4f %8.4f %8.4f %7.1f %7.1f %8.4f %7.4f %8s %7s\n", r.size.c_str(),
+  std::printf("%-6s %-10s %8zu %-6s %-9s %8.4f %8.4f %8.4f %7.1f %7.1f %8.4f %7.4f %7.1f %8s %7s %6s\n", r.size.c_str(),
               r.layout.c_str(), r.rows, r.estimator.c_str(), r.se.c_str(), r.total_seconds, r.cpu_seconds,
               r.cpu_seconds / millions, r.total_seconds / r.floor_seconds, r.cpu_seconds / r.floor_cpu,
-              r.panel_seconds, r.fit_seconds, peak, ratio);
+              r.panel_seconds, r.fit_seconds, r.fit_cpu / r.floor_cpu, peak, ratio, own);
   std::fflush(stdout);
 }
 
@@ -343,6 +347,8 @@ void write_json(const std::string& path, const std::vector<Row>& rows) {
         << ", \"median_seconds\": " << json_number(r.total_seconds)
         << ", \"panel_seconds\": " << json_number(r.panel_seconds)
         << ", \"fit_seconds\": " << json_number(r.fit_seconds)
+        << ", \"fit_cpu_seconds\": " << json_number(r.fit_cpu)
+        << ", \"fit_ratio_to_floor_cpu\": " << json_number(r.fit_cpu / r.floor_cpu)
         << ", \"ratio_to_floor\": " << json_number(r.total_seconds / r.floor_seconds)
         << ", \"seconds_per_million_rows\": " << json_number(r.total_seconds / (static_cast<double>(r.rows) / 1e6))
         << ", \"peak_bytes\": " << json_number(r.peak_bytes)
@@ -378,7 +384,7 @@ int run_timings(const Options& o) {
               row.extra_bytes = probe.peak - probe.resident_before;
             }
           }
-          std::vector<double> total, cpu, panel, fit;
+          std::vector<double> total, cpu, panel, fit, fit_cpu;
           run_weft(data, model);  // warm-up, not counted
           for (int r = 0; r < reps; ++r) {
             WeftFit w;
@@ -387,11 +393,13 @@ int run_timings(const Options& o) {
             cpu.push_back(t.cpu);
             panel.push_back(w.panel_seconds);
             fit.push_back(w.fit_seconds);
+            fit_cpu.push_back(w.fit_cpu);
           }
           row.total_seconds = median(total);
           row.cpu_seconds = median(cpu);
           row.panel_seconds = median(panel);
           row.fit_seconds = median(fit);
+          row.fit_cpu = median(fit_cpu);
           row.reps = reps;
           print_row(row);
           rows.push_back(row);
@@ -402,8 +410,11 @@ int run_timings(const Options& o) {
   std::printf("wall_s, cpu_s: medians of wall-clock and process CPU seconds (columns in, fit, table out);\n"
               "cpu/Mrow: CPU seconds per million input rows (equal across sizes of one K = linear);\n"
               "x_floor, x_fl_cpu: wall and CPU time over the floor's; panel_s, fit_s: wall split into\n"
-              "copying the columns and fitting; peak/in: process high-water resident bytes during one\n"
-              "fit (input arrays included) over the input's bytes (y, X, unit, period as doubles).\n");
+              "copying the columns and fitting; fit_fl: the fit's CPU time (weft_model_new and the\n"
+              "table, the columns already in a panel) over the floor's; peak/in: process high-water\n"
+              "resident bytes during one run (the caller's input arrays included) over the input's\n"
+              "bytes (y, X, unit, period as doubles); own/in: what weft adds to the resident bytes\n"
+              "(its panel copy and the fit) over the input's bytes.\n");
   if (!o.json_path.empty()) write_json(o.json_path, rows);
   return 0;
 }
