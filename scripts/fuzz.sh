@@ -8,12 +8,15 @@
 #
 #   bash scripts/fuzz.sh                 180 s in build-fuzz/
 #   WEFT_FUZZ_SECONDS=600 bash scripts/fuzz.sh
+#   WEFT_FUZZ_SEED=1234 bash scripts/fuzz.sh   replay a run's seed (every run prints its seed)
 set -euo pipefail
 
 repo=$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)
 cd "$repo"
 build_dir=${1:-${WEFT_FUZZ_BUILD_DIR:-build-fuzz}}
 seconds=${WEFT_FUZZ_SECONDS:-180}
+# A new seed each run (so that CI keeps exploring), printed so that a failing run can be replayed.
+seed=${WEFT_FUZZ_SEED:-$(( $(od -An -N4 -tu4 /dev/urandom) % 2147483647 + 1 ))}
 jobs=${WEFT_JOBS:-2}
 
 if ! command -v clang++ >/dev/null 2>&1; then
@@ -44,14 +47,14 @@ log="$build_dir/fuzz.log"
 rc=0
 "$build_dir/tests/fuzz/weft_fuzz_cabi" \
   -max_total_time="$seconds" -timeout=10 -rss_limit_mb=2048 -max_len=4096 \
-  -print_final_stats=1 -artifact_prefix="$build_dir/artifacts/" \
+  -print_final_stats=1 -seed="$seed" -artifact_prefix="$build_dir/artifacts/" \
   "$build_dir/corpus" >"$log" 2>&1 || rc=$?
 t2=$(date +%s)
 
 grep -E '^stat::(number_of_executed_units|average_exec_per_sec|new_units_added|peak_rss_mb)' "$log" || true
-echo "fuzz: build $((t1 - t0))s, fuzzing $((t2 - t1))s, corpus $(ls "$build_dir/corpus" | wc -l) inputs"
+echo "fuzz: build $((t1 - t0))s, fuzzing $((t2 - t1))s, corpus $(ls "$build_dir/corpus" | wc -l) inputs, seed $seed"
 if [[ $rc -ne 0 ]] || compgen -G "$build_dir/artifacts/*" >/dev/null; then
-  echo "fuzz: FAILED (libFuzzer exit $rc). Report:" >&2
+  echo "fuzz: FAILED (libFuzzer exit $rc, seed $seed; replay with WEFT_FUZZ_SEED=$seed). Report:" >&2
   grep -E -A 30 'ERROR: |runtime error|==ERROR|deadly signal|Test unit written|SUMMARY' "$log" | head -80 >&2 || tail -50 "$log" >&2
   echo "fuzz: failing inputs:" >&2
   ls -l "$build_dir"/artifacts/ >&2 || true
