@@ -488,8 +488,11 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     const bool by_period = kind == Covariance::cluster_period || kind == Covariance::dk;
     const bool per_row = kind == Covariance::hc0 || kind == Covariance::hc1;
     const std::size_t groups = by_unit ? in.index.n_units() : in.index.n_periods();
-    MatrixXd group_sums;   // p x groups: score sums per unit or per grid period
-    if (by_unit || by_period) group_sums = MatrixXd::Zero(p, static_cast<Index>(groups));
+    MatrixXd group_sums;   // p x groups: score sums per unit
+    MatrixXd period_sums;  // groups x p: score sums per grid period
+    if (by_unit) group_sums = MatrixXd::Zero(p, static_cast<Index>(groups));
+    if (by_period) period_sums = MatrixXd::Zero(static_cast<Index>(groups), p);
+    std::vector<std::int32_t> ids(static_cast<std::size_t>(block));
     const std::int32_t* id_of_row = by_unit ? in.index.unit_of_row.data() : in.index.period_of_row.data();
     MatrixXd meat = MatrixXd::Zero(p, p);
     MatrixXd W(block, p);
@@ -533,6 +536,22 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
             if (intercept) W.col(0).head(b) = u.head(b) / scale_c;
             W.block(0, c0, b, k_reg) = B.topLeftCorner(b, k_reg).array().colwise() * u.head(b).array();
             meat.selfadjointView<Eigen::Lower>().rankUpdate(W.topRows(b).transpose());
+            continue;
+        }
+        if (by_period) {
+            // few groups (the grid periods), rows of one period seldom adjacent: add
+            // each row's score into its period's sum, column by column
+            double* sums_t = period_sums.data();
+            for (Index i = 0; i < b; ++i) ids[static_cast<std::size_t>(i)] = id_of_row[blk.input_row(i)];
+            for (Index col = -c0; col < k_reg; ++col) {
+                double* target = sums_t + (col + c0) * static_cast<Index>(groups);
+                const double* z = col >= 0 ? B.col(col).data() : nullptr;
+                for (Index i = 0; i < b; ++i) {
+                    const std::int32_t id = ids[static_cast<std::size_t>(i)];
+                    if (id < 0) continue;
+                    target[id] += (z != nullptr ? z[i] : 1.0 / scale_c) * u[i];
+                }
+            }
             continue;
         }
         // score sums over runs of rows with one id, sum z_i u_i = Z_run' u_run (a row of
@@ -603,15 +622,19 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     int lag = -1;
     if (per_row) {
         meat = meat.selfadjointView<Eigen::Lower>();
-    } else if (by_unit || kind == Covariance::cluster_period) {
-        clusters = by_unit ? eq.n_units : eq.n_periods;
+    } else if (by_unit) {
+        clusters = eq.n_units;
         if (clusters < 2) return std::nullopt;
         meat = group_sums * group_sums.transpose();
+    } else if (kind == Covariance::cluster_period) {
+        clusters = eq.n_periods;
+        if (clusters < 2) return std::nullopt;
+        meat = period_sums.transpose() * period_sums;
     } else if (kind == Covariance::dk) {
         clusters = eq.n_periods;
         if (clusters < 2) return std::nullopt;
         lag = spec.dk_lag < 0 ? dk_default_lag(clusters) : spec.dk_lag;
-        meat = dk_meat(group_sums.transpose(), lag);
+        meat = dk_meat(period_sums, lag);
     }
     out.covariance = covariance_from_meat(eq, kind, meat, clusters, lag);
     return out;
