@@ -69,10 +69,9 @@ bool is_blank(const Any& a) {
     }
 }
 
-Cell to_cell(const Any& a) {
-    Cell c;
-    switch (a.getValueTypeClass()) {
-    case css::uno::TypeClass_DOUBLE:
+// Numeric type classes other than double (cells pass doubles; an API caller may not).
+bool other_number_class(css::uno::TypeClass t) {
+    switch (t) {
     case css::uno::TypeClass_FLOAT:
     case css::uno::TypeClass_LONG:
     case css::uno::TypeClass_SHORT:
@@ -80,14 +79,25 @@ Cell to_cell(const Any& a) {
     case css::uno::TypeClass_BYTE:
     case css::uno::TypeClass_UNSIGNED_LONG:
     case css::uno::TypeClass_UNSIGNED_SHORT:
-    case css::uno::TypeClass_UNSIGNED_HYPER: {
+    case css::uno::TypeClass_UNSIGNED_HYPER:
+        return true;
+    default:
+        return false;
+    }
+}
+
+Cell to_cell(const Any& a) {
+    Cell c;
+    const css::uno::TypeClass type = a.getValueTypeClass();
+    if (type == css::uno::TypeClass_DOUBLE || other_number_class(type)) {
         double v = 0.0;
         if (a >>= v) {
             c.kind = Cell::Kind::number;
             c.number = v;
         }
-        break;
+        return c;
     }
+    switch (type) {
     case css::uno::TypeClass_BOOLEAN: {
         bool b = false;
         a >>= b;
@@ -222,17 +232,8 @@ CellTag cell_tag(const Any& a) {
         return CellTag::boolean;
     case css::uno::TypeClass_VOID:
         return CellTag::none;
-    case css::uno::TypeClass_FLOAT:
-    case css::uno::TypeClass_LONG:
-    case css::uno::TypeClass_SHORT:
-    case css::uno::TypeClass_HYPER:
-    case css::uno::TypeClass_BYTE:
-    case css::uno::TypeClass_UNSIGNED_LONG:
-    case css::uno::TypeClass_UNSIGNED_SHORT:
-    case css::uno::TypeClass_UNSIGNED_HYPER:
-        return CellTag::other_number;
     default:
-        return CellTag::other;
+        return other_number_class(a.getValueTypeClass()) ? CellTag::other_number : CellTag::other;
     }
 }
 
