@@ -82,10 +82,10 @@ extern "C" {
 /** Version of this header. WEFT_VERSION_NUMBER = major * 10000 + minor * 100 +
  *  patch. Compare with weft_version_number() to detect a header/library mismatch. */
 #define WEFT_VERSION_MAJOR 0
-#define WEFT_VERSION_MINOR 1
+#define WEFT_VERSION_MINOR 2
 #define WEFT_VERSION_PATCH 0
-#define WEFT_VERSION_NUMBER 100
-#define WEFT_VERSION "0.1.0"
+#define WEFT_VERSION_NUMBER 200
+#define WEFT_VERSION "0.2.0"
 
 /** The library's version number, same encoding as WEFT_VERSION_NUMBER. Never
  *  fails. */
@@ -274,6 +274,21 @@ WEFT_API int weft_panel_set_outcome(weft_panel *panel, const char *name,
  *  Errors: WEFT_EINVAL if panel or values is NULL. */
 WEFT_API int weft_panel_add_regressor(weft_panel *panel, const char *name,
                                       const double *values, const unsigned char *missing);
+
+/** Borrowing instead of copying, for large data (since 0.2.0): the same as
+ *  weft_panel_set_periods, weft_panel_set_outcome and weft_panel_add_regressor,
+ *  except that the panel reads the caller's arrays (values and, when not NULL,
+ *  missing; n_rows entries each) in place instead of copying them. The caller keeps
+ *  both arrays valid and unchanged until weft_panel_free() of this panel and
+ *  weft_model_free() of every model made from it: a model may read them again (a
+ *  test that refits). Results never depend on whether a column was borrowed.
+ *  Errors: as the copying function of the same column. */
+WEFT_API int weft_panel_borrow_periods(weft_panel *panel, const double *periods,
+                                       const unsigned char *missing);
+WEFT_API int weft_panel_borrow_outcome(weft_panel *panel, const char *name,
+                                       const double *values, const unsigned char *missing);
+WEFT_API int weft_panel_borrow_regressor(weft_panel *panel, const char *name,
+                                         const double *values, const unsigned char *missing);
 
 /* ------------------------------------------------------------------------------
  * Panel structure report (WEFT.PANEL)

@@ -82,6 +82,57 @@ weft::PeriodIndicators indicators(const weft_panel* panel, int omit_first, const
 
 }  // namespace
 
+namespace {
+
+// A column copied from, or borrowed from, the caller's arrays.
+weft::Column take_column(const char* name, const double* values, const unsigned char* missing, std::size_t n,
+                         bool borrow) {
+    if (borrow) return weft::Column::borrow(name, values, missing, n);
+    return copy_column(name, values, missing, n);
+}
+
+int set_periods(weft_panel* panel, const double* periods, const unsigned char* missing, const char* fn,
+                bool borrow) {
+    return guarded(WEFT_EDATA, [&] {
+        weft_panel& p = check_panel(panel, fn);
+        require(periods, fn, "periods");
+        require_unset(p.has_periods, fn, "periods");
+        p.writable().periods = take_column("periods", periods, missing, p.n_rows, borrow);
+        p.has_periods = true;
+        return WEFT_OK;
+    });
+}
+
+int set_outcome(weft_panel* panel, const char* name, const double* values, const unsigned char* missing,
+                const char* fn, bool borrow) {
+    return guarded(WEFT_EDATA, [&] {
+        weft_panel& p = check_panel(panel, fn);
+        require(values, fn, "values");
+        if (p.has_outcome)
+            fail(WEFT_EINVAL, std::string(fn) +
+                                  ": the outcome is already set on this panel; make a new panel for another outcome");
+        p.writable().outcome =
+            take_column(name != nullptr && *name != '\0' ? name : "y", values, missing, p.n_rows, borrow);
+        p.has_outcome = true;
+        return WEFT_OK;
+    });
+}
+
+int add_regressor(weft_panel* panel, const char* name, const double* values, const unsigned char* missing,
+                  const char* fn, bool borrow) {
+    return guarded(WEFT_EDATA, [&] {
+        weft_panel& p = check_panel(panel, fn);
+        require(values, fn, "values");
+        weft::PanelData& data = p.writable();
+        std::string term = name != nullptr ? name : "";
+        if (term.empty()) term = "x" + std::to_string(data.regressors.size() + 1);
+        data.regressors.push_back(take_column(term.c_str(), values, missing, p.n_rows, borrow));
+        return WEFT_OK;
+    });
+}
+
+}  // namespace
+
 extern "C" {
 
 int weft_panel_new(weft_panel** out, size_t n_rows, size_t first_row) {
@@ -147,47 +198,32 @@ int weft_panel_set_units_number(weft_panel* panel, const double* ids,
     });
 }
 
-int weft_panel_set_periods(weft_panel* panel, const double* periods,
-                           const unsigned char* missing) {
-    return guarded(WEFT_EDATA, [&] {
-        const char* fn = "weft_panel_set_periods";
-        weft_panel& p = check_panel(panel, fn);
-        require(periods, fn, "periods");
-        require_unset(p.has_periods, fn, "periods");
-        p.writable().periods = copy_column("periods", periods, missing, p.n_rows);
-        p.has_periods = true;
-        return WEFT_OK;
-    });
+int weft_panel_set_periods(weft_panel* panel, const double* periods, const unsigned char* missing) {
+    return set_periods(panel, periods, missing, "weft_panel_set_periods", false);
+}
+
+int weft_panel_borrow_periods(weft_panel* panel, const double* periods, const unsigned char* missing) {
+    return set_periods(panel, periods, missing, "weft_panel_borrow_periods", true);
 }
 
 int weft_panel_set_outcome(weft_panel* panel, const char* name, const double* values,
                            const unsigned char* missing) {
-    return guarded(WEFT_EDATA, [&] {
-        const char* fn = "weft_panel_set_outcome";
-        weft_panel& p = check_panel(panel, fn);
-        require(values, fn, "values");
-        if (p.has_outcome)
-            fail(WEFT_EINVAL, std::string(fn) +
-                                  ": the outcome is already set on this panel; make a new panel for another outcome");
-        p.writable().outcome =
-            copy_column(name != nullptr && *name != '\0' ? name : "y", values, missing, p.n_rows);
-        p.has_outcome = true;
-        return WEFT_OK;
-    });
+    return set_outcome(panel, name, values, missing, "weft_panel_set_outcome", false);
+}
+
+int weft_panel_borrow_outcome(weft_panel* panel, const char* name, const double* values,
+                              const unsigned char* missing) {
+    return set_outcome(panel, name, values, missing, "weft_panel_borrow_outcome", true);
 }
 
 int weft_panel_add_regressor(weft_panel* panel, const char* name, const double* values,
                              const unsigned char* missing) {
-    return guarded(WEFT_EDATA, [&] {
-        const char* fn = "weft_panel_add_regressor";
-        weft_panel& p = check_panel(panel, fn);
-        require(values, fn, "values");
-        weft::PanelData& data = p.writable();
-        std::string term = name != nullptr ? name : "";
-        if (term.empty()) term = "x" + std::to_string(data.regressors.size() + 1);
-        data.regressors.push_back(copy_column(term.c_str(), values, missing, p.n_rows));
-        return WEFT_OK;
-    });
+    return add_regressor(panel, name, values, missing, "weft_panel_add_regressor", false);
+}
+
+int weft_panel_borrow_regressor(weft_panel* panel, const char* name, const double* values,
+                                const unsigned char* missing) {
+    return add_regressor(panel, name, values, missing, "weft_panel_borrow_regressor", true);
 }
 
 int weft_panel_structure(const weft_panel* panel, weft_structure* out) {
@@ -232,7 +268,7 @@ int weft_panel_period_grid(const weft_panel* panel, double* buf, size_t capacity
         std::vector<double> grid;
         grid.reserve(panel->n_rows);
         for (std::size_t i = 0; i < panel->n_rows; ++i)
-            if (!d.units.is_missing(i) && !d.periods.is_missing(i)) grid.push_back(d.periods.values[i]);
+            if (!d.units.is_missing(i) && !d.periods.is_missing(i)) grid.push_back(d.periods.value(i));
         std::sort(grid.begin(), grid.end());
         grid.erase(std::unique(grid.begin(), grid.end()), grid.end());
         if (!buffer_ready(fn, buf, capacity, needed, grid.size())) return WEFT_OK;

@@ -168,11 +168,11 @@ public:
             keep_.assign(static_cast<std::size_t>(block), 1.0);
         }
         for (const Column& x : in.data.regressors) {
-            columns_.push_back(x.values.data());
-            masks_.push_back(x.missing.empty() ? nullptr : x.missing.data());
+            columns_.push_back(x.data());
+            masks_.push_back(x.mask());
         }
-        columns_.push_back(in.data.outcome.values.data());
-        masks_.push_back(in.data.outcome.missing.empty() ? nullptr : in.data.outcome.missing.data());
+        columns_.push_back(in.data.outcome.data());
+        masks_.push_back(in.data.outcome.mask());
     }
 
     Index width() const { return static_cast<Index>(columns_.size()); }
@@ -207,6 +207,7 @@ public:
             for (Index c = 0; c < width(); ++c) {
                 const double* x = columns_[static_cast<std::size_t>(c)];
                 if (check_values && finite_) finite_ = finite_block(c, a, b);
+                prefetch_next(x, a + static_cast<std::size_t>(b));
                 // a > 0 for fd: the first equation row has its earlier row before it
                 double squares = 0;
                 kept_column(x + a, fd_ ? x + a - 1 : nullptr, blk.keep, shift[c], mult[c], out.col(col0 + c).data(), b,
@@ -243,6 +244,15 @@ public:
 
 private:
     bool sorted() const { return in_.is_row != nullptr; }
+
+    // Ask for the start of the next block of a column ahead of time, every
+    // kPrefetchStride values: hardware prefetchers stop at each 4 KiB page of a host's
+    // array, so a column read in blocks otherwise waits at every page it enters.
+    void prefetch_next(const double* x, std::size_t from) const {
+        const std::size_t end = std::min(hi_, from + static_cast<std::size_t>(block_));
+        for (std::size_t r = from; r < end; r += kPrefetchStride) __builtin_prefetch(x + r, 0, 1);
+    }
+    static constexpr std::size_t kPrefetchStride = 8;    // every 64-byte line
 
     // dest[i] = ((now[i] - before[i]) - shift) * mult where keep[i] != 0, else 0 (a
     // select, not a product: a missing cell may hold any value, NaN included); before
@@ -505,12 +515,11 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
         const Index b = blk.rows;
         residual(blk, c);
         add_gradient(b, g);
-        const double* y_block = B.col(k_reg).data();
-        for (Index i = 0; i < b; ++i) {
-            ssr += static_cast<long double>(u[i]) * u[i];
-            y_sum += y_block[i];
-            y_squares += static_cast<long double>(y_block[i]) * y_block[i];
-        }
+        // per block in double (vectorised; a block's sum of 2,048 squares loses at most
+        // a few units in the 14th digit), across blocks in long double
+        ssr += static_cast<long double>(u.head(b).squaredNorm());
+        y_sum += static_cast<long double>(B.col(k_reg).head(b).sum());
+        y_squares += static_cast<long double>(B.col(k_reg).head(b).squaredNorm());
         if (blk.input == nullptr) {
             // consecutive input rows; rows of weight 0 have u = 0 and stay undefined
             const Eigen::Map<const Eigen::ArrayXd> keep(blk.keep, b);

@@ -42,7 +42,7 @@ struct Context {
     std::size_t k_reg = 0;
 };
 
-double value(const Column& column, std::size_t row) { return column.values[row]; }
+double value(const Column& column, std::size_t row) { return column.value(row); }
 
 // Equation rows of pooled / within / random: the used rows, in unit-period order.
 std::vector<std::size_t> used_rows_in_order(const Context& ctx) {
@@ -431,8 +431,9 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     assign_large(used, n_rows, std::uint8_t{0});
     for (std::size_t i = 0; i < n_rows; ++i) used[i] = index.unit_of_row[i] >= 0 ? 1 : 0;
     auto drop_missing = [&](const Column& c) {
-        if (c.missing.empty()) return;
-        for (std::size_t i = 0; i < n_rows; ++i) used[i] &= static_cast<std::uint8_t>(c.missing[i] == 0);
+        const std::uint8_t* mask = c.mask();
+        if (mask == nullptr) return;
+        for (std::size_t i = 0; i < n_rows; ++i) used[i] &= static_cast<std::uint8_t>(mask[i] == 0);
     };
     drop_missing(data.outcome);
     for (const Column& x : data.regressors) drop_missing(x);
@@ -444,8 +445,9 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     if (rows_used == 0) {
         // name a column that is missing in every row: that is usually the mistake
         auto all_missing = [&](const Column& c) {
-            return n_rows > 0 && c.missing.size() == n_rows &&
-                   std::all_of(c.missing.begin(), c.missing.end(), [](std::uint8_t m) { return m != 0; });
+            const std::uint8_t* mask = c.mask();
+            return n_rows > 0 && mask != nullptr && c.mask_size() == n_rows &&
+                   std::all_of(mask, mask + n_rows, [](std::uint8_t m) { return m != 0; });
         };
         std::string culprit;
         if (all_missing(data.outcome)) culprit = "the outcome";
@@ -858,14 +860,14 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
             for (std::size_t j = 0; j < ctx.k_reg && !found; ++j) {
                 if (ctx.regressor_names[j] != term) continue;
                 found = true;
-                for (std::size_t r = 0; r < rows.size(); ++r) xb[r] += bk * data.regressors[j].values[rows[r]];
+                for (std::size_t r = 0; r < rows.size(); ++r) xb[r] += bk * data.regressors[j].value(rows[r]);
             }
             if (!found) {
                 for (std::size_t r = 0; r < rows.size(); ++r)
                     if (period_term(index, index.period_of_row[rows[r]]) == term) xb[r] += bk;
             }
         }
-        for (std::size_t r = 0; r < rows.size(); ++r) yl[r] = data.outcome.values[rows[r]];
+        for (std::size_t r = 0; r < rows.size(); ++r) yl[r] = data.outcome.value(rows[r]);
         fit.r2_overall = finite_or_empty(squared_correlation(yl, xb));
         std::vector<long double> ym(runs.begin.size()), xm(runs.begin.size());
         std::vector<long double> yd(rows.size()), xd(rows.size());

@@ -59,24 +59,24 @@ void check_length(std::size_t expected, const char* expected_what, std::size_t g
 
 void check_column_shape(const Column& column, std::size_t n_rows, const char* expected_what,
                         const std::string& what) {
-    check_length(n_rows, expected_what, column.values.size(), what);
-    if (!column.missing.empty() && column.missing.size() != column.values.size())
-        throw Error(what + ": the missing-value mask has " + std::to_string(column.missing.size()) +
-                    " entries for " + std::to_string(column.values.size()) + " rows");
+    check_length(n_rows, expected_what, column.size(), what);
+    if (column.mask_size() != 0 && column.mask_size() != column.size())
+        throw Error(what + ": the missing-value mask has " + std::to_string(column.mask_size()) +
+                    " entries for " + std::to_string(column.size()) + " rows");
 }
 
 void check_column(const Column& column, std::size_t n_rows, const char* expected_what,
                   const std::string& what, std::size_t first_row_number) {
     check_column_shape(column, n_rows, expected_what, what);
     // every value finite: one vectorised test (the common case); else find the row
-    if (column.missing.empty() &&
-        Eigen::Map<const Eigen::ArrayXd>(column.values.data(), static_cast<Eigen::Index>(column.values.size()))
+    if (column.mask() == nullptr &&
+        Eigen::Map<const Eigen::ArrayXd>(column.data(), static_cast<Eigen::Index>(column.size()))
             .isFinite()
             .all())
         return;
-    for (std::size_t i = 0; i < column.values.size(); ++i) {
+    for (std::size_t i = 0; i < column.size(); ++i) {
         if (column.is_missing(i)) continue;
-        if (!std::isfinite(column.values[i]))
+        if (!std::isfinite(column.value(i)))
             throw Error(what + ", row " + std::to_string(first_row_number + i) +
                         ": the value is not a finite number (NaN or infinity); leave the cell "
                         "blank or enter a number");
@@ -115,7 +115,7 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
         if (periods != nullptr && periods->is_missing(i)) continue;
         rows.push_back(i);
     }
-    auto period_of = [&](std::size_t i) { return periods != nullptr ? periods->values[i] : 0.0; };
+    auto period_of = [&](std::size_t i) { return periods != nullptr ? periods->value(i) : 0.0; };
     if (units.is_text()) {
         auto less = [&](std::size_t a, std::size_t b) {
             const int c = units.text[a].compare(units.text[b]);
@@ -173,11 +173,22 @@ PanelIndex make_index(const UnitColumn& units, const Column& periods, std::size_
     {
         double last = std::numeric_limits<double>::quiet_NaN();
         bool many = false;
+        std::size_t hint = 0;  // grid position of the last period seen
         for (std::size_t i : rows) {
-            const double p = periods.values[i];
+            const double p = periods.value(i);
             if (p == last) continue;
             last = p;
+            // rows of a unit come in period order: the next grid period, or the first
+            if (hint + 1 < grid.size() && grid[hint + 1] == p) {
+                ++hint;
+                continue;
+            }
+            if (!grid.empty() && grid[0] == p) {
+                hint = 0;
+                continue;
+            }
             auto it = std::lower_bound(grid.begin(), grid.end(), p);
+            hint = static_cast<std::size_t>(it - grid.begin());
             if (it != grid.end() && *it == p) continue;
             if (grid.size() >= 4096) {
                 many = true;
@@ -188,7 +199,7 @@ PanelIndex make_index(const UnitColumn& units, const Column& periods, std::size_
         if (many) {
             grid.clear();
             grid.reserve(rows.size());
-            for (std::size_t i : rows) grid.push_back(periods.values[i]);
+            for (std::size_t i : rows) grid.push_back(periods.value(i));
             std::sort(grid.begin(), grid.end());
             grid.erase(std::unique(grid.begin(), grid.end()), grid.end());
         }
@@ -199,7 +210,7 @@ PanelIndex make_index(const UnitColumn& units, const Column& periods, std::size_
     for (std::size_t u = 0; u + 1 < index.unit_start.size(); ++u) {
         std::size_t g = 0;
         for (std::size_t k = index.unit_start[u]; k < index.unit_start[u + 1]; ++k) {
-            const double p = periods.values[rows[k]];
+            const double p = periods.value(rows[k]);
             if (index.grid[g] > p) g = 0;  // guard only: rows are sorted by period
             while (index.grid[g] < p) ++g;
             index.period_of_row[rows[k]] = static_cast<std::int32_t>(g);
@@ -209,10 +220,10 @@ PanelIndex make_index(const UnitColumn& units, const Column& periods, std::size_
     std::size_t duplicates = 0;
     for (std::size_t k = 0; k < rows.size(); ++k) {
         const std::size_t i = rows[k];
-        const double p = periods.values[i];
+        const double p = periods.value(i);
         if (k > 0) {
             const std::size_t prev = rows[k - 1];
-            if (index.unit_of_row[prev] == index.unit_of_row[i] && periods.values[prev] == p) {
+            if (index.unit_of_row[prev] == index.unit_of_row[i] && periods.value(prev) == p) {
                 ++duplicates;
                 if (reject_duplicates)
                     throw Error("unit \"" + index.unit_labels[static_cast<std::size_t>(index.unit_of_row[i])] +

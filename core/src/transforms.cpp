@@ -53,7 +53,7 @@ Series lag(const Column& values, const PanelIndex& index, int k) {
                     if (p < target) break;
                     if (p == target) {
                         if (!values.is_missing(other)) {
-                            out.value[row] = values.values[other];
+                            out.value[row] = values.value(other);
                             out.defined[row] = 1;
                         }
                         break;
@@ -66,7 +66,7 @@ Series lag(const Column& values, const PanelIndex& index, int k) {
                     if (p > target) break;
                     if (p == target) {
                         if (!values.is_missing(other)) {
-                            out.value[row] = values.values[other];
+                            out.value[row] = values.value(other);
                             out.defined[row] = 1;
                         }
                         break;
@@ -83,7 +83,7 @@ Series difference(const Column& values, const PanelIndex& index, int k) {
     Series out = lag(values, index, k);
     for (std::size_t i = 0; i < index.n_rows; ++i) {
         if (out.defined[i] && usable(values, index, i)) {
-            out.value[i] = values.values[i] - out.value[i];
+            out.value[i] = values.value(i) - out.value[i];
         } else {
             out.value[i] = 0.0;
             out.defined[i] = 0;
@@ -101,7 +101,7 @@ Series unit_means(const Column& values, const PanelIndex& index) {
         for (std::size_t j = index.unit_start[u]; j < index.unit_start[u + 1]; ++j) {
             const std::size_t row = index.rows_by_unit[j];
             if (values.is_missing(row)) continue;
-            sum += values.values[row];
+            sum += values.value(row);
             ++count;
         }
         if (count == 0) continue;
@@ -119,7 +119,7 @@ Series unit_means(const Column& values, const PanelIndex& index) {
 Series demean(const Column& values, const PanelIndex& index) {
     Series out = unit_means(values, index);
     for (std::size_t i = 0; i < index.n_rows; ++i)
-        if (out.defined[i]) out.value[i] = values.values[i] - out.value[i];
+        if (out.defined[i]) out.value[i] = values.value(i) - out.value[i];
     return out;
 }
 
@@ -131,7 +131,7 @@ Series quasi_demean(const Column& values, const PanelIndex& index,
     Series out = unit_means(values, index);
     for (std::size_t i = 0; i < index.n_rows; ++i)
         if (out.defined[i])
-            out.value[i] = values.values[i] -
+            out.value[i] = values.value(i) -
                            theta_by_unit[static_cast<std::size_t>(index.unit_of_row[i])] * out.value[i];
     return out;
 }
@@ -161,7 +161,7 @@ PeriodIndicators period_indicators(const Column& periods, bool omit_first,
     detail::check_column(periods, periods.size(), "periods", "periods", first_row_number);
     std::vector<double> grid;
     for (std::size_t i = 0; i < periods.size(); ++i)
-        if (!periods.is_missing(i)) grid.push_back(periods.values[i]);
+        if (!periods.is_missing(i)) grid.push_back(periods.value(i));
     std::sort(grid.begin(), grid.end());
     grid.erase(std::unique(grid.begin(), grid.end()), grid.end());
     PeriodIndicators out;
@@ -177,7 +177,7 @@ PeriodIndicators period_indicators(const Column& periods, bool omit_first,
     for (std::size_t i = 0; i < periods.size(); ++i) {
         if (periods.is_missing(i)) continue;
         const std::size_t g = static_cast<std::size_t>(
-            std::lower_bound(grid.begin(), grid.end(), periods.values[i]) - grid.begin());
+            std::lower_bound(grid.begin(), grid.end(), periods.value(i)) - grid.begin());
         for (std::size_t c = 0; c < out.columns.size(); ++c) {
             out.columns[c].defined[i] = 1;
             out.columns[c].value[i] = (c + first == g) ? 1.0 : 0.0;

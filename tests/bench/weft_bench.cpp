@@ -57,9 +57,13 @@ const unsigned char* mask_or_null(const std::vector<unsigned char>& mask) {
   return mask.empty() ? nullptr : mask.data();
 }
 
+// Whether the columns are copied into the panel (weft_panel_set_* / add_regressor) or
+// borrowed in place (weft_panel_borrow_*, the default: a host that keeps its arrays).
+bool g_copy_columns = false;
+
 // The whole path a host takes on a recalculation: columns in, model fitted,
 // coefficient table out.
-WeftFit run_weft(const SyntheticPanel& data, const std::string& model_text) {
+WeftFit run_weft(const SyntheticPanel& data, const std::string& model_text, bool copy = g_copy_columns) {
   WeftFit fit;
   const auto start = Clock::now();
   weft_panel* panel = nullptr;
@@ -69,13 +73,16 @@ WeftFit run_weft(const SyntheticPanel& data, const std::string& model_text) {
     ~PanelGuard() { weft_panel_free(p); }
   } panel_guard{panel};
   check(weft_panel_set_units_number(panel, data.unit.data(), nullptr), "weft_panel_set_units_number");
-  check(weft_panel_set_periods(panel, data.period.data(), nullptr), "weft_panel_set_periods");
-  check(weft_panel_set_outcome(panel, "y", data.outcome(), mask_or_null(data.outcome_missing)),
+  check((copy ? weft_panel_set_periods : weft_panel_borrow_periods)(panel, data.period.data(), nullptr),
+        "weft_panel_set_periods");
+  check((copy ? weft_panel_set_outcome : weft_panel_borrow_outcome)(panel, "y", data.outcome(),
+                                                                   mask_or_null(data.outcome_missing)),
         "weft_panel_set_outcome");
   for (std::size_t k = 0; k < data.regressors; ++k) {
     const std::string name = "x" + std::to_string(k + 1);
     const unsigned char* missing = (k == 0) ? mask_or_null(data.regressor_missing) : nullptr;
-    check(weft_panel_add_regressor(panel, name.c_str(), data.regressor(k), missing),
+    check((copy ? weft_panel_add_regressor : weft_panel_borrow_regressor)(panel, name.c_str(), data.regressor(k),
+                                                                          missing),
           "weft_panel_add_regressor");
   }
   const auto fit_start = Clock::now();
@@ -152,13 +159,15 @@ void usage() {
   std::puts(
       "usage: weft_bench [--sizes 100k,1M] [--estimators pooled,fd,within]\n"
       "                  [--se classical,hc1,cluster,dk] [--layouts balanced,unbalanced]\n"
-      "                  [--reps N] [--no-memory] [--json FILE]\n"
+      "                  [--reps N] [--no-memory] [--copy] [--json FILE]\n"
       "       weft_bench --smoke          checks only (seconds; used by ctest, label bench)\n"
       "       weft_bench --write-csv FILE [--sizes S] [--layouts L]   write one dataset\n"
       "       weft_bench --read-csv FILE [--model \"fd cluster\"] [--reps N] [--json FILE]\n"
       "sizes: smoke (60x6, K=3), 100k (10,000 units x 10 periods, K=5),\n"
       "       1M (50,000 x 20, K=20), 1Mk5 (100,000 x 10, K=5: the linear-scaling\n"
-      "       partner of 100k), or UNITSxPERIODSxK. Default: 100k,1Mk5,1M");
+      "       partner of 100k), or UNITSxPERIODSxK. Default: 100k,1Mk5,1M\n"
+      "--copy: copy the columns into the panel (weft_panel_set_*) instead of borrowing\n"
+      "       them in place (weft_panel_borrow_*, the default)");
 }
 
 Options parse_options(int argc, char** argv) {
@@ -183,6 +192,7 @@ Options parse_options(int argc, char** argv) {
       }
     } else if (arg == "--reps") o.reps = std::stoi(value());
     else if (arg == "--no-memory") o.memory = false;
+    else if (arg == "--copy") g_copy_columns = true;
     else if (arg == "--json") o.json_path = value();
     else if (arg == "--smoke") o.smoke = true;
     else if (arg == "--write-csv") o.write_csv_path = value();
@@ -258,6 +268,8 @@ int run_smoke() {
                        model + ": unbalanced vs balanced with those rows blank");
       checker.same_fit(u, run_weft(pad_with_unusable_rows(unbalanced, 9), model), same,
                        model + ": unbalanced vs unbalanced plus unusable rows");
+      checker.same_fit(u, run_weft(unbalanced, model, !g_copy_columns), 0,
+                       model + ": borrowed vs copied columns");
     }
   }
 

@@ -1194,6 +1194,64 @@ static void test_model_misuse(const grunfeld *g)
     weft_panel_free(p);
 }
 
+/* Borrowed columns (weft_panel_borrow_*): read in place, the same results as copied
+ * columns, and still read by a model after its panel is freed (a refitting test). */
+static void test_borrowed(const grunfeld *g)
+{
+    weft_panel *p = NULL, *copied;
+    weft_model *m = NULL, *mc;
+    weft_hetero_result h, hc;
+    double table[3 * WEFT_COEF_COLUMNS], table_c[3 * WEFT_COEF_COLUMNS];
+    unsigned char mask[MAX_ROWS];
+    const char *const texts[] = {"pooled cluster", "fd cluster", "within cluster", "pooled hc1"};
+    size_t t, i;
+
+    memset(mask, 0, sizeof mask);
+    mask[7] = 1;
+    OK(weft_panel_new(&p, g->n, 2));
+    OK(weft_panel_set_units_number(p, g->firm, NULL));
+    OK(weft_panel_borrow_periods(p, g->year, NULL));
+    OK(weft_panel_borrow_outcome(p, "inv", g->inv, mask));
+    OK(weft_panel_borrow_regressor(p, "value", g->value, NULL));
+    OK(weft_panel_borrow_regressor(p, "capital", g->capital, NULL));
+    EXPECT_ERROR(weft_panel_borrow_outcome(p, "inv", g->inv, NULL), WEFT_EINVAL, "already set");
+    EXPECT_ERROR(weft_panel_borrow_regressor(p, "x", NULL, NULL), WEFT_EINVAL, "values is NULL");
+    EXPECT_ERROR(weft_panel_borrow_periods(p, g->year, NULL), WEFT_EINVAL, "periods");
+    EXPECT_ERROR(weft_panel_borrow_periods(NULL, g->year, NULL), WEFT_EINVAL, "panel is NULL");
+    copied = make_panel(g, 0, NULL, mask);
+    for (t = 0; t < sizeof texts / sizeof texts[0]; ++t) {
+        m = fit_text(p, texts[t]);
+        mc = fit_text(copied, texts[t]);
+        OK(weft_model_coefficients(m, table, 3 * WEFT_COEF_COLUMNS, NULL));
+        OK(weft_model_coefficients(mc, table_c, 3 * WEFT_COEF_COLUMNS, NULL));
+        for (i = 0; i < 2 * WEFT_COEF_COLUMNS; ++i) CHECK(table[i] == table_c[i] || (isnan(table[i]) && isnan(table_c[i])));
+        weft_model_free(m);
+        weft_model_free(mc);
+    }
+    weft_panel_free(copied);
+    /* Without the masked row the pooled model is the reference's: P results.coef.capital. */
+    weft_panel_free(p);
+    OK(weft_panel_new(&p, g->n, 2));
+    OK(weft_panel_set_units_number(p, g->firm, NULL));
+    OK(weft_panel_borrow_periods(p, g->year, NULL));
+    OK(weft_panel_borrow_outcome(p, "inv", g->inv, NULL));
+    OK(weft_panel_borrow_regressor(p, "value", g->value, NULL));
+    OK(weft_panel_borrow_regressor(p, "capital", g->capital, NULL));
+    m = fit_text(p, "pooled cluster");
+    weft_panel_free(p); /* the model keeps reading the borrowed arrays */
+    NEAR(value_of(m, "estimate", "capital"), 0.23067848873197, "P results.coef.capital");
+    NEAR(value_of(m, "se", "capital"), 0.08496711263554, "P results.se.CR1.capital");
+    OK(weft_test_hetero(m, WEFT_HETERO_KOENKER, &h));
+    NEAR(h.lm, 55.2470842121668, "P heteroskedasticity.koenker_LM.stat");
+    copied = make_panel(g, 0, NULL, NULL);
+    mc = fit_text(copied, "pooled cluster");
+    OK(weft_test_hetero(mc, WEFT_HETERO_KOENKER, &hc));
+    CHECK(h.lm == hc.lm && h.f == hc.f);
+    weft_model_free(mc);
+    weft_panel_free(copied);
+    weft_model_free(m);
+}
+
 int main(int argc, char **argv)
 {
     static grunfeld g;
@@ -1212,6 +1270,7 @@ int main(int argc, char **argv)
     test_within_random(&g);
     test_units_masks_and_rows(&g);
     test_model_misuse(&g);
+    test_borrowed(&g);
     printf("c_consumer: %d checks, %d failed\n", checks, failures);
     return failures == 0 ? 0 : 1;
 }

@@ -34,8 +34,38 @@ struct Column {
     std::vector<double> values;
     std::vector<std::uint8_t> missing;  // empty = nothing missing
 
-    std::size_t size() const { return values.size(); }
-    bool is_missing(std::size_t row) const { return !missing.empty() && missing[row] != 0; }
+    // Borrowed storage: a host's arrays read in place (weft_panel_borrow_* in the C
+    // interface; the host keeps them valid and unchanged while any user of this column
+    // lives). When borrowed_values is set, it and borrowed_missing (null = nothing
+    // missing) are the column, and values/missing are empty. Readers use size(),
+    // data(), value(), mask() and is_missing(), which serve both kinds.
+    const double* borrowed_values = nullptr;
+    const std::uint8_t* borrowed_missing = nullptr;
+    std::size_t borrowed_size = 0;
+
+    static Column borrow(std::string name, const double* values, const std::uint8_t* missing, std::size_t n) {
+        Column c;
+        c.name = std::move(name);
+        c.borrowed_values = values;
+        c.borrowed_missing = missing;
+        c.borrowed_size = n;
+        return c;
+    }
+    bool borrowed() const { return borrowed_values != nullptr; }
+    std::size_t size() const { return borrowed() ? borrowed_size : values.size(); }
+    const double* data() const { return borrowed() ? borrowed_values : values.data(); }
+    double value(std::size_t row) const { return data()[row]; }
+    // The mask, or null when nothing is missing.
+    const std::uint8_t* mask() const {
+        if (borrowed()) return borrowed_missing;
+        return missing.empty() ? nullptr : missing.data();
+    }
+    // Entries of the owned mask (0 = none); a borrowed mask has size() entries.
+    std::size_t mask_size() const { return borrowed() ? (borrowed_missing ? borrowed_size : 0) : missing.size(); }
+    bool is_missing(std::size_t row) const {
+        const std::uint8_t* m = mask();
+        return m != nullptr && m[row] != 0;
+    }
 };
 
 struct UnitColumn {
