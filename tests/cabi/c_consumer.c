@@ -1194,12 +1194,26 @@ static void test_model_misuse(const grunfeld *g)
     weft_panel_free(p);
 }
 
+/* The Grunfeld panel with periods, outcome and regressors borrowed in place. */
+static weft_panel *make_borrowed_panel(const grunfeld *g, const unsigned char *inv_missing)
+{
+    weft_panel *p = NULL;
+    OK(weft_panel_new(&p, g->n, 2));
+    if (p == NULL) return NULL;
+    OK(weft_panel_set_units_number(p, g->firm, NULL));
+    OK(weft_panel_borrow_periods(p, g->year, NULL));
+    OK(weft_panel_borrow_outcome(p, "inv", g->inv, inv_missing));
+    OK(weft_panel_borrow_regressor(p, "value", g->value, NULL));
+    OK(weft_panel_borrow_regressor(p, "capital", g->capital, NULL));
+    return p;
+}
+
 /* Borrowed columns (weft_panel_borrow_*): read in place, the same results as copied
  * columns, and still read by a model after its panel is freed (a refitting test). */
 static void test_borrowed(const grunfeld *g)
 {
-    weft_panel *p = NULL, *copied;
-    weft_model *m = NULL, *mc;
+    weft_panel *p, *copied;
+    weft_model *m, *mc;
     weft_hetero_result h, hc;
     double table[3 * WEFT_COEF_COLUMNS], table_c[3 * WEFT_COEF_COLUMNS];
     unsigned char mask[MAX_ROWS];
@@ -1208,12 +1222,7 @@ static void test_borrowed(const grunfeld *g)
 
     memset(mask, 0, sizeof mask);
     mask[7] = 1;
-    OK(weft_panel_new(&p, g->n, 2));
-    OK(weft_panel_set_units_number(p, g->firm, NULL));
-    OK(weft_panel_borrow_periods(p, g->year, NULL));
-    OK(weft_panel_borrow_outcome(p, "inv", g->inv, mask));
-    OK(weft_panel_borrow_regressor(p, "value", g->value, NULL));
-    OK(weft_panel_borrow_regressor(p, "capital", g->capital, NULL));
+    p = make_borrowed_panel(g, mask);
     EXPECT_ERROR(weft_panel_borrow_outcome(p, "inv", g->inv, NULL), WEFT_EINVAL, "already set");
     EXPECT_ERROR(weft_panel_borrow_regressor(p, "x", NULL, NULL), WEFT_EINVAL, "values is NULL");
     EXPECT_ERROR(weft_panel_borrow_periods(p, g->year, NULL), WEFT_EINVAL, "periods");
@@ -1231,12 +1240,7 @@ static void test_borrowed(const grunfeld *g)
     weft_panel_free(copied);
     /* Without the masked row the pooled model is the reference's: P results.coef.capital. */
     weft_panel_free(p);
-    OK(weft_panel_new(&p, g->n, 2));
-    OK(weft_panel_set_units_number(p, g->firm, NULL));
-    OK(weft_panel_borrow_periods(p, g->year, NULL));
-    OK(weft_panel_borrow_outcome(p, "inv", g->inv, NULL));
-    OK(weft_panel_borrow_regressor(p, "value", g->value, NULL));
-    OK(weft_panel_borrow_regressor(p, "capital", g->capital, NULL));
+    p = make_borrowed_panel(g, NULL);
     m = fit_text(p, "pooled cluster");
     weft_panel_free(p); /* the model keeps reading the borrowed arrays */
     NEAR(value_of(m, "estimate", "capital"), 0.23067848873197, "P results.coef.capital");
