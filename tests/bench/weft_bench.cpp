@@ -321,23 +321,22 @@ struct Row {
 };
 
 void print_header() {
-  std::printf("%-6s %-10s %8s %-6s %-9s %8s %8s %8s %7s %7s %8s %7s %7s %8s %7s %6s\n", "size", "layout", "rows",
+  std::printf("%-6s %-10s %8s %-6s %-9s %8s %8s %8s %7s %7s %8s %7s %7s %8s %7s\n", "size", "layout", "rows",
               "estim", "se", "wall_s", "cpu_s", "cpu/Mrow", "x_floor", "x_fl_cpu", "panel_s", "fit_s", "fit_fl",
-              "peak_MiB", "peak/in", "own/in");
+              "peak_MiB", "peak/in");
 }
 
 void print_row(const Row& r) {
   const double millions = static_cast<double>(r.rows) / 1e6;
-  char peak[32] = "n/a", ratio[32] = "n/a", own[32] = "n/a";
+  char peak[32] = "n/a", ratio[32] = "n/a";
   if (r.peak_bytes > 0) {
     std::snprintf(peak, sizeof peak, "%.0f", r.peak_bytes / 1048576.0);
     std::snprintf(ratio, sizeof ratio, "%.2f", r.peak_bytes / r.input_bytes);
-    std::snprintf(own, sizeof own, "%.2f", r.extra_bytes / r.input_bytes);
   }
-  std::printf("%-6s %-10s %8zu %-6s %-9s %8.4f %8.4f %8.4f %7.1f %7.1f %8.4f %7.4f %7.1f %8s %7s %6s\n", r.size.c_str(),
+  std::printf("%-6s %-10s %8zu %-6s %-9s %8.4f %8.4f %8.4f %7.1f %7.1f %8.4f %7.4f %7.1f %8s %7s\n", r.size.c_str(),
               r.layout.c_str(), r.rows, r.estimator.c_str(), r.se.c_str(), r.total_seconds, r.cpu_seconds,
               r.cpu_seconds / millions, r.total_seconds / r.floor_seconds, r.cpu_seconds / r.floor_cpu,
-              r.panel_seconds, r.fit_seconds, r.fit_cpu / r.floor_cpu, peak, ratio, own);
+              r.panel_seconds, r.fit_seconds, r.fit_cpu / r.floor_cpu, peak, ratio);
   std::fflush(stdout);
 }
 
@@ -425,8 +424,7 @@ int run_timings(const Options& o) {
               "copying the columns and fitting; fit_fl: the fit's CPU time (weft_model_new and the\n"
               "table, the columns already in a panel) over the floor's; peak/in: process high-water\n"
               "resident bytes during one run (the caller's input arrays included) over the input's\n"
-              "bytes (y, X, unit, period as doubles); own/in: what weft adds to the resident bytes\n"
-              "(its panel copy and the fit) over the input's bytes.\n");
+              "bytes (y, X, unit, period as doubles).\n");
   if (!o.json_path.empty()) write_json(o.json_path, rows);
   return 0;
 }
