@@ -1,20 +1,24 @@
 // Lean fits: the estimated equation of pooled or fd in streaming passes over the
 // caller's columns, never holding its N x K design (see fit_model_lean in model.hpp).
 //
-// The steps are the solver's Gram route (solver.cpp), in the same working basis:
-//  1. one pass: the Gram matrix of [X, y] about a shift s0 (the first block's column
-//     means), with the column sums; the centred Gram follows exactly as
-//     S - N (m - s0)(m - s0)', whose correction is small because s0 is already close
-//     to the mean m; the columns are then centred and scaled to unit length (Z) and
-//     the Gram matrix of Z is factorised by Cholesky when cond(Z) is small;
-//  2. two passes of refinement (corrected semi-normal equations, Bjorck 1996 section
-//     6.6.5), as the solver's Gram route;
-//  3. one pass: residuals (aligned to the input rows), SSR, the outcome's sums, and the
-//     score sums that the covariance needs (per row for hc0/hc1, per unit, per period).
-// Whatever this route cannot decide exactly as the full solver would (a term near the
-// 1e-13 thresholds of dropping, a design near or above the Gram route's condition
-// limit, values near the limits of double, fewer than 2 clusters) is handed back to the
-// full route, which then decides and words any message.
+// The steps are the solver's Gram route (solver.cpp), in the same working basis
+// (columns centred against the intercept and scaled to unit length):
+//  1. one pass: the Gram matrix of [w, x - s0, y - s0] (w the row weight, s0 the first
+//     block's column means, so the centred Gram follows exactly as S - N (m - s0)(m - s0)'
+//     with a small correction), factorised by Cholesky when cond(Z) is small. The same
+//     pass takes the first refinement step (corrected semi-normal equations, Bjorck
+//     1996 section 6.6.5) from a starting solution, the fit of the first 16 blocks
+//     (whose blocks are read once more for it): the sums it needs are linear in the
+//     rows, so the start need not be the Gram solution;
+//  2. one pass: residuals (aligned to the input rows), SSR, the outcome's sums, the
+//     score sums that the covariance needs (per row for hc0/hc1, per unit, per
+//     period), and the gradient of the second refinement step, whose correction is
+//     applied to the coefficients and, exactly, to SSR.
+// The data are read about 2.1 times. Whatever this route cannot decide exactly as the
+// full solver would (a term near the 1e-13 thresholds of dropping, a design near or
+// above the Gram route's condition limit, values near the limits of double, a NaN or
+// infinity, fewer than 2 clusters) is handed back to the full route, which then
+// decides and words any message.
 #include <algorithm>
 #include <cmath>
 #include <limits>
@@ -35,7 +39,6 @@ namespace weft::detail {
 using Eigen::Index;
 using Eigen::MatrixXd;
 using Eigen::VectorXd;
-using VectorL = Eigen::Matrix<long double, Eigen::Dynamic, 1>;
 
 OutcomeSums outcome_sums(const VectorXd& y) {
     OutcomeSums s;
