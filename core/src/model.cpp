@@ -102,6 +102,36 @@ void fill_ids(const Context& ctx, const std::vector<std::size_t>& rows, Equation
     }
 }
 
+// The shape shared by the levels design (pooled, random) and the unit-means design
+// (between, random): n rows of [intercept, regressors, period columns pcols] and y.
+// column(j, out) writes regressor j, period(p, out) the indicator of grid period p,
+// outcome(out) y.
+template <typename RegressorColumn, typename PeriodColumn, typename Outcome>
+void fill_design(const Context& ctx, Index n, bool intercept, const std::vector<std::int32_t>& pcols, MatrixXd& X,
+                 VectorXd& y, std::vector<std::string>& terms, int& intercept_column, RegressorColumn column,
+                 PeriodColumn period, Outcome outcome) {
+    const Index K = (intercept ? 1 : 0) + static_cast<Index>(ctx.k_reg) + static_cast<Index>(pcols.size());
+    X.resize(n, K);
+    y.resize(n);
+    Index col = 0;
+    if (intercept) {
+        X.col(col++).setOnes();
+        terms.push_back("intercept");
+        intercept_column = 0;
+    }
+    for (std::size_t j = 0; j < ctx.k_reg; ++j, ++col) {
+        auto out = X.col(col);
+        column(j, out);
+        terms.push_back(ctx.regressor_names[j]);
+    }
+    for (std::int32_t p : pcols) {
+        auto out = X.col(col++);
+        period(p, out);
+        terms.push_back(period_term(ctx.index, p));
+    }
+    outcome(y);
+}
+
 // ---- pooled: y on [1, X, period indicators]
 Design build_pooled(const Context& ctx, const std::vector<std::size_t>& rows) {
     Design d;
@@ -113,26 +143,16 @@ Design build_pooled(const Context& ctx, const std::vector<std::size_t>& rows) {
         ctx.spec.period_effects ? period_columns(in.period, ctx.index.n_periods(), intercept)
                                 : std::vector<std::int32_t>{};
     const Index N = static_cast<Index>(rows.size());
-    const Index K = (intercept ? 1 : 0) + static_cast<Index>(ctx.k_reg) + static_cast<Index>(pcols.size());
-    in.X.resize(N, K);
-    in.y.resize(N);
-    Index col = 0;
-    if (intercept) {
-        in.X.col(col++).setOnes();
-        in.terms.push_back("intercept");
-        in.intercept_column = 0;
-    }
-    for (std::size_t j = 0; j < ctx.k_reg; ++j, ++col) {
-        const Column& x = ctx.data.regressors[j];
-        for (Index i = 0; i < N; ++i) in.X(i, col) = value(x, rows[static_cast<std::size_t>(i)]);
-        in.terms.push_back(ctx.regressor_names[j]);
-    }
-    for (std::int32_t p : pcols) {
-        for (Index i = 0; i < N; ++i) in.X(i, col) = in.period[static_cast<std::size_t>(i)] == p ? 1.0 : 0.0;
-        in.terms.push_back(period_term(ctx.index, p));
-        ++col;
-    }
-    for (Index i = 0; i < N; ++i) in.y[i] = value(ctx.data.outcome, rows[static_cast<std::size_t>(i)]);
+    auto at_rows = [&](const Column& c, auto& out) {
+        for (Index i = 0; i < N; ++i) out[i] = value(c, rows[static_cast<std::size_t>(i)]);
+    };
+    fill_design(
+        ctx, N, intercept, pcols, in.X, in.y, in.terms, in.intercept_column,
+        [&](std::size_t j, auto& out) { at_rows(ctx.data.regressors[j], out); },
+        [&](std::int32_t p, auto& out) {
+            for (Index i = 0; i < N; ++i) out[i] = in.period[static_cast<std::size_t>(i)] == p ? 1.0 : 0.0;
+        },
+        [&](auto& out) { at_rows(ctx.data.outcome, out); });
     return d;
 }
 
@@ -344,31 +364,19 @@ MeansDesign unit_mean_design(const Context& ctx, const std::vector<std::size_t>&
                              const std::vector<std::int32_t>& pcols) {
     MeansDesign m;
     const Index n = static_cast<Index>(runs.begin.size());
-    const Index K = (intercept ? 1 : 0) + static_cast<Index>(ctx.k_reg) + static_cast<Index>(pcols.size());
-    m.X.resize(n, K);
-    m.y.resize(n);
-    Index col = 0;
-    if (intercept) {
-        m.X.col(col++).setOnes();
-        m.terms.push_back("intercept");
-        m.intercept_column = 0;
-    }
-    for (std::size_t j = 0; j < ctx.k_reg; ++j, ++col) {
-        const Column& x = ctx.data.regressors[j];
-        const std::vector<double> means = run_means(runs, [&](std::size_t k) { return value(x, rows[k]); });
-        for (Index r = 0; r < n; ++r) m.X(r, col) = means[static_cast<std::size_t>(r)];
-        m.terms.push_back(ctx.regressor_names[j]);
-    }
-    for (std::int32_t p : pcols) {
-        const std::vector<double> means =
-            run_means(runs, [&](std::size_t k) { return row_periods[k] == p ? 1.0 : 0.0; });
-        for (Index r = 0; r < n; ++r) m.X(r, col) = means[static_cast<std::size_t>(r)];
-        m.terms.push_back(period_term(ctx.index, p));
-        ++col;
-    }
-    const std::vector<double> ymeans =
-        run_means(runs, [&](std::size_t k) { return value(ctx.data.outcome, rows[k]); });
-    for (Index r = 0; r < n; ++r) m.y[r] = ymeans[static_cast<std::size_t>(r)];
+    auto put = [&](const std::vector<double>& means, auto& out) {
+        for (Index r = 0; r < n; ++r) out[r] = means[static_cast<std::size_t>(r)];
+    };
+    fill_design(
+        ctx, n, intercept, pcols, m.X, m.y, m.terms, m.intercept_column,
+        [&](std::size_t j, auto& out) {
+            const Column& x = ctx.data.regressors[j];
+            put(run_means(runs, [&](std::size_t k) { return value(x, rows[k]); }), out);
+        },
+        [&](std::int32_t p, auto& out) {
+            put(run_means(runs, [&](std::size_t k) { return row_periods[k] == p ? 1.0 : 0.0; }), out);
+        },
+        [&](auto& out) { put(run_means(runs, [&](std::size_t k) { return value(ctx.data.outcome, rows[k]); }), out); });
     return m;
 }
 
