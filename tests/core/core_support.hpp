@@ -19,6 +19,8 @@
 
 #include "weft/core.hpp"
 
+#include "../common/error_message.hpp"
+
 namespace core_test {
 
 inline std::string data_path(const std::string& relative) {
@@ -88,15 +90,7 @@ inline double rel_diff(double actual, double expected) {
     return std::abs(actual - expected) / std::abs(expected);
 }
 
-template <class F>
-std::string message_of(F&& f) {
-    try {
-        f();
-    } catch (const weft::Error& e) {
-        return e.what();
-    }
-    return "(no weft::Error thrown)";
-}
+using weft_test::message_of;
 
 }  // namespace core_test
 

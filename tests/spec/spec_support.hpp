@@ -16,6 +16,8 @@
 #include "weft/core.hpp"
 #include "weft/spec.hpp"
 
+#include "../common/error_message.hpp"
+
 namespace spec_test {
 
 inline std::string data_path(const std::string& file) {
@@ -74,15 +76,7 @@ inline bool near_rel(double actual, double expected, double tol) {
         CHECK(spec_test::near_rel(spec_a_, spec_e_, tol));                             \
     } while (false)
 
-template <class F>
-std::string message_of(F&& f) {
-    try {
-        f();
-    } catch (const weft::Error& e) {
-        return e.what();
-    }
-    return "(no weft::Error thrown)";
-}
+using weft_test::message_of;
 
 inline bool contains(const std::string& text, const std::string& part) {
     return text.find(part) != std::string::npos;
