@@ -309,7 +309,7 @@ extern "C" int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size) {
     if (layout == 1) options.size = sizeof(weft_options) - 1;
     if (layout == 2) options.version = 99;
     if (layout == 3) options.size = 0;
-    bytes.next();
+    const bool borrow = bytes.next() & 1;  // borrow the columns in place instead of copying them
 
     size_t first_row = (flags & kFirstRowHuge) ? std::numeric_limits<size_t>::max() - 3 : 2;
 
@@ -360,13 +360,21 @@ extern "C" int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size) {
         if (weft_panel_set_units_number(panel, units_number.values.data(), nullptr) == WEFT_OK && status == WEFT_OK)
             contract_broken("units set twice accepted", "");
     }
-    if (!(flags & kNoPeriods)) check_failed_call(weft_panel_set_periods(panel, periods.values.data(), periods.mask()), "set_periods");
-    if (!(flags & kNoOutcome)) check_failed_call(weft_panel_set_outcome(panel, "y", outcome.values.data(), outcome.mask()), "set_outcome");
+    // (borrowed arrays live until the end of this function, after every free below)
+    if (!(flags & kNoPeriods))
+        check_failed_call((borrow ? weft_panel_borrow_periods : weft_panel_set_periods)(panel, periods.values.data(),
+                                                                                        periods.mask()),
+                          "set_periods");
+    if (!(flags & kNoOutcome))
+        check_failed_call((borrow ? weft_panel_borrow_outcome : weft_panel_set_outcome)(panel, "y", outcome.values.data(),
+                                                                                        outcome.mask()),
+                          "set_outcome");
     for (size_t j = 0; j < n_regressors; ++j) {
         std::string name;
         if (flags & kNames) name = (j == 2) ? "x1" : (j == 3 ? "intercept" : "v" + std::to_string(j));
-        check_failed_call(weft_panel_add_regressor(panel, name.empty() ? nullptr : name.c_str(),
-                                                   regressors[j].values.data(), regressors[j].mask()),
+        check_failed_call((borrow ? weft_panel_borrow_regressor : weft_panel_add_regressor)(
+                              panel, name.empty() ? nullptr : name.c_str(), regressors[j].values.data(),
+                              regressors[j].mask()),
                           "add_regressor");
     }
 
