@@ -184,8 +184,6 @@ public:
         return static_cast<Index>((span + static_cast<std::size_t>(block_) - 1) / static_cast<std::size_t>(block_));
     }
     void restart() { cursor_ = 0; }
-    std::size_t cursor() const { return cursor_; }
-    void set_cursor(std::size_t cursor) { cursor_ = cursor; }
 
     // Every cell outside the missing masks is a finite number. Sorted input: the rows
     // read with check_values are checked as they are read (call this after such a
@@ -396,15 +394,14 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
                 start_constant = sample.shift[k_reg] - sample.shift.head(k_reg).dot(start_slopes) +
                                  (intercept ? c_sample[0] / std::sqrt(sample.n) : 0.0);
             }
-            // the sample's blocks once more, for the step from the start
-            const std::size_t keep_cursor = reader.cursor();
+            // the sample's blocks once more, for the step from the start (the reader
+            // ends where the main pass goes on)
             reader.restart();
             for (Index kk = 0; kk <= k; ++kk) {
                 const Block again = reader.read(kk, B, 1, s0, ones);
                 B.col(0).head(again.rows) = Eigen::Map<const VectorXd>(again.keep, again.rows);
                 add_start_residuals(again.rows);
             }
-            reader.set_cursor(keep_cursor);
         }
     }
     // a NaN or infinity outside the masks: the full route words the message
