@@ -45,32 +45,51 @@ private:
     std::uint64_t count_ = 0;
 };
 
+// At most `capacity` entries and, when entries are put with a cost, at most
+// `max_cost` in all (the newest entry is kept whatever its cost).
 template <class Value>
 class LruCache {
 public:
-    explicit LruCache(std::size_t capacity) : capacity_(capacity) {}
+    explicit LruCache(std::size_t capacity, std::size_t max_cost = SIZE_MAX)
+        : capacity_(capacity), max_cost_(max_cost) {}
 
     // The cached value, now the most recently used; nullptr when absent.
     std::shared_ptr<Value> find(const Hash128& key) {
         for (auto it = items_.begin(); it != items_.end(); ++it) {
-            if (it->first == key) {
+            if (it->key == key) {
                 items_.splice(items_.begin(), items_, it);
-                return items_.front().second;
+                return items_.front().value;
             }
         }
         return nullptr;
     }
 
-    void put(const Hash128& key, std::shared_ptr<Value> value) {
-        items_.emplace_front(key, std::move(value));
-        while (items_.size() > capacity_) items_.pop_back();
+    void put(const Hash128& key, std::shared_ptr<Value> value, std::size_t cost = 0) {
+        items_.push_front(Item{key, std::move(value), cost});
+        total_cost_ += cost;
+        while (items_.size() > capacity_ || (items_.size() > 1 && total_cost_ > max_cost_)) {
+            total_cost_ -= items_.back().cost;
+            items_.pop_back();
+        }
     }
 
-    void clear() { items_.clear(); }
+    std::size_t size() const { return items_.size(); }
+
+    void clear() {
+        items_.clear();
+        total_cost_ = 0;
+    }
 
 private:
+    struct Item {
+        Hash128 key;
+        std::shared_ptr<Value> value;
+        std::size_t cost;
+    };
     std::size_t capacity_;
-    std::list<std::pair<Hash128, std::shared_ptr<Value>>> items_;
+    std::size_t max_cost_;
+    std::size_t total_cost_ = 0;
+    std::list<Item> items_;
 };
 
 }  // namespace weft_addin
