@@ -424,6 +424,24 @@ AnyRows table_result(F&& compute) {
     return result;
 }
 
+// Runs a one-cell function; a failure becomes the text of that cell.
+template <class F>
+Any cell_result(F&& compute) {
+    Any result;
+    const std::string error = guarded([&] {
+        result = to_any(compute());
+        CallTrace::mark("out");
+    });
+    if (!error.empty()) {
+        try {
+            return Any(to_ou(error));
+        } catch (...) {
+            return Any();
+        }
+    }
+    return result;
+}
+
 // A wizard text, or an empty one if anything at all goes wrong.
 template <class F>
 OUString safe_text(F&& make) noexcept {
@@ -460,20 +478,10 @@ public:
     Any SAL_CALL value(const AnyRows& y, const AnyRows& x, const AnyRows& u, const AnyRows& t,
                        const Any& model, const Any& what, const Any& term) override {
         CallTrace trace("value");
-        Any result;
-        const std::string error = guarded([&] {
+        return cell_result([&] {
             const UnoPanelSource r(y, x, u, t);
-            result = to_any(fn_value(r, to_arg(model), to_arg(what),
-                                     to_arg(term)));
+            return fn_value(r, to_arg(model), to_arg(what), to_arg(term));
         });
-        if (!error.empty()) {
-            try {
-                return Any(to_ou(error));
-            } catch (...) {
-                return Any();
-            }
-        }
-        return result;
     }
     AnyRows SAL_CALL residuals(const AnyRows& y, const AnyRows& x, const AnyRows& u,
                                const AnyRows& t, const Any& model) override {
@@ -576,6 +584,48 @@ public:
         } catch (...) {
             return OUString();
         }
+    }
+
+    // ---- the fit cell and the functions that take it ---------------------------
+    Any SAL_CALL fit(const AnyRows& y, const AnyRows& x, const AnyRows& u, const AnyRows& t,
+                     const Any& model) override {
+        CallTrace trace("fit");
+        return cell_result([&] {
+            const UnoPanelSource r(y, x, u, t);
+            return fn_fit(r, to_arg(model));
+        });
+    }
+    AnyRows SAL_CALL fitEstimates(const Any& fit) override {
+        CallTrace trace("fitEstimates");
+        return table_result([&] { return fn_fit_estimates(to_arg(fit)); });
+    }
+    AnyRows SAL_CALL fitSummary(const Any& fit) override {
+        CallTrace trace("fitSummary");
+        return table_result([&] { return fn_fit_summary(to_arg(fit)); });
+    }
+    Any SAL_CALL fitValue(const Any& fit, const Any& what, const Any& term) override {
+        CallTrace trace("fitValue");
+        return cell_result([&] { return fn_fit_value(to_arg(fit), to_arg(what), to_arg(term)); });
+    }
+    AnyRows SAL_CALL fitResiduals(const Any& fit) override {
+        CallTrace trace("fitResiduals");
+        return table_result([&] { return fn_fit_residuals(to_arg(fit)); });
+    }
+    AnyRows SAL_CALL fitFitted(const Any& fit) override {
+        CallTrace trace("fitFitted");
+        return table_result([&] { return fn_fit_fitted(to_arg(fit)); });
+    }
+    AnyRows SAL_CALL fitJoint(const Any& fit, const Any& terms) override {
+        CallTrace trace("fitJoint");
+        return table_result([&] { return fn_fit_joint(to_arg(fit), to_arg(terms)); });
+    }
+    AnyRows SAL_CALL fitHetero(const Any& fit, const Any& form) override {
+        CallTrace trace("fitHetero");
+        return table_result([&] { return fn_fit_hetero(to_arg(fit), to_arg(form)); });
+    }
+    AnyRows SAL_CALL fitSerial(const Any& fit) override {
+        CallTrace trace("fitSerial");
+        return table_result([&] { return fn_fit_serial(to_arg(fit)); });
     }
 
     // ---- XAddIn ----------------------------------------------------------------

@@ -447,6 +447,66 @@ Hash128 call_key_of(const Hash128& cells, const Arg& model_arg) {
     return h.digest();
 }
 
+// What a WEFT.FIT cell names: a fitted model kept for the cells that take the fit
+// cell instead of the four ranges. Calc's dependency tracking keeps those cells
+// current: when a range changes, the fit cell is computed again and shows a new
+// fit (the name is the model key, so new data or model words give a new name),
+// and every cell that takes it follows. The office computes add-in cells when it
+// opens a file (whatever its recalculate-on-load setting), so a reopened workbook
+// fits again. Fits stay here, whatever model_cache evicts, while fewer than
+// kFitsKept newer fits were made and the newer ones hold less than kFitCellBudget
+// cells of input (about 8 bytes each, and the model keeps a copy of its data).
+struct FitEntry {
+    std::shared_ptr<ModelEntry> entry;
+    bool header = false;
+    std::size_t n = 0;
+};
+constexpr std::size_t kFitsKept = 32;
+constexpr std::size_t kFitCellBudget = std::size_t{64} << 20;
+LruCache<FitEntry> fit_cache(kFitsKept, kFitCellBudget);
+
+const char* const fit_prefix = "weft fit ";
+constexpr std::size_t fit_name_digits = 32;
+
+int hex_digit(char c) {
+    if (c >= '0' && c <= '9') return c - '0';
+    if (c >= 'a' && c <= 'f') return c - 'a' + 10;
+    if (c >= 'A' && c <= 'F') return c - 'A' + 10;
+    return -1;
+}
+
+// The model key a fit cell's text names ("weft fit <32 hex digits> (...)").
+// A fit cell that shows an error passes that error on unchanged.
+Hash128 fit_key_of(const Arg& fit) {
+    const char* how = "give the cell that holds =WEFT.FIT(outcome; regressors; units; periods; "
+                      "model), e.g. F1";
+    if (!fit.given) fail(std::string("fit is missing; ") + how);
+    if (!fit.is_scalar())
+        fail("fit is a range of " + std::to_string(fit.table.rows * fit.table.cols) +
+             " cells; " + how);
+    const Cell& c = fit.scalar();
+    const std::string text = c.is_text() ? trim(c.text) : std::string();
+    if (text.rfind("weft:", 0) == 0) throw UserError(UserError::FullText{}, text);
+    const std::size_t p = std::char_traits<char>::length(fit_prefix);
+    bool ok = text.size() >= p + fit_name_digits && lower(text.substr(0, p)) == fit_prefix;
+    Hash128 key;
+    for (std::size_t i = 0; ok && i < fit_name_digits; ++i) {
+        const int d = hex_digit(text[p + i]);
+        if (d < 0) ok = false;
+        std::uint64_t& word = i < 16 ? key.a : key.b;
+        word = (word << 4) | static_cast<std::uint64_t>(d < 0 ? 0 : d);
+    }
+    if (ok && text.size() > p + fit_name_digits && hex_digit(text[p + fit_name_digits]) >= 0)
+        ok = false;
+    if (!ok) {
+        std::string shown = c.is_number() ? format_number(c.number)
+                            : c.is_text() ? quoted(text.substr(0, 40) + (text.size() > 40 ? "..." : ""))
+                                          : std::string("a blank");
+        fail("fit holds " + shown + ", not a fit; " + how);
+    }
+    return key;
+}
+
 // Everything a model function needs: the input (for row alignment and names)
 // and the fitted model. Holds the lock while the model is used.
 struct Fitted {
@@ -454,7 +514,9 @@ struct Fitted {
     PanelInput input;
     std::shared_ptr<ModelEntry> entry;
     const weft_model* model = nullptr;
+    Hash128 model_key;
 
+    // From the four ranges and the model argument.
     Fitted(const PanelSource& source, const Arg& model_arg) {
         const Hash128* cells = source.cells_key();
         Hash128 call_key;
@@ -466,7 +528,6 @@ struct Fitted {
         if (!entry) {
             input = read_panel(source.ranges());
             CallTrace::mark("read");
-            Hash128 model_key;
             entry = cached_model(input, model_text(model_arg), model_key);
             CallTrace::mark("model");
             if (cells != nullptr)
@@ -474,6 +535,25 @@ struct Fitted {
                                              CallEntry{model_key, input.header, input.n}));
         }
         if (!entry->error.empty()) throw UserError(UserError::FullText{}, entry->error);
+        model = entry->model.get();
+    }
+
+    // From a fit cell (WEFT.FIT): nothing is read or fitted here.
+    explicit Fitted(const Arg& fit) {
+        model_key = fit_key_of(fit);
+        const std::shared_ptr<FitEntry> kept = fit_cache.find(model_key);
+        CallTrace::mark("lookup");
+        if (!kept)
+            fail("the fit " + model_key.hex().substr(0, 8) +
+                 "... is not in memory: newer fits replaced it (weft keeps the " +
+                 std::to_string(kFitsKept) +
+                 " newest, fewer when they are large); recalculate all cells with "
+                 "Ctrl+Shift+F9 (Data > Calculate > Recalculate Hard) to fit it again");
+        log_line("hit " + model_key.hex());
+        CallTrace::note("hit-fit");
+        entry = kept->entry;
+        input.header = kept->header;
+        input.n = kept->n;
         model = entry->model.get();
     }
 
@@ -487,11 +567,25 @@ private:
         if (!found) return nullptr;
         log_line("hit " + call->model_key.hex());
         CallTrace::note("hit-cells");
+        model_key = call->model_key;
         input.header = call->header;
         input.n = call->n;
         return found;
     }
 };
+
+// Which model a function reports on: the four ranges and a model argument, or a
+// fit cell.
+struct ModelRef {
+    const PanelSource* source = nullptr;
+    const Arg* model = nullptr;
+    const Arg* fit = nullptr;
+};
+
+Fitted fitted_of(const ModelRef& r) {
+    if (r.fit != nullptr) return Fitted(*r.fit);
+    return Fitted(*r.source, *r.model);
+}
 
 // ----------------------------------------------------------- result layouts
 
@@ -547,9 +641,8 @@ OutTable aligned_column(bool header, const std::string& label, const std::vector
 
 using RowValues = int (*)(const weft_model*, double*, unsigned char*, size_t, size_t*);
 
-OutTable model_column(const PanelSource& ranges, const Arg& model_arg, RowValues get,
-                      const char* label) {
-    Fitted f(ranges, model_arg);
+OutTable model_column(const ModelRef& ref, RowValues get, const char* label) {
+    Fitted f = fitted_of(ref);
     std::vector<double> v(f.input.n);
     std::vector<unsigned char> none(f.input.n, 1);
     size_t needed = 0;
@@ -680,8 +773,11 @@ OutTable run_transform(const Table& values_in, const Table& units_in, const Tabl
 
 // =================================================================== functions
 
-OutTable fn_estimates(const PanelSource& in, const Arg& model) {
-    Fitted f(in, model);
+namespace {
+
+// Each model function once, for either way of naming the model (ModelRef).
+OutTable estimates_of(const ModelRef& ref) {
+    Fitted f = fitted_of(ref);
     size_t n_terms = 0, n_dropped = 0;
     check(weft_model_term_count(f.model, &n_terms));
     check(weft_model_dropped_count(f.model, &n_dropped));
@@ -716,8 +812,8 @@ OutTable fn_estimates(const PanelSource& in, const Arg& model) {
     return t;
 }
 
-OutTable fn_summary(const PanelSource& in, const Arg& model) {
-    Fitted f(in, model);
+OutTable summary_of(const ModelRef& ref) {
+    Fitted f = fitted_of(ref);
     size_t n_items = 0;
     check(weft_model_summary_count(f.model, &n_items));
     LabelValue lv;
@@ -733,7 +829,7 @@ OutTable fn_summary(const PanelSource& in, const Arg& model) {
     return lv.table();
 }
 
-OutCell fn_value(const PanelSource& in, const Arg& model, const Arg& what_arg, const Arg& term_arg) {
+OutCell value_of(const ModelRef& ref, const Arg& what_arg, const Arg& term_arg) {
     const std::string what = lower(optional_word(what_arg, "what", "\"estimate\""));
     if (what.empty())
         fail("WEFT.VALUE needs what: one of estimate, se, t, p, ci-low, ci-high (with a term), "
@@ -746,7 +842,7 @@ OutCell fn_value(const PanelSource& in, const Arg& model, const Arg& what_arg, c
     if (tc.is_text()) term = trim(tc.text);
     else if (tc.is_number() && term_arg.given) term = format_number(tc.number);
 
-    Fitted f(in, model);
+    Fitted f = fitted_of(ref);
     double v = std::numeric_limits<double>::quiet_NaN();
     check(weft_model_value(f.model, what.c_str(), term.empty() ? nullptr : term.c_str(), &v));
     OutCell out;
@@ -772,15 +868,9 @@ OutCell fn_value(const PanelSource& in, const Arg& model, const Arg& what_arg, c
     return out;
 }
 
-OutTable fn_residuals(const PanelSource& in, const Arg& model) {
-    return model_column(in, model, weft_model_residuals, "residual");
-}
 
-OutTable fn_fitted(const PanelSource& in, const Arg& model) {
-    return model_column(in, model, weft_model_fitted, "fitted");
-}
 
-OutTable fn_joint(const PanelSource& in, const Arg& model, const Arg& terms) {
+OutTable joint_of(const ModelRef& ref, const Arg& terms) {
     // Collect the names first, so a bad terms argument is reported before a fit.
     std::vector<std::string> names;
     bool single_list = false;
@@ -796,7 +886,7 @@ OutTable fn_joint(const PanelSource& in, const Arg& model, const Arg& terms) {
         fail("WEFT.JOINT needs terms: the terms to test, as a text such as \"value, capital\" or "
              "a range of term names");
 
-    Fitted f(in, model);
+    Fitted f = fitted_of(ref);
     weft_wald_result r;
     if (single_list) {
         check(weft_test_joint_list(f.model, names[0].c_str(), &r));
@@ -817,11 +907,11 @@ OutTable fn_joint(const PanelSource& in, const Arg& model, const Arg& terms) {
     return lv.table();
 }
 
-OutTable fn_hetero(const PanelSource& in, const Arg& model, const Arg& form_arg) {
+OutTable hetero_of(const ModelRef& ref, const Arg& form_arg) {
     const std::string word = lower(optional_word(form_arg, "form", "\"koenker\""));
     int form = WEFT_HETERO_KOENKER;
     check(weft_hetero_form_parse(word.c_str(), &form));
-    Fitted f(in, model);
+    Fitted f = fitted_of(ref);
     weft_hetero_result r;
     check(weft_test_hetero(f.model, form, &r));
     LabelValue lv;
@@ -836,8 +926,8 @@ OutTable fn_hetero(const PanelSource& in, const Arg& model, const Arg& form_arg)
     return lv.table();
 }
 
-OutTable fn_serial(const PanelSource& in, const Arg& model) {
-    Fitted f(in, model);
+OutTable serial_of(const ModelRef& ref) {
+    Fitted f = fitted_of(ref);
     weft_serial_result r;
     check(weft_test_serial(f.model, &r));
     LabelValue lv;
@@ -856,6 +946,66 @@ OutTable fn_serial(const PanelSource& in, const Arg& model) {
     add_test_warnings(lv);
     return lv.table();
 }
+
+}  // namespace
+
+OutCell fn_fit(const PanelSource& in, const Arg& model) {
+    Fitted f(in, model);
+    if (!fit_cache.find(f.model_key)) {
+        size_t terms = 0;
+        check(weft_model_term_count(f.model, &terms));
+        fit_cache.put(f.model_key,
+                      std::make_shared<FitEntry>(FitEntry{f.entry, f.input.header, f.input.n}),
+                      f.input.n * (terms + 3));
+    }
+    weft_options o = WEFT_OPTIONS_INIT;
+    check(weft_model_options(f.model, &o));
+    size_t needed = 0;
+    check(weft_options_text(&o, nullptr, 0, &needed));
+    std::vector<char> words(needed + 1, '\0');
+    check(weft_options_text(&o, words.data(), words.size(), &needed));
+    double used = 0.0;
+    check(weft_model_value(f.model, "n", nullptr, &used));
+    OutCell out;
+    out.kind = OutCell::Kind::text;
+    out.text = fit_prefix + f.model_key.hex() + " (" + std::string(words.data()) + "; " +
+               format_number(used) + " of " + std::to_string(f.input.n) + " rows used)";
+    return out;
+}
+
+OutTable fn_estimates(const PanelSource& in, const Arg& model) { return estimates_of({&in, &model, nullptr}); }
+OutTable fn_summary(const PanelSource& in, const Arg& model) { return summary_of({&in, &model, nullptr}); }
+OutCell fn_value(const PanelSource& in, const Arg& model, const Arg& what, const Arg& term) {
+    return value_of({&in, &model, nullptr}, what, term);
+}
+OutTable fn_residuals(const PanelSource& in, const Arg& model) {
+    return model_column({&in, &model, nullptr}, weft_model_residuals, "residual");
+}
+OutTable fn_fitted(const PanelSource& in, const Arg& model) {
+    return model_column({&in, &model, nullptr}, weft_model_fitted, "fitted");
+}
+OutTable fn_joint(const PanelSource& in, const Arg& model, const Arg& terms) {
+    return joint_of({&in, &model, nullptr}, terms);
+}
+OutTable fn_hetero(const PanelSource& in, const Arg& model, const Arg& form) {
+    return hetero_of({&in, &model, nullptr}, form);
+}
+OutTable fn_serial(const PanelSource& in, const Arg& model) { return serial_of({&in, &model, nullptr}); }
+
+OutTable fn_fit_estimates(const Arg& fit) { return estimates_of({nullptr, nullptr, &fit}); }
+OutTable fn_fit_summary(const Arg& fit) { return summary_of({nullptr, nullptr, &fit}); }
+OutCell fn_fit_value(const Arg& fit, const Arg& what, const Arg& term) {
+    return value_of({nullptr, nullptr, &fit}, what, term);
+}
+OutTable fn_fit_residuals(const Arg& fit) {
+    return model_column({nullptr, nullptr, &fit}, weft_model_residuals, "residual");
+}
+OutTable fn_fit_fitted(const Arg& fit) {
+    return model_column({nullptr, nullptr, &fit}, weft_model_fitted, "fitted");
+}
+OutTable fn_fit_joint(const Arg& fit, const Arg& terms) { return joint_of({nullptr, nullptr, &fit}, terms); }
+OutTable fn_fit_hetero(const Arg& fit, const Arg& form) { return hetero_of({nullptr, nullptr, &fit}, form); }
+OutTable fn_fit_serial(const Arg& fit) { return serial_of({nullptr, nullptr, &fit}); }
 
 OutTable fn_hausman(const PanelSource& in, const Arg& model) {
     std::unique_lock<std::mutex> lock(cache_mutex);
@@ -898,6 +1048,7 @@ OutTable fn_effects(const PanelSource& in, const Arg& model) {
 }
 
 // Over plain tables: no cells key, so the ranges are always read.
+OutCell fn_fit(const PanelRanges& in, const Arg& model) { return fn_fit(TableSource(in), model); }
 OutTable fn_estimates(const PanelRanges& in, const Arg& model) { return fn_estimates(TableSource(in), model); }
 OutTable fn_summary(const PanelRanges& in, const Arg& model) { return fn_summary(TableSource(in), model); }
 OutCell fn_value(const PanelRanges& in, const Arg& model, const Arg& what, const Arg& term) {

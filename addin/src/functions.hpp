@@ -45,6 +45,20 @@ private:
     PanelRanges in_;
 };
 
+// WEFT.FIT: fits the model and returns one text that names the fit
+// ("weft fit <32 hex digits> (<model words>; <used> of <rows> rows used)"); the
+// fn_fit_* functions take that text (the fit cell) instead of the four ranges and
+// the model argument, so they neither read the ranges nor fit again.
+OutCell fn_fit(const PanelSource& in, const Arg& model);
+OutTable fn_fit_estimates(const Arg& fit);
+OutTable fn_fit_summary(const Arg& fit);
+OutCell fn_fit_value(const Arg& fit, const Arg& what, const Arg& term);
+OutTable fn_fit_residuals(const Arg& fit);
+OutTable fn_fit_fitted(const Arg& fit);
+OutTable fn_fit_joint(const Arg& fit, const Arg& terms);
+OutTable fn_fit_hetero(const Arg& fit, const Arg& form);
+OutTable fn_fit_serial(const Arg& fit);
+
 OutTable fn_estimates(const PanelSource& in, const Arg& model);
 OutTable fn_summary(const PanelSource& in, const Arg& model);
 OutCell fn_value(const PanelSource& in, const Arg& model, const Arg& what, const Arg& term);
@@ -57,6 +71,7 @@ OutTable fn_hausman(const PanelSource& in, const Arg& model);
 OutTable fn_effects(const PanelSource& in, const Arg& model);
 
 // The same over plain tables.
+OutCell fn_fit(const PanelRanges& in, const Arg& model);
 OutTable fn_estimates(const PanelRanges& in, const Arg& model);
 OutTable fn_summary(const PanelRanges& in, const Arg& model);
 OutCell fn_value(const PanelRanges& in, const Arg& model, const Arg& what, const Arg& term);

@@ -28,6 +28,23 @@ const ArgumentText model_arg{
     "classical, hc0-hc3, cluster, cluster0, cluster-period, cluster-both, dk or dk=L; "
     "periods; level=0.90; no-intercept."};
 
+const ArgumentText what_arg{
+    "what",
+    "Which number: estimate, se, t, p, ci-low, ci-high (these need term), n, units, r2, "
+    "r2-within, sigma, df, f, f-p."};
+const ArgumentText term_arg{
+    "term",
+    "The term's name (a regressor header, x1, intercept, period 1990) for estimate, se, t, p, "
+    "ci-low, ci-high."};
+const ArgumentText terms_arg{
+    "terms", "The terms to test: a text list such as \"value, capital\" or a range of term names."};
+const ArgumentText form_arg{
+    "form", "Optional: koenker (studentized Breusch-Pagan, default), bp, white-special or "
+            "white-full."};
+const ArgumentText fit_arg{
+    "fit", "The cell that holds =WEFT.FIT(...): the fitted model, so the ranges are not read or "
+           "fitted again."};
+
 std::vector<ArgumentText> panel_args() {
     return {outcome_arg, regressors_arg, units_arg, periods_arg, model_arg};
 }
@@ -51,12 +68,7 @@ std::vector<FunctionText> make_texts() {
     t.push_back({"value", "WEFT.VALUE",
                  "One number from a panel regression, e.g. the estimate or p-value of one term, "
                  "or n, r2, sigma.",
-                 panel_args_plus(
-                     {{"what",
-                       "Which number: estimate, se, t, p, ci-low, ci-high (these need term), n, "
-                       "units, r2, r2-within, sigma, df, f, f-p."},
-                      {"term", "The term's name (a regressor header, x1, intercept, period 1990) "
-                               "for estimate, se, t, p, ci-low, ci-high."}})});
+                 panel_args_plus({what_arg, term_arg})});
     t.push_back({"residuals", "WEFT.RESIDUALS",
                  "Residuals of a panel regression, one per input row in input order; blank where "
                  "the row was not used.",
@@ -68,13 +80,11 @@ std::vector<FunctionText> make_texts() {
     t.push_back({"joint", "WEFT.JOINT",
                  "Wald test that the named terms are all zero, with the model's standard errors: "
                  "F, df1, df2, p-value, then chi-square, df, p-value.",
-                 panel_args_plus({{"terms", "The terms to test: a text list such as \"value, "
-                                            "capital\" or a range of term names."}})});
+                 panel_args_plus({terms_arg})});
     t.push_back({"hetero", "WEFT.HETERO",
                  "Heteroskedasticity test on the model's residuals: LM, df, p-value, then the F "
                  "form with its df and p-value.",
-                 panel_args_plus({{"form", "Optional: koenker (studentized Breusch-Pagan, default), "
-                                           "bp, white-special or white-full."}})});
+                 panel_args_plus({form_arg})});
     t.push_back({"serial", "WEFT.SERIAL",
                  "AR(1) check of the residuals within units: slope, std error, t, p-value, then the "
                  "test of serially uncorrelated level errors (fd, within).",
@@ -115,6 +125,43 @@ std::vector<FunctionText> make_texts() {
                  {units_arg, periods_arg}});
     t.push_back({"version", "WEFT.VERSION", "The versions of the weft library and of this add-in.",
                  {}});
+    // The fit cell, and the model functions that take it instead of the ranges.
+    t.push_back({"fit", "WEFT.FIT",
+                 "Fits a panel regression once and names the fit in one cell; give that cell to "
+                 "WEFT.FIT.ESTIMATES, WEFT.FIT.VALUE and the other WEFT.FIT functions.",
+                 panel_args()});
+    t.push_back({"fitEstimates", "WEFT.FIT.ESTIMATES",
+                 "WEFT.ESTIMATES of a fit cell: header row, then one row per term with term, "
+                 "estimate, std error, t, p-value, ci low, ci high.",
+                 {fit_arg}});
+    t.push_back({"fitSummary", "WEFT.FIT.SUMMARY",
+                 "WEFT.SUMMARY of a fit cell: label and value of estimator, standard errors, "
+                 "observations, R-squared, F test, warnings.",
+                 {fit_arg}});
+    t.push_back({"fitValue", "WEFT.FIT.VALUE",
+                 "One number of a fit cell, e.g. the estimate or p-value of one term, or n, r2, "
+                 "sigma.",
+                 {fit_arg, what_arg, term_arg}});
+    t.push_back({"fitResiduals", "WEFT.FIT.RESIDUALS",
+                 "Residuals of a fit cell's model, one per input row in input order; blank where "
+                 "the row was not used.",
+                 {fit_arg}});
+    t.push_back({"fitFitted", "WEFT.FIT.FITTED",
+                 "Fitted values of a fit cell's model, one per input row in input order; blank "
+                 "where the row was not used.",
+                 {fit_arg}});
+    t.push_back({"fitJoint", "WEFT.FIT.JOINT",
+                 "Wald test that the named terms of a fit cell's model are all zero: F, df1, df2, "
+                 "p-value, then chi-square, df, p-value.",
+                 {fit_arg, terms_arg}});
+    t.push_back({"fitHetero", "WEFT.FIT.HETERO",
+                 "Heteroskedasticity test on a fit cell's residuals: LM, df, p-value, then the F "
+                 "form with its df and p-value.",
+                 {fit_arg, form_arg}});
+    t.push_back({"fitSerial", "WEFT.FIT.SERIAL",
+                 "AR(1) check of a fit cell's residuals within units, then the test of serially "
+                 "uncorrelated level errors (fd, within).",
+                 {fit_arg}});
     return t;
 }
 

@@ -244,11 +244,15 @@ TEST_CASE("the LRU cache keeps the most recently used entries") {
 }
 
 TEST_CASE("every function has wizard texts and a display name WEFT.<METHOD>") {
-    // FUNCTIONS.md lists 16 functions
-    REQUIRE(function_texts().size() == 16);
+    // FUNCTIONS.md lists 16 functions; the fit cell adds WEFT.FIT and its eight functions
+    REQUIRE(function_texts().size() == 25);
     for (const FunctionText& f : function_texts()) {
-        std::string upper = f.method;
-        for (char& c : upper) c = static_cast<char>(std::toupper(static_cast<unsigned char>(c)));
+        // fitEstimates -> FIT.ESTIMATES: a capital inside the method name starts a new word
+        std::string upper;
+        for (const char* m = f.method; *m != '\0'; ++m) {
+            if (m != f.method && std::isupper(static_cast<unsigned char>(*m))) upper += '.';
+            upper += static_cast<char>(std::toupper(static_cast<unsigned char>(*m)));
+        }
         CHECK(std::string(f.display) == "WEFT." + upper);
         CHECK(std::string(f.description).size() > 30);
         for (const ArgumentText& a : f.arguments) CHECK(std::string(a.description).size() > 15);
@@ -356,4 +360,125 @@ TEST_CASE("a call with a known cells key and model argument skips reading the ra
     CHECK(starts_with(e1, "weft: units has 200 rows but outcome has 201"));
     CHECK(e1 == e2);
     CHECK(bad.reads == 2);
+}
+
+// ------------------------------------------------------------- the fit cell
+
+namespace {
+
+Arg cell_arg(const Cell& c) {
+    Arg a;
+    a.given = true;
+    a.table = table({{c}});
+    return a;
+}
+
+std::string cells_text(const OutTable& t) {
+    std::string s;
+    for (const OutCell& c : t.cells)
+        s += (c.kind == OutCell::Kind::number ? std::to_string(c.number) : c.text) + "|";
+    return s;
+}
+
+}  // namespace
+
+TEST_CASE("a fit cell names the fit, and the WEFT.FIT functions answer as the range functions do") {
+    const Grunfeld g = grunfeld(true);
+    const PanelRanges in{g.inv, g.x, g.firm, g.year};
+    const Arg model = word("within cluster");
+    const OutCell name = fn_fit(in, model);
+    REQUIRE(name.kind == OutCell::Kind::text);
+    // "weft fit <32 hex digits> (<canonical model words>; <used> of <rows> rows used)"
+    CHECK(starts_with(name.text, "weft fit "));
+    CHECK(contains(name.text, "within"));
+    CHECK(contains(name.text, "200 of 200 rows used"));
+    const Arg fit = cell_arg(text(name.text));
+
+    const OutTable est = fn_fit_estimates(fit);
+    const auto ref = reference("grunfeld_within.json")["results"];
+    REQUIRE(est.rows == 3);
+    // grunfeld_within.json results.coef.value and results.se.CR1.value
+    CHECK(rel_close(est.cells[8].number, ref["coef"]["value"].get<double>()));
+    CHECK(rel_close(est.cells[9].number, ref["se"]["CR1"]["value"].get<double>()));
+    CHECK(cells_text(est) == cells_text(fn_estimates(in, model)));
+    CHECK(cells_text(fn_fit_summary(fit)) == cells_text(fn_summary(in, model)));
+    CHECK(fn_fit_value(fit, word("se"), word("capital")).number ==
+          fn_value(in, model, word("se"), word("capital")).number);
+    CHECK(cells_text(fn_fit_residuals(fit)) == cells_text(fn_residuals(in, model)));
+    CHECK(cells_text(fn_fit_fitted(fit)) == cells_text(fn_fitted(in, model)));
+    CHECK(cells_text(fn_fit_joint(fit, word("value, capital"))) ==
+          cells_text(fn_joint(in, model, word("value, capital"))));
+    CHECK(cells_text(fn_fit_hetero(fit, word("bp"))) == cells_text(fn_hetero(in, model, word("bp"))));
+    CHECK(cells_text(fn_fit_serial(fit)) == cells_text(fn_serial(in, model)));
+
+    // Other data or other model words: another name.
+    CHECK(fn_fit(in, word("within")).text != name.text);
+    Grunfeld h = g;
+    h.inv.cells[3] = num(h.inv.cells[3].number + 1.0);
+    CHECK(fn_fit({h.inv, h.x, h.firm, h.year}, model).text != name.text);
+    // The same model written otherwise: the same name.
+    CHECK(fn_fit(in, word("cluster  within")).text == name.text);
+}
+
+TEST_CASE("a fit argument that is not a fit cell gets a weft: message that says what to give") {
+    const Grunfeld g = grunfeld(true);
+    CHECK(contains(error_of([] { fn_fit_estimates(Arg()); }), "fit is missing"));
+    CHECK(contains(error_of([] { fn_fit_estimates(cell_arg(num(3))); }), "fit holds 3, not a fit"));
+    CHECK(contains(error_of([] { fn_fit_summary(word("within")); }),
+                   "fit holds \"within\", not a fit; give the cell that holds =WEFT.FIT("));
+    CHECK(contains(error_of([] { fn_fit_serial(word("weft fit 12ab")); }), "not a fit"));
+    CHECK(contains(error_of([] { fn_fit_serial(word(std::string("weft fit ") + std::string(33, 'a'))); }),
+                   "not a fit"));
+    Arg range;
+    range.given = true;
+    range.table = table({{text("a")}, {text("b")}});
+    CHECK(contains(error_of([&] { fn_fit_estimates(range); }), "fit is a range of 2 cells"));
+    // A fit cell that shows an error passes that error on, word for word.
+    const std::string bad = error_of([&] { fn_fit({g.inv, g.x, g.firm, g.year}, word("wihtin")); });
+    REQUIRE(starts_with(bad, "weft: "));
+    CHECK(contains(bad, "wihtin"));
+    CHECK(error_of([&] { fn_fit_estimates(word(bad)); }) == bad);
+    // A well-formed name of a fit nobody made (or one no longer kept).
+    const std::string unknown = std::string("weft fit ") + std::string(32, '0') + " (pooled)";
+    CHECK(contains(error_of([&] { fn_fit_value(word(unknown), word("n"), Arg()); }),
+                   "is not in memory"));
+    CHECK(contains(error_of([&] { fn_fit_value(word(unknown), word("n"), Arg()); }),
+                   "Ctrl+Shift+F9"));
+}
+
+TEST_CASE("fit cells stay answerable while fewer than 32 newer fits were made") {
+    const Grunfeld g = grunfeld(true);
+    const PanelRanges in{g.inv, g.x, g.firm, g.year};
+    std::vector<std::string> models;
+    for (const char* e : {"pooled", "fd", "within", "pooled periods"})
+        for (const char* v : {"classical", "hc0", "hc1", "hc2", "hc3", "cluster", "cluster0", "dk"})
+            models.push_back(std::string(e) + " " + v);
+    REQUIRE(models.size() == 32);
+    const std::string first = fn_fit(in, word(models[0])).text;
+    for (std::size_t i = 1; i < 32; ++i) fn_fit(in, word(models[i]));
+    // 31 newer fits: the first is still kept; using it makes it the newest, so
+    // the next new fit replaces the second-oldest instead
+    CHECK(fn_fit_value(word(first), word("n"), Arg()).number == 200.0);
+    const std::string second = fn_fit(in, word(models[1])).text;  // kept: no new fit
+    for (std::size_t i = 2; i < 32; ++i) fn_fit(in, word(models[i]));
+    CHECK(fn_fit_value(word(first), word("n"), Arg()).number == 200.0);
+    fn_fit(in, word("random"));
+    CHECK(fn_fit_value(word(first), word("n"), Arg()).number == 200.0);
+    CHECK(contains(error_of([&] { fn_fit_value(word(second), word("n"), Arg()); }),
+                   "is not in memory: newer fits replaced it"));
+}
+
+TEST_CASE("the LRU cache also keeps its total cost under a bound, but always the newest") {
+    LruCache<int> c(10, 100);
+    auto key = [](std::uint64_t k) { Hash128 h; h.a = k; return h; };
+    c.put(key(1), std::make_shared<int>(1), 40);
+    c.put(key(2), std::make_shared<int>(2), 40);
+    CHECK(c.size() == 2);
+    c.put(key(3), std::make_shared<int>(3), 40);  // 120 > 100: the oldest goes
+    CHECK(c.size() == 2);
+    CHECK(c.find(key(1)) == nullptr);
+    CHECK(c.find(key(2)) != nullptr);
+    c.put(key(4), std::make_shared<int>(4), 500);  // over the bound alone: kept alone
+    CHECK(c.size() == 1);
+    CHECK(*c.find(key(4)) == 4);
 }

@@ -46,10 +46,19 @@ CONTRACT = {
     "WEFT.DUMMIES": ["periods", "omit_first"],
     "WEFT.PANEL": ["units", "periods"],
     "WEFT.VERSION": [],
+    # The fit cell (README "The fit cell"): added functions, FUNCTIONS.md unchanged.
+    "WEFT.FIT": PANEL,
+    "WEFT.FIT.ESTIMATES": ["fit"], "WEFT.FIT.SUMMARY": ["fit"],
+    "WEFT.FIT.VALUE": ["fit", "what", "term"],
+    "WEFT.FIT.RESIDUALS": ["fit"], "WEFT.FIT.FITTED": ["fit"],
+    "WEFT.FIT.JOINT": ["fit", "terms"], "WEFT.FIT.HETERO": ["fit", "form"],
+    "WEFT.FIT.SERIAL": ["fit"],
 }
 # Calc marks every argument of type `any` optional: FUNCTIONS.md's [optional] ones,
 # and VALUE's what, an `any` so that a missing one gets a weft: message.
-OPTIONAL = {"model", "term", "terms", "form", "k", "omit_first", "what"}
+# The fit argument is an `any` too (a cell's text), so Calc marks it optional; a
+# missing one gets a weft: message.
+OPTIONAL = {"model", "term", "terms", "form", "k", "omit_first", "what", "fit"}
 ADDIN_CATEGORY = 11  # Calc's ID_FUNCTION_GRP_ADDINS ("Add-In")
 
 
