@@ -497,30 +497,35 @@ def workbook(key, sc):
     fd_terms_col = (3, 5)          # (col, first row) of the term names, header included
 
     r = 5 + fd_rows + 1
+    # The same model fitted once in a cell of its own (=WEFT.FIT); the numbers below
+    # and sections 3 to 5 take that cell instead of the four ranges.
+    fit = addr(3, r + 3)
+    an.formula(r + 3, 3, call("FIT", panel_args, fd_model), "note")
+    an.text(r + 4, 3, 'The cell above: =WEFT.FIT(...; "fd periods cluster"), the fit that '
+            "the numbers above and sections 3-5 use (=WEFT.FIT.VALUE(fit; ...) and so on)",
+            "note")
     an.text(r, 3, "Observations used (differences)", None)
-    an.formula(r, 5, call("VALUE", panel_args, fd_model, '"n"'), "num3")
+    an.formula(r, 5, call("FITVALUE", fit, '"n"'), "num3")
     an.text(r + 1, 3, f"Clusters ({sc['unit']}s)", None)
-    an.formula(r + 1, 5, call("VALUE", panel_args, fd_model, '"clusters"'), "num3")
+    an.formula(r + 1, 5, call("FITVALUE", fit, '"clusters"'), "num3")
     an.text(r + 2, 3, "R-squared (differenced equation)", None)
-    an.formula(r + 2, 5, call("VALUE", panel_args, fd_model, '"r2"'), "num4")
+    an.formula(r + 2, 5, call("FITVALUE", fit, '"r2"'), "num4")
 
     # Joint tests (7 x 2 each)
-    r = 18 if fd_rows <= 12 else 5 + fd_rows + 5
-    r = max(r, 5 + fd_rows + 5)
+    r = 18 if fd_rows <= 12 else 5 + fd_rows + 6
+    r = max(r, 5 + fd_rows + 6)
     joint_row = r
     an.text(r, 0, "3. Joint tests under the same model", "section")
     slope_list = ", ".join(sc["regressors"])
     an.text(r + 1, 0, f"Both slopes are zero: {slope_list}", "note")
-    an.formula(r + 2, 0, call("JOINT", panel_args, fd_model, f'"{slope_list}"'), "num4",
-               rows=7, cols=2)
+    an.formula(r + 2, 0, call("FITJOINT", fit, f'"{slope_list}"'), "num4", rows=7, cols=2)
     named.append(("joint_slopes", f"${A}.$A$1", abs_range(A, 0, r + 2, 2, 7)))
     # The period terms, named by the estimates table itself (a range of names).
     first_period_row = 5 + 1 + 1 + k
     n_period_terms = len(periods) - 2
     an.text(r + 1, 3, "All period effects are zero (terms taken from the table above)",
             "note")
-    an.formula(r + 2, 3, call("JOINT", panel_args, fd_model,
-                              rng(None, 3, first_period_row, 1, n_period_terms)),
+    an.formula(r + 2, 3, call("FITJOINT", fit, rng(None, 3, first_period_row, 1, n_period_terms)),
                "num4", rows=7, cols=2)
     named.append(("joint_periods", f"${A}.$A$1", abs_range(A, 3, r + 2, 2, 7)))
 
@@ -528,11 +533,10 @@ def workbook(key, sc):
     r = joint_row + 11
     hetero_row = r
     an.text(r, 0, "4. Heteroskedasticity of the residuals (Koenker)", "section")
-    an.formula(r + 1, 0, call("HETERO", panel_args, fd_model, '"koenker"'), "num4",
-               rows=7, cols=2)
+    an.formula(r + 1, 0, call("FITHETERO", fit, '"koenker"'), "num4", rows=7, cols=2)
     named.append(("hetero", f"${A}.$A$1", abs_range(A, 0, r + 1, 2, 7)))
     an.text(r, 3, "5. Serial correlation within units", "section")
-    an.formula(r + 1, 3, call("SERIAL", panel_args, fd_model), "num4", rows=12, cols=2)
+    an.formula(r + 1, 3, call("FITSERIAL", fit), "num4", rows=12, cols=2)
     named.append(("serial", f"${A}.$A$1", abs_range(A, 3, r + 1, 2, 12)))
 
     # Within versus random side by side with the Hausman comparison (12 x 2)
@@ -629,10 +633,11 @@ def workbook(key, sc):
         ("Analysis 1", "panel structure (=WEFT.PANEL)"),
         ("Analysis 2", "first differences with period effects and standard errors "
                        f"clustered by {sc['unit']} (=WEFT.ESTIMATES, model \"fd periods "
-                       "cluster\")"),
-        ("Analysis 3", "joint tests (=WEFT.JOINT)"),
-        ("Analysis 4-5", "heteroskedasticity (=WEFT.HETERO) and serial correlation "
-                         "(=WEFT.SERIAL) of the first-difference residuals"),
+                       "cluster\"); the same model fitted once in a cell of its own "
+                       "(=WEFT.FIT), which the numbers below it and sections 3-5 take"),
+        ("Analysis 3", "joint tests (=WEFT.FIT.JOINT)"),
+        ("Analysis 4-5", "heteroskedasticity (=WEFT.FIT.HETERO) and serial correlation "
+                         "(=WEFT.FIT.SERIAL) of the first-difference residuals"),
         ("Analysis 6", "within and random effects side by side, Hausman comparison "
                        "(=WEFT.HAUSMAN)"),
         ("Analysis 7-8", "chart of the slopes with their 95% intervals; the reading"),
