@@ -10,7 +10,11 @@ regressors, from weft_bench's seeded generator, with a header row), measures wit
   - cached:  the same formula recalculated with nothing changed: the add-in's cache
              answers, as it does for every further function on the same model;
   - second:  WEFT.ESTIMATES plus WEFT.VALUE(...; "se"; "x1") on the same model, cold:
-             the pair minus `first` is what the second function adds.
+             the pair minus `first` is what the second function adds;
+  - alone:   a second function on a model already fitted, recalculated by itself
+             (calculate() after its term cell changed): WEFT.VALUE over the four ranges,
+             and WEFT.FIT.VALUE over a fit cell (WEFT.FIT), against a cold WEFT.FIT with
+             WEFT.FIT.ESTIMATES and WEFT.FIT.VALUE on it.
 The add-in's log (WEFT_ADDIN_LOG) is read to check that `first` fitted and that
 `cached` and the second function did not. Medians over --reps runs.
 The add-in's timing trace (WEFT_ADDIN_TRACE) splits each recalculation into the
@@ -101,11 +105,15 @@ class Recalc:
     def __init__(self, doc, pid, trace=None):
         self.doc, self.pid, self.trace = doc, pid, trace
 
-    def __call__(self, wall, cpu, phases=None):
+    def __call__(self, wall, cpu, phases=None, hard=True):
+        """hard: calculateAll() (every formula); else calculate() (only the dirty ones)."""
         before = len(trace_lines(self.trace)) if self.trace else 0
         cpu_start = office_cpu_seconds(self.pid)
         start = time.perf_counter()
-        self.doc.calculateAll()
+        if hard:
+            self.doc.calculateAll()
+        else:
+            self.doc.calculate()
         wall.append(time.perf_counter() - start)
         cpu.append(office_cpu_seconds(self.pid) - cpu_start)
         if phases is not None and self.trace:
@@ -212,6 +220,58 @@ def main():
                     if kinds.count("fit") != 1:
                         failures.append(f"{n_rows} rows: ESTIMATES + VALUE logged {kinds}, expected one fit")
                 se_x1 = probe.getValue()
+
+                # A second function on a model already fitted, recalculated alone
+                # (calculate(): only the cell whose argument changed), once taking the
+                # four ranges (the office converts them again for the call) and once
+                # taking a fit cell (WEFT.FIT) instead.
+                term = sheet.getCellRangeByName(f"{out_col}22")
+                term.setString("x1")
+                nudge.setValue(y0)  # the data the fit cell below sees too
+                probe.setFormula(f'=WEFT.VALUE({ranges};{model};"se";{out_col}22)')
+                doc.calculateAll()
+                alone, alone_cpu, alone_ph = [], [], []
+                se_by_term = {}
+                for rep in range(2 * args.reps):
+                    term.setString("x2" if rep % 2 == 0 else "x1")
+                    before = len(log_kinds(log))
+                    recalc(alone, alone_cpu, alone_ph, hard=False)
+                    if "fit" in log_kinds(log)[before:]:
+                        failures.append(f"{n_rows} rows: a second VALUE over the ranges fitted again")
+                    se_by_term[term.getString()] = probe.getValue()
+                estimates.setArrayFormula("")
+                probe.setFormula("")
+
+                fit_cell = f"{out_col}24"
+                sheet.getCellRangeByName(fit_cell).setFormula(f"=WEFT.FIT({ranges};{model})")
+                probe.setFormula(f'=WEFT.FIT.VALUE({fit_cell};"se";{out_col}22)')
+                estimates.setArrayFormula(f"=WEFT.FIT.ESTIMATES({fit_cell})")
+                fit_first, fit_first_cpu, fit_first_ph = [], [], []
+                for rep in range(args.reps):
+                    nudge_input(2 * args.reps + rep)
+                    before = len(log_kinds(log))
+                    recalc(fit_first, fit_first_cpu, fit_first_ph)
+                    kinds = log_kinds(log)[before:]
+                    if kinds.count("fit") != 1:
+                        failures.append(f"{n_rows} rows: WEFT.FIT + two functions on it logged {kinds}, "
+                                        "expected one fit")
+                nudge.setValue(y0)
+                doc.calculateAll()
+                by_fit, by_fit_cpu, by_fit_ph = [], [], []
+                for rep in range(2 * args.reps):
+                    term.setString("x2" if rep % 2 == 0 else "x1")
+                    before = len(log_kinds(log))
+                    recalc(by_fit, by_fit_cpu, by_fit_ph, hard=False)
+                    if "fit" in log_kinds(log)[before:]:
+                        failures.append(f"{n_rows} rows: WEFT.FIT.VALUE fitted again")
+                    # the same number as the function over the ranges (same data, model, term)
+                    want = se_by_term.get(term.getString())
+                    if want is None or probe.getValue() != want:
+                        failures.append(f"{n_rows} rows: WEFT.FIT.VALUE se {term.getString()} = "
+                                        f"{probe.getString()}, WEFT.VALUE gave {want}")
+                for c in (probe, sheet.getCellRangeByName(fit_cell), term):
+                    c.setFormula("")
+                estimates.setArrayFormula("")
                 row = {
                     "rows": n_rows, "columns": len(header), "reps": args.reps,
                     "fill_seconds": fill_seconds,
@@ -223,11 +283,20 @@ def main():
                     "first_cpu": statistics.median(first_cpu),
                     "cached_cpu": statistics.median(cached_cpu),
                     "pair_cpu": statistics.median(pair_cpu),
+                    "alone_seconds": statistics.median(alone),
+                    "alone_cpu": statistics.median(alone_cpu),
+                    "fit_first_seconds": statistics.median(fit_first),
+                    "fit_first_cpu": statistics.median(fit_first_cpu),
+                    "by_fit_seconds": statistics.median(by_fit),
+                    "by_fit_cpu": statistics.median(by_fit_cpu),
                     "se_x1": se_x1,
                     "phases": {name: median_phases(ph, wall)
                                for name, ph, wall in (("first", first_ph, first),
                                                       ("cached", cached_ph, cached),
-                                                      ("pair", pair_ph, pair))},
+                                                      ("pair", pair_ph, pair),
+                                                      ("alone", alone_ph, alone),
+                                                      ("fit", fit_first_ph, fit_first),
+                                                      ("by-fit", by_fit_ph, by_fit))},
                 }
                 row["second_seconds"] = max(row["pair_seconds"] - row["first_seconds"], 0.0)
                 row["second_cpu"] = max(row["pair_cpu"] - row["first_cpu"], 0.0)
@@ -253,9 +322,22 @@ def main():
           "second: what a WEFT.VALUE on the same model adds to a cold recalculation (pair - first).\n"
           "Medians of calculateAll(); cpu = the office process's CPU time (10 ms resolution).")
     print()
+    print("A second function on a fitted model, recalculated alone (calculate()):")
+    print("%-9s %-5s %9s %9s %11s %9s %11s" % ("rows", "clock", "first_s", "ranges_s", "ranges/1st",
+                                             "fit_s", "fit/1st"))
+    for r in results:
+        for clock, suffix in (("wall", "_seconds"), ("cpu", "_cpu")):
+            first_v, alone_v, fit_v = (r[k + suffix] for k in ("fit_first", "alone", "by_fit"))
+            print("%-9d %-5s %9.3f %9.3f %10.1f%% %9.4f %10.2f%%" % (
+                r["rows"], clock, first_v, alone_v, 100 * alone_v / first_v, fit_v,
+                100 * fit_v / first_v))
+    print("first: WEFT.FIT fd cluster plus WEFT.FIT.ESTIMATES and WEFT.FIT.VALUE on it, cold;\n"
+          "ranges: WEFT.VALUE(ranges; ...; term) after its term changed (the office converts the\n"
+          "ranges again); fit: WEFT.FIT.VALUE(fit cell; ...; term) after its term changed.")
+    print()
     print("Where the time goes (seconds, medians; add-in phases from WEFT_ADDIN_TRACE, office = wall - add-in total):")
     for r in results:
-        for name in ("first", "cached", "pair"):
+        for name in ("first", "cached", "pair", "alone", "fit", "by-fit"):
             ph = r["phases"].get(name, {})
             print("%-9d %-7s " % (r["rows"], name) +
                   " ".join("%s=%.3f" % (k, ph[k]) for k in
