@@ -372,6 +372,24 @@ const weft_panel* panel_or_throw(const PanelEntry& e) {
     return e.panel.get();
 }
 
+// What a WEFT.FIT cell names: a fitted model kept for the cells that take the fit
+// cell instead of the four ranges. Calc's dependency tracking keeps those cells
+// current: when a range changes, the fit cell is computed again and shows a new
+// fit (the name is the model key, so new data or model words give a new name),
+// and every cell that takes it follows. The office computes add-in cells when it
+// opens a file (whatever its recalculate-on-load setting), so a reopened workbook
+// fits again. Fits stay here, whatever model_cache evicts, while fewer than
+// kFitsKept newer fits were made and the newer ones hold less than kFitCellBudget
+// cells of input (about 8 bytes each, and the model keeps a copy of its data).
+struct FitEntry {
+    std::shared_ptr<ModelEntry> entry;
+    bool header = false;
+    std::size_t n = 0;
+};
+constexpr std::size_t kFitsKept = 32;
+constexpr std::size_t kFitCellBudget = std::size_t{64} << 20;
+LruCache<FitEntry> fit_cache(kFitsKept, kFitCellBudget);
+
 // The fitted model for these ranges and model text: from the cache, or fitted now.
 // A rejected fit is cached as its message, so twenty cells over one bad input do
 // not refit twenty times either.
@@ -399,6 +417,13 @@ std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string
         log_line("hit " + key.hex());
         CallTrace::note("hit");
         return hit;
+    }
+    // A fit cell may still hold the model that model_cache let go.
+    if (auto kept = fit_cache.find(key)) {
+        log_line("hit " + key.hex());
+        CallTrace::note("hit-fit");
+        model_cache.put(key, kept->entry);
+        return kept->entry;
     }
     auto entry = std::make_shared<ModelEntry>();
     try {
@@ -447,24 +472,6 @@ Hash128 call_key_of(const Hash128& cells, const Arg& model_arg) {
     return h.digest();
 }
 
-// What a WEFT.FIT cell names: a fitted model kept for the cells that take the fit
-// cell instead of the four ranges. Calc's dependency tracking keeps those cells
-// current: when a range changes, the fit cell is computed again and shows a new
-// fit (the name is the model key, so new data or model words give a new name),
-// and every cell that takes it follows. The office computes add-in cells when it
-// opens a file (whatever its recalculate-on-load setting), so a reopened workbook
-// fits again. Fits stay here, whatever model_cache evicts, while fewer than
-// kFitsKept newer fits were made and the newer ones hold less than kFitCellBudget
-// cells of input (about 8 bytes each, and the model keeps a copy of its data).
-struct FitEntry {
-    std::shared_ptr<ModelEntry> entry;
-    bool header = false;
-    std::size_t n = 0;
-};
-constexpr std::size_t kFitsKept = 32;
-constexpr std::size_t kFitCellBudget = std::size_t{64} << 20;
-LruCache<FitEntry> fit_cache(kFitsKept, kFitCellBudget);
-
 const char* const fit_prefix = "weft fit ";
 constexpr std::size_t fit_name_digits = 32;
 
@@ -499,9 +506,11 @@ Hash128 fit_key_of(const Arg& fit) {
     if (ok && text.size() > p + fit_name_digits && hex_digit(text[p + fit_name_digits]) >= 0)
         ok = false;
     if (!ok) {
-        std::string shown = c.is_number() ? format_number(c.number)
-                            : c.is_text() ? quoted(text.substr(0, 40) + (text.size() > 40 ? "..." : ""))
-                                          : std::string("a blank");
+        // (a reference to a blank cell arrives as the number 0)
+        const std::string shown =
+            c.is_number() ? (c.number == 0.0 ? std::string("0 (or is blank)") : format_number(c.number))
+            : c.is_text() ? quoted(text.substr(0, 40) + (text.size() > 40 ? "..." : ""))
+                          : std::string("nothing");
         fail("fit holds " + shown + ", not a fit; " + how);
     }
     return key;

@@ -424,6 +424,7 @@ TEST_CASE("a fit argument that is not a fit cell gets a weft: message that says 
     const Grunfeld g = grunfeld(true);
     CHECK(contains(error_of([] { fn_fit_estimates(Arg()); }), "fit is missing"));
     CHECK(contains(error_of([] { fn_fit_estimates(cell_arg(num(3))); }), "fit holds 3, not a fit"));
+    CHECK(contains(error_of([] { fn_fit_estimates(cell_arg(num(0))); }), "fit holds 0 (or is blank)"));
     CHECK(contains(error_of([] { fn_fit_summary(word("within")); }),
                    "fit holds \"within\", not a fit; give the cell that holds =WEFT.FIT("));
     CHECK(contains(error_of([] { fn_fit_serial(word("weft fit 12ab")); }), "not a fit"));
@@ -481,4 +482,34 @@ TEST_CASE("the LRU cache also keeps its total cost under a bound, but always the
     c.put(key(4), std::make_shared<int>(4), 500);  // over the bound alone: kept alone
     CHECK(c.size() == 1);
     CHECK(*c.find(key(4)) == 4);
+}
+
+TEST_CASE("a range function finds the model a fit cell holds after the model cache let it go") {
+    const std::string log = std::string(WEFT_TEST_BINARY_DIR) + "/addin_logic_fit_cell.log";
+    std::remove(log.c_str());
+    const Grunfeld g = grunfeld(true);
+    const PanelRanges in{g.inv, g.x, g.firm, g.year};
+    // a model no other test case fits
+    const Arg model = word("within hc2 level=0.8");
+    const OutCell name = fn_fit(in, model);
+    REQUIRE(starts_with(name.text, "weft fit "));
+    // nine other models through the range functions: more than the 8-model cache holds
+    for (const char* w : {"pooled hc0 level=0.8", "pooled hc1 level=0.8", "pooled hc2 level=0.8",
+                          "pooled hc3 level=0.8", "fd hc0 level=0.8", "fd hc1 level=0.8",
+                          "fd hc2 level=0.8", "fd hc3 level=0.8", "within hc0 level=0.8"})
+        fn_value(in, word(w), word("n"), Arg());
+    REQUIRE(setenv("WEFT_ADDIN_LOG", log.c_str(), 1) == 0);
+    const OutCell by_ranges = fn_value(in, model, word("se"), word("value"));
+    unsetenv("WEFT_ADDIN_LOG");
+    CHECK(by_ranges.number == fn_fit_value(word(name.text), word("se"), word("value")).number);
+    std::ifstream lines(log);
+    std::string line;
+    int fit_lines = 0, hit_lines = 0;
+    while (std::getline(lines, line)) {
+        if (line.rfind("fit ", 0) == 0) ++fit_lines;
+        if (line.rfind("hit ", 0) == 0) ++hit_lines;
+    }
+    CHECK(fit_lines == 0);
+    CHECK(hit_lines == 1);
+    std::remove(log.c_str());
 }
