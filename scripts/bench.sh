@@ -6,7 +6,8 @@
 #      balanced and unbalanced with gaps: medians, the floor, ratios, peak memory;
 #   2. tests/bench/compare.py: one 1M-row dataset through weft, R plm, R lm.fit +
 #      sandwich and statsmodels, with an agreement check;
-#   3. tests/bench/calc_bench.py: WEFT.ESTIMATES in headless Calc (needs the add-in).
+#   3. tests/bench/calc_bench.py: WEFT.ESTIMATES in headless Calc, and a second function
+#      over the ranges and over a fit cell (WEFT.FIT) (needs the add-in).
 # Results land in $WEFT_BENCH_OUT (default out/bench/). Takes 5-15 minutes on 2 cores.
 #
 #   bash scripts/bench.sh                 everything
