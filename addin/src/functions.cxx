@@ -978,7 +978,7 @@ OutCell fn_fit(const PanelSource& in, const Arg& model) {
     OutCell out;
     out.kind = OutCell::Kind::text;
     out.text = fit_prefix + f.model_key.hex() + " (" + std::string(words.data()) + "; " +
-               format_number(used) + " of " + std::to_string(f.input.n) + " rows used)";
+               format_number(used) + " observations from " + std::to_string(f.input.n) + " rows)";
     return out;
 }
 

@@ -46,7 +46,7 @@ private:
 };
 
 // WEFT.FIT: fits the model and returns one text that names the fit
-// ("weft fit <32 hex digits> (<model words>; <used> of <rows> rows used)"); the
+// ("weft fit <32 hex digits> (<model words>; <n> observations from <rows> rows)"); the
 // fn_fit_* functions take that text (the fit cell) instead of the four ranges and
 // the model argument, so they neither read the ranges nor fit again.
 OutCell fn_fit(const PanelSource& in, const Arg& model);

@@ -388,10 +388,12 @@ TEST_CASE("a fit cell names the fit, and the WEFT.FIT functions answer as the ra
     const Arg model = word("within cluster");
     const OutCell name = fn_fit(in, model);
     REQUIRE(name.kind == OutCell::Kind::text);
-    // "weft fit <32 hex digits> (<canonical model words>; <used> of <rows> rows used)"
+    // "weft fit <32 hex digits> (<canonical model words>; <n> observations from <rows> rows)"
     CHECK(starts_with(name.text, "weft fit "));
     CHECK(contains(name.text, "within"));
-    CHECK(contains(name.text, "200 of 200 rows used"));
+    // grunfeld_within.json sample.nobs 200; grunfeld_fd.json sample.nobs 190 differences
+    CHECK(contains(name.text, "200 observations from 200 rows)"));
+    CHECK(contains(fn_fit(in, word("fd")).text, "190 observations from 200 rows)"));
     const Arg fit = cell_arg(text(name.text));
 
     const OutTable est = fn_fit_estimates(fit);

@@ -105,7 +105,8 @@ class FitCellTests(unittest.TestCase):
         self.doc.calculateAll()
 
         self.assertTrue(fit.getString().startswith("weft fit "), fit.getString())
-        self.assertIn("200 of 200 rows used", fit.getString())
+        self.assertIn("200 observations from 200 rows", fit.getString(),
+                      "grunfeld_within.json:sample.nobs")
         for by_fit, a, b in placed:
             with self.subTest(formula=by_fit):
                 self.assertEqual(a.getDataArray(), b.getDataArray())
