@@ -501,9 +501,8 @@ def workbook(key, sc):
     # and sections 3 to 5 take that cell instead of the four ranges.
     fit = addr(3, r + 3)
     an.formula(r + 3, 3, call("FIT", panel_args, fd_model), "note")
-    an.text(r + 4, 3, 'The cell above: =WEFT.FIT(...; "fd periods cluster"), the fit that '
-            "the numbers above and sections 3-5 use (=WEFT.FIT.VALUE(fit; ...) and so on)",
-            "note")
+    an.text(r + 4, 3, 'Above: =WEFT.FIT(...; "fd periods cluster"); the three numbers and '
+            "sections 3-5 take this cell", "note")
     an.text(r, 3, "Observations used (differences)", None)
     an.formula(r, 5, call("FITVALUE", fit, '"n"'), "num3")
     an.text(r + 1, 3, f"Clusters ({sc['unit']}s)", None)
