@@ -120,6 +120,21 @@ class Recalc:
             phases.append(phase_seconds(trace_lines(self.trace)[before:]))
 
 
+def recalc_alone(recalc, term, probe, log, runs, fail):
+    """Recalculates only the probe cell (calculate()) after switching its term cell
+    between x2 and x1, `runs` times; `fail` is told if a run fitted. Returns the wall,
+    cpu and phase lists and the probe's value per term."""
+    wall, cpu, phases, values = [], [], [], {}
+    for rep in range(runs):
+        term.setString("x2" if rep % 2 == 0 else "x1")
+        before = len(log_kinds(log))
+        recalc(wall, cpu, phases, hard=False)
+        if "fit" in log_kinds(log)[before:]:
+            fail("fitted again")
+        values[term.getString()] = probe.getValue()
+    return wall, cpu, phases, values
+
+
 def median_phases(phases, wall):
     """Median of each traced phase, plus `office`: wall clock minus the add-in's total."""
     if not phases:
@@ -230,15 +245,9 @@ def main():
                 nudge.setValue(y0)  # the data the fit cell below sees too
                 probe.setFormula(f'=WEFT.VALUE({ranges};{model};"se";{out_col}22)')
                 doc.calculateAll()
-                alone, alone_cpu, alone_ph = [], [], []
-                se_by_term = {}
-                for rep in range(2 * args.reps):
-                    term.setString("x2" if rep % 2 == 0 else "x1")
-                    before = len(log_kinds(log))
-                    recalc(alone, alone_cpu, alone_ph, hard=False)
-                    if "fit" in log_kinds(log)[before:]:
-                        failures.append(f"{n_rows} rows: a second VALUE over the ranges fitted again")
-                    se_by_term[term.getString()] = probe.getValue()
+                alone, alone_cpu, alone_ph, se_by_term = recalc_alone(
+                    recalc, term, probe, log, 2 * args.reps,
+                    lambda what: failures.append(f"{n_rows} rows: WEFT.VALUE over the ranges {what}"))
                 estimates.setArrayFormula("")
                 probe.setFormula("")
 
@@ -257,18 +266,13 @@ def main():
                                         "expected one fit")
                 nudge.setValue(y0)
                 doc.calculateAll()
-                by_fit, by_fit_cpu, by_fit_ph = [], [], []
-                for rep in range(2 * args.reps):
-                    term.setString("x2" if rep % 2 == 0 else "x1")
-                    before = len(log_kinds(log))
-                    recalc(by_fit, by_fit_cpu, by_fit_ph, hard=False)
-                    if "fit" in log_kinds(log)[before:]:
-                        failures.append(f"{n_rows} rows: WEFT.FIT.VALUE fitted again")
-                    # the same number as the function over the ranges (same data, model, term)
-                    want = se_by_term.get(term.getString())
-                    if want is None or probe.getValue() != want:
-                        failures.append(f"{n_rows} rows: WEFT.FIT.VALUE se {term.getString()} = "
-                                        f"{probe.getString()}, WEFT.VALUE gave {want}")
+                by_fit, by_fit_cpu, by_fit_ph, se_by_fit = recalc_alone(
+                    recalc, term, probe, log, 2 * args.reps,
+                    lambda what: failures.append(f"{n_rows} rows: WEFT.FIT.VALUE {what}"))
+                # the same numbers as the function over the ranges (same data, model, terms)
+                if se_by_fit != se_by_term:
+                    failures.append(f"{n_rows} rows: se by WEFT.FIT.VALUE {se_by_fit}, "
+                                    f"by WEFT.VALUE {se_by_term}")
                 for c in (probe, sheet.getCellRangeByName(fit_cell), term):
                     c.setFormula("")
                 estimates.setArrayFormula("")

@@ -5,7 +5,9 @@ import csv
 import json
 import math
 import os
+import shutil
 import sys
+import tempfile
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 sys.path.insert(0, HERE)
@@ -37,6 +39,52 @@ def grunfeld():
     with open(os.path.join(DATA_DIR, "grunfeld.csv")) as f:
         rows = list(csv.reader(f))
     return rows[0], [[float(v) for v in r] for r in rows[1:]]
+
+
+# The Grunfeld data as put_rows(sheet, 0, 0, ...) places them (header in row 1): the
+# four ranges of a model function over it.
+GRUNFELD_LAST_ROW = 201
+GRUNFELD_RANGES = (f"C1:C{GRUNFELD_LAST_ROW};D1:E{GRUNFELD_LAST_ROW};"
+                   f"A1:A{GRUNFELD_LAST_ROW};B1:B{GRUNFELD_LAST_ROW}")
+
+
+def put_grunfeld(sheet, inv_factor=1.0):
+    """The Grunfeld data at A1 of sheet (firm, year, inv, value, capital), with inv
+    multiplied by inv_factor."""
+    header, rows = grunfeld()
+    put_rows(sheet, 0, 0, [header] + [r[:2] + [inv_factor * r[2]] + r[3:] for r in rows])
+
+
+class LoggedOffice:
+    """A headless office with the add-in installed whose fits and cache hits are
+    logged (WEFT_ADDIN_LOG) to a file in a temporary folder; start() gives the
+    Office, stop() stops it and removes the folder."""
+
+    def __init__(self, timeout=500):
+        self.log_dir = tempfile.mkdtemp(prefix="weft-calc-log-")
+        os.chmod(self.log_dir, 0o777)  # the office may run as an unprivileged user
+        self.log = os.path.join(self.log_dir, "addin.log")
+        self.office = Office(extensions=[oxt_path()], timeout=timeout,
+                             env={"WEFT_ADDIN_LOG": self.log})
+
+    def start(self):
+        self.office.__enter__()
+        return self.office
+
+    def stop(self):
+        self.office.stop()
+        shutil.rmtree(self.log_dir, ignore_errors=True)
+
+    def log_lines(self):
+        """[kind, hash] of each "fit <hash>" and "hit <hash>" line, in order; other
+        lines (conversion times) are skipped."""
+        if not os.path.exists(self.log):
+            return []
+        with open(self.log) as f:
+            return [line.split()[:2] for line in f if line.split()[:1] in (["fit"], ["hit"])]
+
+    def fits(self):
+        return [h for kind, h in self.log_lines() if kind == "fit"]
 
 
 def col_name(index):

@@ -108,6 +108,23 @@ nlohmann::json reference(const std::string& name) {
     return nlohmann::json::parse(in);
 }
 
+// The "fit <hash>" and "hit <hash>" lines of a WEFT_ADDIN_LOG file.
+struct LogCounts {
+    int fits = 0;
+    int hits = 0;
+};
+
+LogCounts log_counts(const std::string& path) {
+    std::ifstream in(path);
+    std::string line;
+    LogCounts n;
+    while (std::getline(in, line)) {
+        if (line.rfind("fit ", 0) == 0) ++n.fits;
+        if (line.rfind("hit ", 0) == 0) ++n.hits;
+    }
+    return n;
+}
+
 std::string error_of(const std::function<void()>& f) {
     try {
         f();
@@ -274,15 +291,9 @@ TEST_CASE("model texts that mean the same model share one fit") {
                                word("se"), word("value"));
     unsetenv("WEFT_ADDIN_LOG");
     CHECK(a.number == b.number);
-    std::ifstream in(log);
-    std::string line;
-    int fit_lines = 0, hit_lines = 0;
-    while (std::getline(in, line)) {
-        if (line.rfind("fit ", 0) == 0) ++fit_lines;
-        if (line.rfind("hit ", 0) == 0) ++hit_lines;
-    }
-    CHECK(fit_lines == 1);
-    CHECK(hit_lines == 1);
+    const LogCounts counts = log_counts(log);
+    CHECK(counts.fits == 1);
+    CHECK(counts.hits == 1);
     std::remove(log.c_str());
 }
 
@@ -504,14 +515,8 @@ TEST_CASE("a range function finds the model a fit cell holds after the model cac
     const OutCell by_ranges = fn_value(in, model, word("se"), word("value"));
     unsetenv("WEFT_ADDIN_LOG");
     CHECK(by_ranges.number == fn_fit_value(word(name.text), word("se"), word("value")).number);
-    std::ifstream lines(log);
-    std::string line;
-    int fit_lines = 0, hit_lines = 0;
-    while (std::getline(lines, line)) {
-        if (line.rfind("fit ", 0) == 0) ++fit_lines;
-        if (line.rfind("hit ", 0) == 0) ++hit_lines;
-    }
-    CHECK(fit_lines == 0);
-    CHECK(hit_lines == 1);
+    const LogCounts counts = log_counts(log);
+    CHECK(counts.fits == 0);
+    CHECK(counts.hits == 1);
     std::remove(log.c_str());
 }

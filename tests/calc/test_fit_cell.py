@@ -18,37 +18,26 @@ Run: WEFT_OXT=build/addin/weft.oxt /usr/bin/python3 tests/calc/test_fit_cell.py
 """
 
 import os
-import shutil
-import tempfile
 import unittest
 
-from calc_helpers import Office, close, grunfeld, oxt_path, put_rows, reference
+from calc_helpers import GRUNFELD_RANGES as R, LoggedOffice, close, put_grunfeld, reference
 from office import _props
 
-LAST = 201
-R = f"C1:C{LAST};D1:E{LAST};A1:A{LAST};B1:B{LAST}"
 WITHIN = reference("grunfeld_within.json")["results"]
 
 
 def setUpModule():
-    global OFFICE, LOG_DIR, LOG
-    LOG_DIR = tempfile.mkdtemp(prefix="weft-fit-log-")
-    os.chmod(LOG_DIR, 0o777)  # the office may run as an unprivileged user
-    LOG = os.path.join(LOG_DIR, "addin.log")
-    OFFICE = Office(extensions=[oxt_path()], timeout=500, env={"WEFT_ADDIN_LOG": LOG})
-    OFFICE.__enter__()
+    global LOGGED, OFFICE
+    LOGGED = LoggedOffice()
+    OFFICE = LOGGED.start()
 
 
 def tearDownModule():
-    OFFICE.stop()
-    shutil.rmtree(LOG_DIR, ignore_errors=True)
+    LOGGED.stop()
 
 
 def fits():
-    if not os.path.exists(LOG):
-        return []
-    with open(LOG) as f:
-        return [line.split()[1] for line in f if line.split()[:1] == ["fit"]]
+    return LOGGED.fits()
 
 
 def set_recalc_on_load(mode):
@@ -66,8 +55,7 @@ class FitCellTests(unittest.TestCase):
     def setUp(self):
         self.doc = OFFICE.new_calc()
         self.sheet = self.doc.Sheets.getByIndex(0)
-        header, rows = grunfeld()
-        put_rows(self.sheet, 0, 0, [header] + rows)
+        put_grunfeld(self.sheet)
 
     def tearDown(self):
         self.doc.close(True)
@@ -175,8 +163,7 @@ class FitCellTests(unittest.TestCase):
         other = OFFICE.new_calc()
         try:
             sheet2 = other.Sheets.getByIndex(0)
-            header, rows = grunfeld()
-            put_rows(sheet2, 0, 0, [header] + [r[:2] + [2 * r[2]] + r[3:] for r in rows])
+            put_grunfeld(sheet2, inv_factor=2.0)
             self.cell("G1", sheet2).setFormula(f'=WEFT.FIT({R};"within")')
             self.cell("H1", sheet2).setFormula('=WEFT.FIT.VALUE(G1;"estimate";"value")')
             other.calculateAll()
@@ -259,8 +246,7 @@ class FitCellTests(unittest.TestCase):
         other = OFFICE.new_calc()
         try:
             sheet2 = other.Sheets.getByIndex(0)
-            header, rows = grunfeld()
-            put_rows(sheet2, 0, 0, [header] + rows)
+            put_grunfeld(sheet2)
             self.evict_fits(sheet2)
         finally:
             other.close(True)

@@ -14,42 +14,31 @@ Run: WEFT_OXT=build/addin/weft.oxt /usr/bin/python3 tests/calc/test_recalc.py
 import os
 import random
 import re
-import shutil
-import tempfile
 import unittest
 import zipfile
 
-from calc_helpers import Office, close, grunfeld, oxt_path, put_rows, reference
+from calc_helpers import (GRUNFELD_LAST_ROW as LAST, GRUNFELD_RANGES as R, LoggedOffice, close,
+                          grunfeld, put_grunfeld, put_rows, reference)
 
-LAST = 201
-R = f"C1:C{LAST};D1:E{LAST};A1:A{LAST};B1:B{LAST}"
 WITHIN = reference("grunfeld_within.json")["results"]
 
 
 def setUpModule():
-    global OFFICE, LOG_DIR, LOG
-    LOG_DIR = tempfile.mkdtemp(prefix="weft-calc-log-")
-    os.chmod(LOG_DIR, 0o777)  # the office may run as an unprivileged user
-    LOG = os.path.join(LOG_DIR, "addin.log")
-    OFFICE = Office(extensions=[oxt_path()], timeout=500, env={"WEFT_ADDIN_LOG": LOG})
-    OFFICE.__enter__()
+    global LOGGED, OFFICE
+    LOGGED = LoggedOffice()
+    OFFICE = LOGGED.start()
 
 
 def tearDownModule():
-    OFFICE.stop()
-    shutil.rmtree(LOG_DIR, ignore_errors=True)
+    LOGGED.stop()
 
 
 def log_lines():
-    if not os.path.exists(LOG):
-        return []
-    with open(LOG) as f:
-        # "fit <hash>", "hit <hash>"; other lines (conversion times) are skipped
-        return [line.split()[:2] for line in f if line.split()[:1] in (["fit"], ["hit"])]
+    return LOGGED.log_lines()
 
 
 def fits():
-    return [h for kind, h in log_lines() if kind == "fit"]
+    return LOGGED.fits()
 
 
 class RecalcTests(unittest.TestCase):
@@ -57,8 +46,7 @@ class RecalcTests(unittest.TestCase):
     def setUp(self):
         self.doc = OFFICE.new_calc()
         self.sheet = self.doc.Sheets.getByIndex(0)
-        header, rows = grunfeld()
-        put_rows(self.sheet, 0, 0, [header] + rows)
+        put_grunfeld(self.sheet)
 
     def tearDown(self):
         self.doc.close(True)
@@ -167,8 +155,7 @@ class RecalcTests(unittest.TestCase):
         other = OFFICE.new_calc()
         try:
             sheet2 = other.Sheets.getByIndex(0)
-            header, rows = grunfeld()
-            put_rows(sheet2, 0, 0, [header] + [r[:2] + [2 * r[2]] + r[3:] for r in rows])
+            put_grunfeld(sheet2, inv_factor=2.0)
             sheet2.getCellRangeByName("H1").setFormula(formula)
             other.calculateAll()
             self.doc.calculateAll()
