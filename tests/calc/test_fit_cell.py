@@ -13,12 +13,13 @@
 - A workbook saved and opened again fits again: the office computes add-in cells
   on load even when set never to recalculate on load (its default). A cell that
   takes a fit no longer in memory (32 newer fits) says how to fit again, and a
-  hard recalculation does.
+  hard recalculation does. An .xlsx round trip keeps the fit functions.
 Run: WEFT_OXT=build/addin/weft.oxt /usr/bin/python3 tests/calc/test_fit_cell.py
 """
 
 import os
 import unittest
+import zipfile
 
 from calc_helpers import GRUNFELD_RANGES as R, LoggedOffice, close, put_grunfeld, reference
 from office import _props
@@ -258,6 +259,35 @@ class FitCellTests(unittest.TestCase):
         self.doc.calculateAll()
         self.assertTrue(close(edited.getValue(), WITHIN["se"]["CR1"]["value"]),
                         "after a hard recalculation: grunfeld_within.json:results.se.CR1.value")
+
+    def test_xlsx_round_trip(self):
+        """An .xlsx stores ORG.WEFT.CALCFUNCTIONS.FIT and .FITVALUE, and a workbook
+        opened from it fits again and answers."""
+        self.cell("G1").setFormula(f'=WEFT.FIT({R};"within")')
+        self.cell("H1").setFormula('=WEFT.FIT.VALUE(G1;"estimate";"capital")')
+        self.cell("I1:O3").setArrayFormula("=WEFT.FIT.ESTIMATES(G1)")
+        self.doc.calculateAll()
+        path = os.path.join(OFFICE.work_dir, "fit-cell.xlsx")
+        OFFICE.save_as(self.doc, path, "Calc Office Open XML")
+        with zipfile.ZipFile(path) as z:
+            sheet = z.read("xl/worksheets/sheet1.xml").decode()
+        for method in ("FIT", "FITVALUE", "FITESTIMATES"):
+            self.assertIn(f"ORG.WEFT.CALCFUNCTIONS.{method}(", sheet)
+        self.cell("G1").setString("")
+        self.evict_fits()
+        doc2 = OFFICE.load(path)
+        try:
+            s2 = doc2.Sheets.getByIndex(0)
+            self.assertTrue(self.cell("G1", s2).getString().startswith("weft fit "))
+            self.assertTrue(close(self.cell("H1", s2).getValue(), WITHIN["coef"]["capital"]),
+                            "grunfeld_within.json:results.coef.capital")
+            self.assertTrue(close(self.cell("J2", s2).getValue(), WITHIN["coef"]["value"]),
+                            "grunfeld_within.json:results.coef.value")
+            edited = self.cell("H2", s2)
+            edited.setFormula('=WEFT.FIT.VALUE(G1;"n")')
+            self.assertEqual(edited.getValue(), 200.0, "grunfeld_within.json:sample.nobs")
+        finally:
+            doc2.close(True)
 
     def evict_fits(self, sheet=None):
         """32 new fits, one at a time (the add-in keeps the 32 newest)."""
