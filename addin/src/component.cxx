@@ -627,6 +627,14 @@ public:
         CallTrace trace("fitSerial");
         return table_result([&] { return fn_fit_serial(to_arg(fit)); });
     }
+    AnyRows SAL_CALL fitHausman(const Any& fit) override {
+        CallTrace trace("fitHausman");
+        return table_result([&] { return fn_fit_hausman(to_arg(fit)); });
+    }
+    AnyRows SAL_CALL fitEffects(const Any& fit) override {
+        CallTrace trace("fitEffects");
+        return table_result([&] { return fn_fit_effects(to_arg(fit)); });
+    }
 
     // ---- XAddIn ----------------------------------------------------------------
     // (The misspelling is the interface's own.) Nothing may escape here either.

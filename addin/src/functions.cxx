@@ -383,6 +383,7 @@ const weft_panel* panel_or_throw(const PanelEntry& e) {
 // cells of input (about 8 bytes each, and the model keeps a copy of its data).
 struct FitEntry {
     std::shared_ptr<ModelEntry> entry;
+    std::shared_ptr<PanelEntry> panel;  // for the tests that fit other estimators
     bool header = false;
     std::size_t n = 0;
 };
@@ -446,6 +447,7 @@ std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string
 // model is fitted again through the full path), so memory stays bounded as before.
 struct CallEntry {
     Hash128 model_key;
+    Hash128 panel_key;  // PanelInput::hash, the key of panel_cache
     bool header = false;
     std::size_t n = 0;
 };
@@ -524,6 +526,7 @@ struct Fitted {
     std::shared_ptr<ModelEntry> entry;
     const weft_model* model = nullptr;
     Hash128 model_key;
+    std::shared_ptr<PanelEntry> panel;  // from a fit cell: the fit's panel
 
     // From the four ranges and the model argument.
     Fitted(const PanelSource& source, const Arg& model_arg) {
@@ -536,15 +539,26 @@ struct Fitted {
         CallTrace::mark("lookup");
         if (!entry) {
             input = read_panel(source.ranges());
+            input_read = true;
             CallTrace::mark("read");
             entry = cached_model(input, model_text(model_arg), model_key);
             CallTrace::mark("model");
             if (cells != nullptr)
-                call_cache.put(call_key, std::make_shared<CallEntry>(
-                                             CallEntry{model_key, input.header, input.n}));
+                call_cache.put(call_key, std::make_shared<CallEntry>(CallEntry{
+                                             model_key, input.hash, input.header, input.n}));
         }
         if (!entry->error.empty()) throw UserError(UserError::FullText{}, entry->error);
         model = entry->model.get();
+    }
+
+    // The panel of these ranges (for the tests that fit other estimators on it):
+    // from panel_cache, else read from the source once more.
+    std::shared_ptr<PanelEntry> panel_entry(const PanelSource& source) {
+        if (input_read) return cached_panel(input);
+        if (auto hit = panel_cache.find(input.hash)) return hit;
+        input = read_panel(source.ranges());
+        input_read = true;
+        return cached_panel(input);
     }
 
     // From a fit cell (WEFT.FIT): nothing is read or fitted here.
@@ -561,12 +575,15 @@ struct Fitted {
         log_line("hit " + model_key.hex());
         CallTrace::note("hit-fit");
         entry = kept->entry;
+        panel = kept->panel;
         input.header = kept->header;
         input.n = kept->n;
         model = entry->model.get();
     }
 
 private:
+    bool input_read = false;  // input holds the columns (not only what a shortcut keeps)
+
     // The model this call found the last time these cells and this model argument
     // were passed, if it is still cached; fills what the results need of the input.
     std::shared_ptr<ModelEntry> shortcut(const Hash128& call_key) {
@@ -577,6 +594,7 @@ private:
         log_line("hit " + call->model_key.hex());
         CallTrace::note("hit-cells");
         model_key = call->model_key;
+        input.hash = call->panel_key;
         input.header = call->header;
         input.n = call->n;
         return found;
@@ -964,7 +982,8 @@ OutCell fn_fit(const PanelSource& in, const Arg& model) {
         size_t terms = 0;
         check(weft_model_term_count(f.model, &terms));
         fit_cache.put(f.model_key,
-                      std::make_shared<FitEntry>(FitEntry{f.entry, f.input.header, f.input.n}),
+                      std::make_shared<FitEntry>(
+                          FitEntry{f.entry, f.panel_entry(in), f.input.header, f.input.n}),
                       f.input.n * (terms + 3));
     }
     weft_options o = WEFT_OPTIONS_INIT;
@@ -1016,11 +1035,9 @@ OutTable fn_fit_joint(const Arg& fit, const Arg& terms) { return joint_of({nullp
 OutTable fn_fit_hetero(const Arg& fit, const Arg& form) { return hetero_of({nullptr, nullptr, &fit}, form); }
 OutTable fn_fit_serial(const Arg& fit) { return serial_of({nullptr, nullptr, &fit}); }
 
-OutTable fn_hausman(const PanelSource& in, const Arg& model) {
-    std::unique_lock<std::mutex> lock(cache_mutex);
-    const PanelInput input = read_panel(in.ranges());
-    const weft_options o = parse_options(model_text(model));
-    const weft_panel* panel = panel_or_throw(*cached_panel(input));
+namespace {
+
+OutTable hausman_table(const weft_panel* panel, const weft_options& o) {
     weft_hausman_result r;
     check(weft_test_hausman(panel, &o, &r));
     LabelValue lv;
@@ -1040,11 +1057,7 @@ OutTable fn_hausman(const PanelSource& in, const Arg& model) {
     return lv.table();
 }
 
-OutTable fn_effects(const PanelSource& in, const Arg& model) {
-    std::unique_lock<std::mutex> lock(cache_mutex);
-    const PanelInput input = read_panel(in.ranges());
-    const weft_options o = parse_options(model_text(model));
-    const weft_panel* panel = panel_or_throw(*cached_panel(input));
+OutTable effects_table(const weft_panel* panel, const weft_options& o) {
     weft_effects_result r;
     check(weft_test_effects(panel, &o, &r));
     LabelValue lv;
@@ -1055,6 +1068,35 @@ OutTable fn_effects(const PanelSource& in, const Arg& model) {
     add_test_warnings(lv);
     return lv.table();
 }
+
+// The panel and model options of a fit cell, for the tests that fit other
+// estimators on the fit's panel (with its model words).
+template <class Table>
+OutTable on_fit_panel(const Arg& fit, Table table) {
+    Fitted f(fit);
+    weft_options o = WEFT_OPTIONS_INIT;
+    check(weft_model_options(f.model, &o));
+    return table(panel_or_throw(*f.panel), o);
+}
+
+}  // namespace
+
+OutTable fn_hausman(const PanelSource& in, const Arg& model) {
+    std::unique_lock<std::mutex> lock(cache_mutex);
+    const PanelInput input = read_panel(in.ranges());
+    const weft_options o = parse_options(model_text(model));
+    return hausman_table(panel_or_throw(*cached_panel(input)), o);
+}
+
+OutTable fn_effects(const PanelSource& in, const Arg& model) {
+    std::unique_lock<std::mutex> lock(cache_mutex);
+    const PanelInput input = read_panel(in.ranges());
+    const weft_options o = parse_options(model_text(model));
+    return effects_table(panel_or_throw(*cached_panel(input)), o);
+}
+
+OutTable fn_fit_hausman(const Arg& fit) { return on_fit_panel(fit, hausman_table); }
+OutTable fn_fit_effects(const Arg& fit) { return on_fit_panel(fit, effects_table); }
 
 // Over plain tables: no cells key, so the ranges are always read.
 OutCell fn_fit(const PanelRanges& in, const Arg& model) { return fn_fit(TableSource(in), model); }

@@ -58,6 +58,8 @@ OutTable fn_fit_fitted(const Arg& fit);
 OutTable fn_fit_joint(const Arg& fit, const Arg& terms);
 OutTable fn_fit_hetero(const Arg& fit, const Arg& form);
 OutTable fn_fit_serial(const Arg& fit);
+OutTable fn_fit_hausman(const Arg& fit);
+OutTable fn_fit_effects(const Arg& fit);
 
 OutTable fn_estimates(const PanelSource& in, const Arg& model);
 OutTable fn_summary(const PanelSource& in, const Arg& model);

@@ -162,6 +162,14 @@ std::vector<FunctionText> make_texts() {
                  "AR(1) check of a fit cell's residuals within units, then the test of serially "
                  "uncorrelated level errors (fd, within).",
                  {fit_arg}});
+    t.push_back({"fitHausman", "WEFT.FIT.HAUSMAN",
+                 "WEFT.HAUSMAN on a fit cell's data: within versus random effects with the fit's "
+                 "periods and no-intercept words; statistic, df, p-value, then the robust form.",
+                 {fit_arg}});
+    t.push_back({"fitEffects", "WEFT.FIT.EFFECTS",
+                 "WEFT.EFFECTS on a fit cell's data: F test that all unit effects are zero "
+                 "(within versus pooled): F, df1, df2, p-value.",
+                 {fit_arg}});
     return t;
 }
 

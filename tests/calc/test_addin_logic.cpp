@@ -261,8 +261,8 @@ TEST_CASE("the LRU cache keeps the most recently used entries") {
 }
 
 TEST_CASE("every function has wizard texts and a display name WEFT.<METHOD>") {
-    // FUNCTIONS.md lists 16 functions; the fit cell adds WEFT.FIT and its eight functions
-    REQUIRE(function_texts().size() == 25);
+    // FUNCTIONS.md lists 16 functions; the fit cell adds WEFT.FIT and its ten functions
+    REQUIRE(function_texts().size() == 27);
     for (const FunctionText& f : function_texts()) {
         // fitEstimates -> FIT.ESTIMATES: a capital inside the method name starts a new word
         std::string upper;
@@ -423,6 +423,14 @@ TEST_CASE("a fit cell names the fit, and the WEFT.FIT functions answer as the ra
           cells_text(fn_joint(in, model, word("value, capital"))));
     CHECK(cells_text(fn_fit_hetero(fit, word("bp"))) == cells_text(fn_hetero(in, model, word("bp"))));
     CHECK(cells_text(fn_fit_serial(fit)) == cells_text(fn_serial(in, model)));
+    CHECK(cells_text(fn_fit_hausman(fit)) == cells_text(fn_hausman(in, model)));
+    CHECK(cells_text(fn_fit_effects(fit)) == cells_text(fn_effects(in, model)));
+    // with period effects the tests use them too
+    const Arg periods = word("within periods");
+    const Arg fit_p = cell_arg(text(fn_fit(in, periods).text));
+    CHECK(cells_text(fn_fit_hausman(fit_p)) == cells_text(fn_hausman(in, periods)));
+    CHECK(cells_text(fn_fit_effects(fit_p)) == cells_text(fn_effects(in, periods)));
+    CHECK(cells_text(fn_fit_hausman(fit_p)) != cells_text(fn_hausman(in, model)));
 
     // Other data or other model words: another name.
     CHECK(fn_fit(in, word("within")).text != name.text);

@@ -1,6 +1,6 @@
 """End-to-end: the fit cell (WEFT.FIT) and the functions that take it
 (WEFT.FIT.ESTIMATES, .SUMMARY, .VALUE, .RESIDUALS, .FITTED, .JOINT, .HETERO,
-.SERIAL) in a real headless Calc.
+.SERIAL, .HAUSMAN, .EFFECTS) in a real headless Calc.
 
 - Results equal the reference values (tests/data/panel/grunfeld_within.json, from
   R plm/sandwich, named beside each check) and, cell for cell, the functions that
@@ -78,6 +78,8 @@ class FitCellTests(unittest.TestCase):
             ('=WEFT.FIT.HETERO(G1;"white-special")', f'=WEFT.HETERO({R};{model};"white-special")',
              "7:2"),
             ("=WEFT.FIT.SERIAL(G1)", f"=WEFT.SERIAL({R};{model})", "12:2"),
+            ("=WEFT.FIT.HAUSMAN(G1)", f"=WEFT.HAUSMAN({R};{model})", "12:2"),
+            ("=WEFT.FIT.EFFECTS(G1)", f"=WEFT.EFFECTS({R};{model})", "4:2"),
         ]
         col = 8  # column I onwards, two blocks side by side per pair
         placed = []

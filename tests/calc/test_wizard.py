@@ -52,7 +52,7 @@ CONTRACT = {
     "WEFT.FIT.VALUE": ["fit", "what", "term"],
     "WEFT.FIT.RESIDUALS": ["fit"], "WEFT.FIT.FITTED": ["fit"],
     "WEFT.FIT.JOINT": ["fit", "terms"], "WEFT.FIT.HETERO": ["fit", "form"],
-    "WEFT.FIT.SERIAL": ["fit"],
+    "WEFT.FIT.SERIAL": ["fit"], "WEFT.FIT.HAUSMAN": ["fit"], "WEFT.FIT.EFFECTS": ["fit"],
 }
 # Calc marks every argument of type `any` optional: FUNCTIONS.md's [optional] ones,
 # and VALUE's what, an `any` so that a missing one gets a weft: message.
