@@ -110,13 +110,36 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
     const std::size_t n = units.size();
     std::vector<std::size_t> rows;
     reserve_large(rows, n);
-    for (std::size_t i = 0; i < n; ++i) {
-        if (units.is_missing(i)) continue;
-        if (periods != nullptr && periods->is_missing(i)) continue;
-        rows.push_back(i);
+    const bool none_missing = !units.is_text() && units.missing.empty() &&
+                              (periods == nullptr || periods->mask() == nullptr);
+    if (none_missing) {
+        rows.resize(n);
+        std::iota(rows.begin(), rows.end(), std::size_t{0});
+    } else {
+        for (std::size_t i = 0; i < n; ++i) {
+            if (units.is_missing(i)) continue;
+            if (periods != nullptr && periods->is_missing(i)) continue;
+            rows.push_back(i);
+        }
     }
     auto period_of = [&](std::size_t i) { return periods != nullptr ? periods->value(i) : 0.0; };
-    if (units.is_text()) {
+    if (!units.is_text() && periods != nullptr) {
+        // numeric ids with periods, the common case: the same order as below, tested
+        // pair by pair without the general comparator (input usually comes sorted)
+        const double* u = units.numbers.data();
+        const double* p = periods->data();
+        auto less = [&](std::size_t a, std::size_t b) {
+            if (u[a] != u[b]) return u[a] < u[b];
+            if (p[a] != p[b]) return p[a] < p[b];
+            return a < b;
+        };
+        bool sorted = true;
+        for (std::size_t k = 1; k < rows.size() && sorted; ++k) {
+            const std::size_t a = rows[k - 1], b = rows[k];
+            sorted = u[a] < u[b] || (u[a] == u[b] && (p[a] < p[b] || (p[a] == p[b] && a < b)));
+        }
+        if (!sorted) std::sort(rows.begin(), rows.end(), less);
+    } else if (units.is_text()) {
         auto less = [&](std::size_t a, std::size_t b) {
             const int c = units.text[a].compare(units.text[b]);
             if (c != 0) return c < 0;
@@ -140,16 +163,27 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
     assign_large(index.period_of_row, n, std::int32_t{-1});
     index.unit_labels.clear();
     index.unit_start.clear();
-    auto same_unit = [&](std::size_t a, std::size_t b) {
-        return units.is_text() ? units.text[a] == units.text[b] : units.numbers[a] == units.numbers[b];
+    auto new_unit = [&](std::size_t k, const std::string& label) {
+        index.unit_start.push_back(k);
+        index.unit_labels.push_back(label);
     };
-    for (std::size_t k = 0; k < rows.size(); ++k) {
-        const std::size_t i = rows[k];
-        if (k == 0 || !same_unit(rows[k - 1], i)) {
-            index.unit_start.push_back(k);
-            index.unit_labels.push_back(units.is_text() ? units.text[i] : format_number(units.numbers[i]));
+    if (units.is_text()) {
+        for (std::size_t k = 0; k < rows.size(); ++k) {
+            const std::size_t i = rows[k];
+            if (k == 0 || units.text[rows[k - 1]] != units.text[i]) new_unit(k, units.text[i]);
+            index.unit_of_row[i] = static_cast<std::int32_t>(index.unit_labels.size() - 1);
         }
-        index.unit_of_row[i] = static_cast<std::int32_t>(index.unit_labels.size() - 1);
+    } else {
+        const double* u = units.numbers.data();
+        std::int32_t id = -1;
+        for (std::size_t k = 0; k < rows.size(); ++k) {
+            const std::size_t i = rows[k];
+            if (k == 0 || u[rows[k - 1]] != u[i]) {
+                new_unit(k, format_number(u[i]));
+                ++id;
+            }
+            index.unit_of_row[i] = id;
+        }
     }
     index.unit_start.push_back(rows.size());
     return rows;

@@ -185,7 +185,7 @@ TEST_CASE("lean fit equals the full fit: pooled and fd, every covariance it comp
 }
 
 TEST_CASE("lean fit equals the full fit on a panel larger than its starting sample", "[lean]") {
-    // 5,000 units x 10 periods: more equation rows than the 16 blocks of 2,048 rows
+    // 5,000 units x 10 periods: more equation rows than the 64 blocks of 512 rows
     // whose fit starts the refinement, so the start differs from the solution
     Shape big;
     big.units = 5000;
