@@ -211,13 +211,17 @@ public:
             blk.keep = keep_.data() + (a - lo_);
             for (Index c = 0; c < width(); ++c) {
                 const double* x = columns_[static_cast<std::size_t>(c)];
-                if (check_values && finite_) finite_ = finite_block(c, a, b);
+                // a column without a mask is checked in the same loop that reads it
+                const bool unmasked = masks_[static_cast<std::size_t>(c)] == nullptr;
+                if (check_values && finite_ && !unmasked) finite_ = finite_block(c, a, b);
                 prefetch_next(x, a + static_cast<std::size_t>(b));
                 // a > 0 for fd: the first equation row has its earlier row before it
                 double squares = 0;
+                bool finite = true;
                 kept_column(x + a, fd_ ? x + a - 1 : nullptr, blk.keep, shift[c], mult[c], out.col(col0 + c).data(), b,
-                            levels != nullptr ? &squares : nullptr);
+                            levels != nullptr ? &squares : nullptr, check_values && finite_ && unmasked ? &finite : nullptr);
                 if (levels != nullptr) (*levels)[c] += squares;
+                if (!finite) finite_ = false;
             }
             return blk;
         }
@@ -261,41 +265,64 @@ private:
 
     // dest[i] = ((now[i] - before[i]) - shift) * mult where keep[i] != 0, else 0 (a
     // select, not a product: a missing cell may hold any value, NaN included); before
-    // null: no difference. squares (optional) gets the sum of now[i]^2 over kept rows.
-    // Plain loops, so that the compiler vectorises them.
+    // null: no difference. squares (optional) gets the sum of now[i]^2 over kept rows
+    // (a threshold test only: partial sums, in any order); finite (optional) is set to
+    // false if some now[i] is not a finite number (inf * 0 and NaN * 0 are NaN). One
+    // loop does all three, so that each value is loaded once.
     static void kept_column(const double* __restrict now, const double* __restrict before,
                             const double* __restrict keep, double shift, double mult, double* __restrict dest,
-                            Index b, double* squares) {
+                            Index b, double* squares, bool* finite) {
+        const bool diff = before != nullptr, sq = squares != nullptr, check = finite != nullptr;
+        using Loop = void (*)(const double*, const double*, const double*, double, double, double*, Index, double*,
+                              bool*);
+        static constexpr Loop loops[8] = {
+            kept_loop<false, false, false>, kept_loop<false, false, true>, kept_loop<false, true, false>,
+            kept_loop<false, true, true>,   kept_loop<true, false, false>,  kept_loop<true, false, true>,
+            kept_loop<true, true, false>,   kept_loop<true, true, true>};
+        loops[(diff ? 4 : 0) + (sq ? 2 : 0) + (check ? 1 : 0)](now, before, keep, shift, mult, dest, b, squares, finite);
+    }
+
+    template <bool Diff, bool Squares, bool Check>
+    static void kept_loop(const double* __restrict now, const double* __restrict before,
+                          const double* __restrict keep, double shift, double mult, double* __restrict dest, Index b,
+                          double* squares, bool* finite) {
         Index i = 0;
+        double sq = 0, probe = 0;
 #if defined(__SSE2__)
         // two rows at a time; the select is an AND with the comparison mask
         const __m128d s = _mm_set1_pd(shift), m = _mm_set1_pd(mult), zero = _mm_setzero_pd();
+        __m128d sq2 = zero, probe2 = zero;
         for (; i + 2 <= b; i += 2) {
-            __m128d v = _mm_loadu_pd(now + i);
-            if (before != nullptr) v = _mm_sub_pd(v, _mm_loadu_pd(before + i));
+            const __m128d x = _mm_loadu_pd(now + i);
+            const __m128d kept = _mm_cmpneq_pd(_mm_loadu_pd(keep + i), zero);
+            __m128d v = x;
+            if constexpr (Diff) v = _mm_sub_pd(v, _mm_loadu_pd(before + i));
             v = _mm_mul_pd(_mm_sub_pd(v, s), m);
-            _mm_storeu_pd(dest + i, _mm_and_pd(v, _mm_cmpneq_pd(_mm_loadu_pd(keep + i), zero)));
+            _mm_storeu_pd(dest + i, _mm_and_pd(v, kept));
+            if constexpr (Squares) {
+                const __m128d xk = _mm_and_pd(x, kept);
+                sq2 = _mm_add_pd(sq2, _mm_mul_pd(xk, xk));
+            }
+            if constexpr (Check) probe2 = _mm_add_pd(probe2, _mm_mul_pd(x, zero));
         }
+        double lanes[2];
+        _mm_storeu_pd(lanes, sq2);
+        sq = lanes[0] + lanes[1];
+        _mm_storeu_pd(lanes, probe2);
+        probe = lanes[0] + lanes[1];
 #endif
         for (; i < b; ++i) {
-            const double v = ((before != nullptr ? now[i] - before[i] : now[i]) - shift) * mult;
+            const double v = ((Diff ? now[i] - before[i] : now[i]) - shift) * mult;
             dest[i] = keep[i] != 0.0 ? v : 0.0;
-        }
-        if (squares != nullptr) {
-            // (a threshold test only: four partial sums, in any order)
-            double sum[4] = {0, 0, 0, 0};
-            Index r = 0;
-            for (; r + 4 <= b; r += 4)
-                for (int j = 0; j < 4; ++j) {
-                    const double v = keep[r + j] != 0.0 ? now[r + j] : 0.0;
-                    sum[j] += v * v;
-                }
-            for (; r < b; ++r) {
-                const double v = keep[r] != 0.0 ? now[r] : 0.0;
-                sum[0] += v * v;
+            if constexpr (Squares) {
+                const double xk = keep[i] != 0.0 ? now[i] : 0.0;
+                sq += xk * xk;
             }
-            *squares = (sum[0] + sum[1]) + (sum[2] + sum[3]);
+            if constexpr (Check) probe += now[i] * 0.0;
         }
+        if constexpr (Squares) *squares = sq;
+        if constexpr (Check)
+            if (!std::isfinite(probe)) *finite = false;
     }
 
     bool finite_block(Index c, std::size_t a, Index b) const {
@@ -351,19 +378,25 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     // The same pass takes the first refinement step from a starting solution: the fit
     // of the first kSampleBlocks blocks (all rows, for data of that size or less); its
     // blocks are read once more for that step, once the start is known.
-    MatrixXd B(block, m + 1);
-    MatrixXd S = MatrixXd::Zero(m + 1, m + 1);
+    // B: [w, v - s0, e] with e the start's residual (0 until the start is known); the
+    // rank update of all of it gives, in its last row, the sums h of the first
+    // refinement step at the Gram update's speed.
+    // Its width is padded with zero columns to a multiple of 4, the width of the rank
+    // update's kernel, whose edge code is slower (on the benchmark machine, 512 x 23
+    // blocks took 15% longer than 512 x 24).
+    const Index width = (m + 2 + 3) / 4 * 4;
+    MatrixXd B = MatrixXd::Zero(block, width);
+    MatrixXd SE = MatrixXd::Zero(width, width);
     VectorXd s0 = VectorXd::Zero(m), ones = VectorXd::Ones(m), levels = VectorXd::Zero(m);
     VectorXd start_slopes = VectorXd::Zero(k_reg);   // starting solution y ~ start_constant + x' start_slopes
     double start_constant = 0;
     VectorXd h = VectorXd::Zero(m + 1);              // sum over rows of [w, v - s0] e, e the start's residual
-    VectorXd e(block);
-    auto add_start_residuals = [&](Index b) {
+    auto start_residuals = [&](Index b) {
         // e = y - start_constant - x' start_slopes, written with the shifted columns
         const double gamma = start_constant + s0.head(k_reg).dot(start_slopes) - s0[k_reg];
-        e.head(b) = B.col(m).head(b) - gamma * B.col(0).head(b);
-        e.head(b).noalias() -= B.block(0, 1, b, k_reg) * start_slopes;
-        h.noalias() += B.topRows(b).transpose() * e.head(b);
+        auto e = B.col(m + 1).head(b);
+        e = B.col(m).head(b) - gamma * B.col(0).head(b);
+        e.noalias() -= B.block(0, 1, b, k_reg) * start_slopes;
     };
     const Index sample_blocks = std::min<Index>(kSampleBlocks, reader.blocks());
     reader.restart();
@@ -383,12 +416,14 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
             }
         }
         B.col(0).head(b) = keep;
-        S.selfadjointView<Eigen::Lower>().rankUpdate(B.topRows(b).transpose());
-        if (k >= sample_blocks) {
-            add_start_residuals(b);
-        } else if (k + 1 == sample_blocks) {
+        if (k >= sample_blocks)
+            start_residuals(b);
+        else
+            B.col(m + 1).head(b).setZero();
+        SE.selfadjointView<Eigen::Lower>().rankUpdate(B.topRows(b).transpose());
+        if (k + 1 == sample_blocks) {
             // the start: the sample's own fit (if its system is usable; else 0)
-            const MatrixXd S_sample = S.selfadjointView<Eigen::Lower>();
+            const MatrixXd S_sample = SE.topLeftCorner(m + 1, m + 1).selfadjointView<Eigen::Lower>();
             WorkingSystem sample = working_system(S_sample, s0, intercept, k_reg);
             MatrixXd R_sample;
             if (sample.usable && gram_factor(sample.G, R_sample, kSampleConditionLimit)) {
@@ -403,14 +438,17 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
             reader.restart();
             for (Index kk = 0; kk <= k; ++kk) {
                 const Block again = reader.read(kk, B, 1, s0, ones);
-                B.col(0).head(again.rows) = Eigen::Map<const VectorXd>(again.keep, again.rows);
-                add_start_residuals(again.rows);
+                const Index rows = again.rows;
+                B.col(0).head(rows) = Eigen::Map<const VectorXd>(again.keep, rows);
+                start_residuals(rows);
+                h.noalias() += B.topLeftCorner(rows, m + 1).transpose() * B.col(m + 1).head(rows);
             }
         }
     }
     // a NaN or infinity outside the masks: the full route words the message
     if (!reader.values_finite()) return std::nullopt;
-    S = S.selfadjointView<Eigen::Lower>();
+    h += SE.row(m + 1).head(m + 1).transpose();
+    const MatrixXd S = SE.topLeftCorner(m + 1, m + 1).selfadjointView<Eigen::Lower>();
     const VectorXd sums = S.col(0).tail(m);                 // sum (v - s0)
     const MatrixXd S_v = S.bottomRightCorner(m, m);         // sum (v - s0)(v - s0)'
     // raw sums of squares (thresholds and range checks only)
@@ -511,6 +549,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     MatrixXd meat = MatrixXd::Zero(p, p);
     MatrixXd W(block, p);
     VectorXd g = VectorXd::Zero(p);
+    VectorXd no_unit = VectorXd::Zero(p);   // by unit: score sums of rows without a unit
     long double ssr = 0, y_sum = 0, y_squares = 0;   // y here is y - t_y
     const long double shift_y_l = shift_y;
     reader.restart();
@@ -518,7 +557,8 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
         const Block blk = reader.read(k, B, 0, shift, mult);
         const Index b = blk.rows;
         residual(blk, c);
-        add_gradient(b, g);
+        // by unit, the gradient is the sum of the unit score sums (taken below)
+        if (!by_unit) add_gradient(b, g);
         // per block in double (vectorised; a block's sum of 512 squares loses at most
         // a few units in the 14th digit), across blocks in long double
         ssr += static_cast<long double>(u.head(b).squaredNorm());
@@ -568,13 +608,14 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
             continue;
         }
         // score sums over runs of rows with one id, sum z_i u_i = Z_run' u_run (a row of
-        // weight 0 adds a zero score wherever it goes; a row without an id is skipped)
+        // weight 0 adds a zero score wherever it goes; a row without an id adds to
+        // no unit's sum, only to the gradient)
         for (Index i = 0; i < b;) {
             const std::int32_t id = id_of_row[blk.input_row(i)];
             Index j = i + 1;
             while (j < b && id_of_row[blk.input_row(j)] == id) ++j;
-            if (id >= 0) {
-                double* sum = group_sums.col(id).data();
+            {
+                double* sum = id >= 0 ? group_sums.col(id).data() : no_unit.data();
                 const double* ui = u.data() + i;
                 const Index len = j - i;
                 if (intercept) {
@@ -611,6 +652,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
             i = j;
         }
     }
+    if (by_unit) g = group_sums.rowwise().sum() + no_unit;
     const VectorXd delta = correction(g);
     c += delta;
     eq.coef = original_coefficients(eq, c.cast<long double>(), shift_y);
