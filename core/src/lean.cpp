@@ -532,9 +532,17 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     // Residuals and scores stay at c: they differ by Z delta, of the order of rounding.
     const std::size_t n_rows = in.data.outcome.size();
     assign_large(out.residuals.value, n_rows, 0.0);
-    assign_large(out.residuals.defined, n_rows, std::uint8_t{0});
     assign_large(out.fitted.value, n_rows, 0.0);
-    assign_large(out.fitted.defined, n_rows, std::uint8_t{0});
+    if (in.is_row != nullptr) {
+        // sorted input: the defined rows are the equation rows, as marked
+        reserve_large(out.residuals.defined, n_rows);
+        out.residuals.defined = *in.is_row;
+        reserve_large(out.fitted.defined, n_rows);
+        out.fitted.defined = *in.is_row;
+    } else {
+        assign_large(out.residuals.defined, n_rows, std::uint8_t{0});
+        assign_large(out.fitted.defined, n_rows, std::uint8_t{0});
+    }
     const Covariance kind = spec.covariance;
     const bool by_unit = kind == Covariance::cluster || kind == Covariance::cluster0;
     const bool by_period = kind == Covariance::cluster_period || kind == Covariance::dk;
@@ -566,15 +574,11 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
         y_squares += static_cast<long double>(B.col(k_reg).head(b).squaredNorm());
         if (blk.input == nullptr) {
             // consecutive input rows; rows of weight 0 have u = 0 and stay undefined
+            // (the defined marks were copied above)
             const Eigen::Map<const Eigen::ArrayXd> keep(blk.keep, b);
             Eigen::Map<Eigen::ArrayXd>(out.residuals.value.data() + blk.first, b) = u.head(b).array();
             Eigen::Map<Eigen::ArrayXd>(out.fitted.value.data() + blk.first, b) =
                 (keep != 0.0).select(B.col(k_reg).head(b).array() + shift_y - u.head(b).array(), 0.0);
-            for (Index i = 0; i < b; ++i) {
-                const std::uint8_t defined = blk.keep[i] != 0.0 ? 1 : 0;
-                out.residuals.defined[blk.first + static_cast<std::size_t>(i)] = defined;
-                out.fitted.defined[blk.first + static_cast<std::size_t>(i)] = defined;
-            }
         } else {
             for (Index i = 0; i < b; ++i) {
                 const std::size_t row = blk.input[i];

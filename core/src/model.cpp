@@ -476,7 +476,11 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
         ctx.regressor_names.push_back(data.regressors[j].name.empty() ? "x" + std::to_string(j + 1)
                                                                       : data.regressors[j].name);
 
-    {
+    if (rows_used == n_rows) {
+        // every row used: every unit and period of the index is among them
+        fit.n_units = index.n_units();
+        fit.n_periods = index.n_periods();
+    } else {
         // units and periods among the used rows
         std::vector<std::uint8_t> unit_seen(index.n_units(), 0), period_seen(index.n_periods(), 0);
         for (std::size_t i = 0; i < n_rows; ++i) {
@@ -506,10 +510,20 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
         detail::LeanInput in{data, spec, index, ctx.regressor_names};
         // sorted input (every row has a unit and a period, in unit-period order): the
         // equation rows as a mask over the input rows
-        bool sorted = index.rows_by_unit.size() == n_rows;
-        for (std::size_t k = 0; k < n_rows && sorted; ++k) sorted = index.rows_by_unit[k] == k;
+        bool sorted = index.in_input_order;
+        if (!sorted) {
+            sorted = index.rows_by_unit.size() == n_rows;
+            for (std::size_t k = 0; k < n_rows && sorted; ++k) sorted = index.rows_by_unit[k] == k;
+        }
         std::vector<std::uint8_t> is_row;
         std::vector<std::size_t> later, earlier;
+        // the equation rows' units and periods
+        std::vector<std::uint8_t> unit_seen(index.n_units(), 0), period_seen(index.n_periods(), 0);
+        auto count_row = [&](std::size_t r) {
+            ++in.count;
+            unit_seen[static_cast<std::size_t>(index.unit_of_row[r])] = 1;
+            period_seen[static_cast<std::size_t>(index.period_of_row[r])] = 1;
+        };
         if (sorted) {
             assign_large(is_row, n_rows, std::uint8_t{0});
             const std::vector<std::int32_t>& unit = index.unit_of_row;
@@ -524,6 +538,7 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
                     else
                         ++pairs_lost;
                 }
+                if (is_row[r]) count_row(r);
             }
             in.is_row = &is_row;
         } else if (fd) {
@@ -535,19 +550,8 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
             in.later = &later;
         }
         {
-            // equation rows, and the units and periods among them
-            std::vector<std::uint8_t> unit_seen(index.n_units(), 0), period_seen(index.n_periods(), 0);
-            auto count_row = [&](std::size_t r) {
-                ++in.count;
-                unit_seen[static_cast<std::size_t>(index.unit_of_row[r])] = 1;
-                period_seen[static_cast<std::size_t>(index.period_of_row[r])] = 1;
-            };
-            if (sorted) {
-                for (std::size_t r = 0; r < n_rows; ++r)
-                    if (is_row[r]) count_row(r);
-            } else {
+            if (!sorted)
                 for (std::size_t r : later) count_row(r);
-            }
             in.units = static_cast<std::size_t>(std::count(unit_seen.begin(), unit_seen.end(), 1));
             in.periods = static_cast<std::size_t>(std::count(period_seen.begin(), period_seen.end(), 1));
         }

@@ -139,6 +139,7 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
             sorted = u[a] < u[b] || (u[a] == u[b] && (p[a] < p[b] || (p[a] == p[b] && a < b)));
         }
         if (!sorted) std::sort(rows.begin(), rows.end(), less);
+        index.in_input_order = sorted && rows.size() == n;
     } else if (units.is_text()) {
         auto less = [&](std::size_t a, std::size_t b) {
             const int c = units.text[a].compare(units.text[b]);
@@ -240,32 +241,25 @@ PanelIndex make_index(const UnitColumn& units, const Column& periods, std::size_
     }
     index.grid = std::move(grid);
     // Grid positions: rows of a unit are sorted by period, so a pointer that only moves
-    // forward finds them in O(rows + grid) per unit.
+    // forward finds them in O(rows + grid) per unit. A row with the period of the row
+    // before it in its unit repeats a (unit, period) pair.
+    std::size_t duplicates = 0;
     for (std::size_t u = 0; u + 1 < index.unit_start.size(); ++u) {
         std::size_t g = 0;
         for (std::size_t k = index.unit_start[u]; k < index.unit_start[u + 1]; ++k) {
-            const double p = periods.value(rows[k]);
+            const std::size_t i = rows[k];
+            const double p = periods.value(i);
             if (index.grid[g] > p) g = 0;  // guard only: rows are sorted by period
             while (index.grid[g] < p) ++g;
-            index.period_of_row[rows[k]] = static_cast<std::int32_t>(g);
-        }
-    }
-
-    std::size_t duplicates = 0;
-    for (std::size_t k = 0; k < rows.size(); ++k) {
-        const std::size_t i = rows[k];
-        const double p = periods.value(i);
-        if (k > 0) {
+            index.period_of_row[i] = static_cast<std::int32_t>(g);
+            if (k == index.unit_start[u]) continue;
             const std::size_t prev = rows[k - 1];
-            if (index.unit_of_row[prev] == index.unit_of_row[i] && periods.value(prev) == p) {
-                ++duplicates;
-                if (reject_duplicates)
-                    throw Error("unit \"" + index.unit_labels[static_cast<std::size_t>(index.unit_of_row[i])] +
-                                "\" has two rows for period " + format_number(p) + " (rows " +
-                                std::to_string(first_row_number + prev) + " and " +
-                                std::to_string(first_row_number + i) +
-                                "); keep one row per unit and period");
-            }
+            if (periods.value(prev) != p) continue;
+            ++duplicates;
+            if (reject_duplicates)
+                throw Error("unit \"" + index.unit_labels[u] + "\" has two rows for period " + format_number(p) +
+                            " (rows " + std::to_string(first_row_number + prev) + " and " +
+                            std::to_string(first_row_number + i) + "); keep one row per unit and period");
         }
     }
     if (duplicate_count != nullptr) *duplicate_count = duplicates;

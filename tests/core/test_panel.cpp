@@ -302,3 +302,38 @@ TEST_CASE("shuffled rows give identical results, aligned to the input rows", "[p
     const weft::Fit b = weft::fit_model(t, weft::parse_model_text("within cluster"));
     CHECK(a.coef == b.coef);
 }
+
+TEST_CASE("index: input order is recognised only when every row is in place", "[panel]") {
+    // in_input_order lets the lean route read rows in place; it must be true only when
+    // rows_by_unit is 0, 1, ..., n - 1 (worked out by hand for each case)
+    auto numeric = [](std::vector<double> ids) {
+        weft::UnitColumn u;
+        u.name = "unit";
+        u.numbers = std::move(ids);
+        return u;
+    };
+    auto identity = [](const weft::PanelIndex& index) {
+        for (std::size_t k = 0; k < index.rows_by_unit.size(); ++k)
+            if (index.rows_by_unit[k] != k) return false;
+        return index.rows_by_unit.size() == index.n_rows;
+    };
+    struct Case {
+        const char* what;
+        weft::UnitColumn units;
+        weft::Column periods;
+        bool expected;
+    };
+    const std::vector<Case> cases = {
+        {"sorted, gap in unit 2", numeric({1, 1, 2, 2}), column("t", {1, 2, 1, 3}), true},
+        {"periods out of order", numeric({1, 1, 2, 2}), column("t", {2, 1, 1, 2}), false},
+        {"units out of order", numeric({2, 2, 1, 1}), column("t", {1, 2, 1, 2}), false},
+        {"a period missing", numeric({1, 1, 2, 2}), column("t", {1, 2, 1, 2}, {0, 0, 1, 0}), false},
+        {"text ids (not recognised)", text_units({"a", "a", "b"}), column("t", {1, 2, 1}), false},
+    };
+    for (const Case& c : cases) {
+        INFO(c.what);
+        const weft::PanelIndex index = weft::build_index(c.units, c.periods);
+        CHECK(index.in_input_order == c.expected);
+        if (index.in_input_order) CHECK(identity(index));
+    }
+}
