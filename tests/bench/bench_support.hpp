@@ -65,6 +65,30 @@ Timing time_median(int reps, F&& f) {
   return {median(wall), median(cpu)};
 }
 
+// Two calls timed in turn, A B A B ..., `reps` pairs after one uncounted pair: the
+// medians of each, and the median of the pairs' CPU ratios A/B, which holds when a
+// shared machine's speed drifts between the two (each pair sees nearly one speed).
+struct PairedTiming {
+  Timing a, b;
+  double cpu_ratio = 0;
+};
+
+template <class FA, class FB>
+PairedTiming time_paired(int reps, FA&& fa, FB&& fb) {
+  std::vector<double> wall_a, cpu_a, wall_b, cpu_b, ratio;
+  for (int r = 0; r < reps + 1; ++r) {
+    const Timing ta = time_once(fa);
+    const Timing tb = time_once(fb);
+    if (r == 0) continue;
+    wall_a.push_back(ta.wall);
+    cpu_a.push_back(ta.cpu);
+    wall_b.push_back(tb.wall);
+    cpu_b.push_back(tb.cpu);
+    ratio.push_back(tb.cpu > 0 ? ta.cpu / tb.cpu : 0.0);
+  }
+  return {{median(wall_a), median(cpu_a)}, {median(wall_b), median(cpu_b)}, median(ratio)};
+}
+
 // One line of /proc/self/status, e.g. "VmHWM", in bytes; -1 when unavailable.
 inline double status_bytes(const char* key) {
   std::ifstream status("/proc/self/status");

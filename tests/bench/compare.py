@@ -129,6 +129,8 @@ def main():
     parser.add_argument("--bench", default=os.path.join(TOP, "build-bench", "tests", "bench", "weft_bench"))
     parser.add_argument("--size", default="1M")
     parser.add_argument("--reps", type=int, default=5)
+    parser.add_argument("--weft-reps", type=int, default=15,
+                        help="pairs of weft and floor runs (each well under a second at 1M rows)")
     parser.add_argument("--plm-reps", type=int, default=3, help="plm takes ~20 s a fit at 1M rows")
     parser.add_argument("--json")
     parser.add_argument("--keep", help="keep the dataset and raw results in this folder")
@@ -157,7 +159,7 @@ def main():
         print("compare: weft", flush=True)
         weft_json = os.path.join(work, "weft.json")
         _, rss = timed_process([args.bench, "--read-csv", csv, "--model", "fd cluster",
-                                "--reps", str(args.reps), "--json", weft_json])
+                                "--reps", str(args.weft_reps), "--json", weft_json])
         weft = json.load(open(weft_json))
         weft["process_peak_bytes"] = rss
         weft["name"] = "weft"
@@ -209,13 +211,16 @@ def main():
     for r in results:
         agree = "" if r is weft else "%.0e,%.0e" % (r.get("worst_estimate_difference", float("nan")),
                                                     r.get("worst_se_difference", float("nan")))
+        # weft's ratio: the median over pairs run in turn with the floor
+        ratio = weft["paired_ratio_to_floor_cpu"] if r is weft else r["cpu_seconds"] / floor
         print("%-20s %9.4f %9.4f %9.1f %9.1f %10.0f %14s" % (
-            r["name"], r["median_seconds"], r["cpu_seconds"], r["cpu_seconds"] / floor,
+            r["name"], r["median_seconds"], r["cpu_seconds"], ratio,
             r["cpu_seconds"] / weft["cpu_seconds"], r["process_peak_bytes"] / 1048576, agree))
     print("wall_s, cpu_s: medians of wall-clock and CPU seconds of the fit alone (data loading and, for\n"
           "lm.fit and statsmodels, the differencing are outside the clock); x_floor, x_weft: CPU time over\n"
-          "the floor's and weft's. peak_MiB: whole process (reading the CSV included); weft's in-process\n"
-          "peak during one fit: %.0f MiB for %.0f MiB of input" % (weft["peak_bytes"] / 1048576,
+          "the floor's and weft's (weft's x_floor: the median ratio of %d weft runs each timed next to a\n"
+          "floor run). peak_MiB: whole process (reading the CSV included); weft's in-process\n"
+          "peak during one fit: %.0f MiB for %.0f MiB of input" % (weft["reps"], weft["peak_bytes"] / 1048576,
                                                                  weft["input_bytes"] / 1048576))
     if args.json:
         with open(args.json, "w") as f:

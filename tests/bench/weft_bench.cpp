@@ -434,9 +434,12 @@ int run_csv(const Options& o) {
   const SyntheticPanel data = read_csv(o.read_csv_path);
   const int reps = o.reps > 0 ? o.reps : 5;
   WeftFit last;
-  const Timing weft_time = time_median(reps, [&] { last = run_weft(data, o.model_text); });
   double sink = 0;
-  const Timing floor = time_median(reps, [&] { sink += floor_pass(data); });
+  // weft and the floor in turn, so that their ratio is taken at one machine speed
+  const PairedTiming paired = time_paired(
+      reps, [&] { last = run_weft(data, o.model_text); }, [&] { sink += floor_pass(data); });
+  const Timing& weft_time = paired.a;
+  const Timing& floor = paired.b;
   const MemoryProbe probe = probe_peak_memory([&] { run_weft(data, o.model_text); });
   std::ostringstream json;
   json << "{\"library\": \"weft " << weft_version_text() << "\", \"model\": \"" << o.model_text
@@ -445,6 +448,7 @@ int run_csv(const Options& o) {
        << ", \"cpu_seconds\": " << json_number(weft_time.cpu)
        << ", \"floor_seconds\": " << json_number(floor.wall)
        << ", \"floor_cpu_seconds\": " << json_number(floor.cpu)
+       << ", \"paired_ratio_to_floor_cpu\": " << json_number(paired.cpu_ratio)
        << ", \"input_bytes\": " << json_number(static_cast<double>(data.input_bytes()))
        << ", \"peak_bytes\": " << json_number(probe.ok() ? probe.peak : NAN)
        << ", \"floor_checksum\": " << json_number(sink) << ", \"terms\": [";
