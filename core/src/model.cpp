@@ -510,11 +510,7 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
         detail::LeanInput in{data, spec, index, ctx.regressor_names};
         // sorted input (every row has a unit and a period, in unit-period order): the
         // equation rows as a mask over the input rows
-        bool sorted = index.in_input_order;
-        if (!sorted) {
-            sorted = index.rows_by_unit.size() == n_rows;
-            for (std::size_t k = 0; k < n_rows && sorted; ++k) sorted = index.rows_by_unit[k] == k;
-        }
+        const bool sorted = index.in_input_order;
         std::vector<std::uint8_t> is_row;
         std::vector<std::size_t> later, earlier;
         // the equation rows' units and periods

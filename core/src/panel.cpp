@@ -123,6 +123,7 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
         }
     }
     auto period_of = [&](std::size_t i) { return periods != nullptr ? periods->value(i) : 0.0; };
+    bool sorted = true;   // the rows came in (unit, period) order
     if (!units.is_text() && periods != nullptr) {
         // numeric ids with periods, the common case: the same order as below, tested
         // pair by pair without the general comparator (input usually comes sorted)
@@ -133,13 +134,11 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
             if (p[a] != p[b]) return p[a] < p[b];
             return a < b;
         };
-        bool sorted = true;
         for (std::size_t k = 1; k < rows.size() && sorted; ++k) {
             const std::size_t a = rows[k - 1], b = rows[k];
             sorted = u[a] < u[b] || (u[a] == u[b] && (p[a] < p[b] || (p[a] == p[b] && a < b)));
         }
         if (!sorted) std::sort(rows.begin(), rows.end(), less);
-        index.in_input_order = sorted && rows.size() == n;
     } else if (units.is_text()) {
         auto less = [&](std::size_t a, std::size_t b) {
             const int c = units.text[a].compare(units.text[b]);
@@ -148,7 +147,8 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
             if (pa != pb) return pa < pb;
             return a < b;
         };
-        if (!std::is_sorted(rows.begin(), rows.end(), less)) std::sort(rows.begin(), rows.end(), less);
+        sorted = std::is_sorted(rows.begin(), rows.end(), less);
+        if (!sorted) std::sort(rows.begin(), rows.end(), less);
     } else {
         auto less = [&](std::size_t a, std::size_t b) {
             const double ua = units.numbers[a], ub = units.numbers[b];
@@ -157,8 +157,11 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
             if (pa != pb) return pa < pb;
             return a < b;
         };
-        if (!std::is_sorted(rows.begin(), rows.end(), less)) std::sort(rows.begin(), rows.end(), less);
+        sorted = std::is_sorted(rows.begin(), rows.end(), less);
+        if (!sorted) std::sort(rows.begin(), rows.end(), less);
     }
+    // nothing skipped and nothing moved: rows_by_unit is 0, 1, ..., n - 1
+    index.in_input_order = periods != nullptr && sorted && rows.size() == n;
     index.n_rows = n;
     assign_large(index.unit_of_row, n, std::int32_t{-1});
     assign_large(index.period_of_row, n, std::int32_t{-1});

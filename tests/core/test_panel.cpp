@@ -304,12 +304,13 @@ TEST_CASE("shuffled rows give identical results, aligned to the input rows", "[p
 }
 
 TEST_CASE("index: input order is recognised only when every row is in place", "[panel]") {
-    // in_input_order lets the lean route read rows in place; it must be true only when
-    // rows_by_unit is 0, 1, ..., n - 1 (worked out by hand for each case)
-    auto numeric = [](std::vector<double> ids) {
+    // in_input_order lets the lean route read rows in place; it must be true exactly
+    // when rows_by_unit is 0, 1, ..., n - 1 (worked out by hand for each case)
+    auto numeric = [](std::vector<double> ids, std::vector<std::uint8_t> missing = {}) {
         weft::UnitColumn u;
         u.name = "unit";
         u.numbers = std::move(ids);
+        u.missing = std::move(missing);
         return u;
     };
     auto identity = [](const weft::PanelIndex& index) {
@@ -328,12 +329,14 @@ TEST_CASE("index: input order is recognised only when every row is in place", "[
         {"periods out of order", numeric({1, 1, 2, 2}), column("t", {2, 1, 1, 2}), false},
         {"units out of order", numeric({2, 2, 1, 1}), column("t", {1, 2, 1, 2}), false},
         {"a period missing", numeric({1, 1, 2, 2}), column("t", {1, 2, 1, 2}, {0, 0, 1, 0}), false},
-        {"text ids (not recognised)", text_units({"a", "a", "b"}), column("t", {1, 2, 1}), false},
+        {"text ids, sorted", text_units({"a", "a", "b"}), column("t", {1, 2, 1}), true},
+        {"text ids out of order", text_units({"b", "a", "a"}), column("t", {1, 1, 2}), false},
+        {"a unit missing", numeric({1, 1, 2, 2}, {0, 1, 0, 0}), column("t", {1, 2, 1, 2}), false},
     };
     for (const Case& c : cases) {
         INFO(c.what);
         const weft::PanelIndex index = weft::build_index(c.units, c.periods);
         CHECK(index.in_input_order == c.expected);
-        if (index.in_input_order) CHECK(identity(index));
+        CHECK(identity(index) == c.expected);
     }
 }

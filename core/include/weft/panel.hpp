@@ -103,8 +103,8 @@ struct PanelIndex {
     // rows_by_unit[unit_start[u] .. unit_start[u+1]).
     std::vector<std::size_t> unit_start;     // size n_units() + 1
     std::vector<std::size_t> rows_by_unit;
-    // true when rows_by_unit is 0, 1, ..., n_rows - 1: every row has a unit and a period,
-    // and the input came sorted by unit, then period (false: not known to be so)
+    // true exactly when rows_by_unit is 0, 1, ..., n_rows - 1: every row has a unit and
+    // a period, and the input came sorted by unit, then period
     bool in_input_order = false;
 
     std::size_t n_units() const { return unit_labels.size(); }
