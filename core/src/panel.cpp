@@ -193,11 +193,103 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
     return rows;
 }
 
+// The common case in one pass over the rows: numeric unit ids and periods, nothing
+// missing, rows sorted by unit, then period. Fills the index as make_index would and
+// returns true; returns false, with the index to be rebuilt, as soon as a row leaves
+// that case (a value that is not finite, a row out of order, many periods), so that the
+// general path below decides and words any message. A repeated (unit, period) pair is
+// reported only once the whole input is known to be in this case: the general path
+// would report an earlier problem (a bad id further down) first.
+bool index_sorted_numbers(const UnitColumn& units, const Column& periods, PanelIndex& index,
+                          bool reject_duplicates, std::size_t& duplicates) {
+    const std::size_t n = units.size();
+    if (units.is_text() || !units.missing.empty() || periods.mask() != nullptr || periods.size() != n || n == 0)
+        return false;
+    const double* u = units.numbers.data();
+    const double* p = periods.data();
+    index.n_rows = n;
+    assign_large(index.unit_of_row, n, std::int32_t{0});
+    assign_large(index.period_of_row, n, std::int32_t{0});
+    std::int32_t* unit_of_row = index.unit_of_row.data();
+    std::int32_t* period_of_row = index.period_of_row.data();
+    std::vector<double>& grid = index.grid;
+    grid.clear();
+    bool renumber = false;           // a period was inserted inside the grid: positions so far are stale
+    std::size_t first_duplicate = 0;  // its later row (0: none; row 0 cannot be one)
+    double last_u = 0, last_p = 0;
+    std::int32_t id = -1;
+    std::size_t g = 0;               // grid position of the last row's period
+    for (std::size_t i = 0; i < n; ++i) {
+        const double ui = u[i], pi = p[i];
+        if (!std::isfinite(ui) || !std::isfinite(pi)) return false;
+        if (i == 0 || ui != last_u) {
+            if (i > 0 && !(ui > last_u)) return false;
+            ++id;
+            index.unit_start.push_back(i);
+            index.unit_labels.push_back(format_number(ui));
+            last_u = ui;
+        } else if (!(pi > last_p)) {
+            if (pi != last_p) return false;
+            ++duplicates;
+            if (first_duplicate == 0) first_duplicate = i;
+        }
+        last_p = pi;
+        // rows of a unit come in period order: the same period, the next one, or the first
+        if (g < grid.size() && grid[g] == pi) {
+        } else if (g + 1 < grid.size() && grid[g + 1] == pi) {
+            ++g;
+        } else if (!grid.empty() && grid[0] == pi) {
+            g = 0;
+        } else {
+            const auto it = std::lower_bound(grid.begin(), grid.end(), pi);
+            g = static_cast<std::size_t>(it - grid.begin());
+            if (it == grid.end() || *it != pi) {
+                if (grid.size() >= 4096) return false;
+                if (it != grid.end()) renumber = true;
+                grid.insert(it, pi);
+            }
+        }
+        unit_of_row[i] = id;
+        period_of_row[i] = static_cast<std::int32_t>(g);
+    }
+    index.unit_start.push_back(n);
+    if (renumber) {
+        // positions on the final grid: a pointer that only moves forward within a unit
+        for (std::size_t v = 0; v + 1 < index.unit_start.size(); ++v) {
+            std::size_t at = 0;
+            for (std::size_t i = index.unit_start[v]; i < index.unit_start[v + 1]; ++i) {
+                while (grid[at] < p[i]) ++at;
+                period_of_row[i] = static_cast<std::int32_t>(at);
+            }
+        }
+    }
+    if (reject_duplicates && first_duplicate != 0) {
+        const std::size_t i = first_duplicate;
+        throw Error("unit \"" + index.unit_labels[static_cast<std::size_t>(unit_of_row[i])] +
+                    "\" has two rows for period " + format_number(p[i]) + " (rows " +
+                    std::to_string(index.first_row_number + i - 1) + " and " +
+                    std::to_string(index.first_row_number + i) + "); keep one row per unit and period");
+    }
+    assign_large(index.rows_by_unit, n, std::size_t{0});
+    std::iota(index.rows_by_unit.begin(), index.rows_by_unit.end(), std::size_t{0});
+    index.in_input_order = true;
+    return true;
+}
+
 }  // namespace
 
 // Index with a choice of what to do with repeated (unit, period) pairs.
 PanelIndex make_index(const UnitColumn& units, const Column& periods, std::size_t first_row_number,
                       bool reject_duplicates, std::size_t* duplicate_count) {
+    {
+        PanelIndex index;
+        index.first_row_number = first_row_number;
+        std::size_t duplicates = 0;
+        if (index_sorted_numbers(units, periods, index, reject_duplicates, duplicates)) {
+            if (duplicate_count != nullptr) *duplicate_count = duplicates;
+            return index;
+        }
+    }
     check_units(units, first_row_number);
     check_column(periods, units.size(), "units", "periods", first_row_number);
     PanelIndex index;

@@ -340,3 +340,76 @@ TEST_CASE("index: input order is recognised only when every row is in place", "[
         CHECK(identity(index) == c.expected);
     }
 }
+
+TEST_CASE("index: sorted numeric ids take a one-pass route that agrees with the general one", "[panel]") {
+    // build_index reads numeric ids with nothing missing, sorted by unit then period, in
+    // one pass. A missing-value mask that marks nothing sends the same data down the
+    // general route (sort, then grid), so the two indexes must be identical, field by
+    // field. The panels are sorted with gaps; periods first seen in a later unit fall
+    // inside the grid known so far, which renumbers the positions already given.
+    // ids as numbers; with_mask: a missing-value mask that marks no row
+    auto numbers = [](std::vector<double> ids, bool with_mask) {
+        weft::UnitColumn u;
+        u.name = "unit";
+        if (with_mask) u.missing.assign(ids.size(), 0);
+        u.numbers = std::move(ids);
+        return u;
+    };
+    std::mt19937 rng(20261202);
+    for (int trial = 0; trial < 200; ++trial) {
+        const int n_units = 1 + static_cast<int>(rng() % 12), n_periods = 1 + static_cast<int>(rng() % 9);
+        std::vector<double> ids, t;
+        double id = -5.0 + static_cast<double>(rng() % 5);
+        for (int u = 0; u < n_units; ++u) {
+            id += 1.0 + static_cast<double>(rng() % 3);   // ids rise, with gaps
+            for (int p = 0; p < n_periods; ++p)
+                if (rng() % 3 != 0) {
+                    ids.push_back(id);
+                    t.push_back(1990.0 + 2.0 * p);
+                }
+        }
+        if (ids.empty()) continue;
+        INFO("trial " << trial << ", rows " << ids.size());
+        const weft::UnitColumn fast = numbers(ids, false), general = numbers(ids, true);
+        const weft::Column periods = column("t", t);
+        const weft::PanelIndex a = weft::build_index(fast, periods, 3);
+        const weft::PanelIndex b = weft::build_index(general, periods, 3);
+        CHECK(a.in_input_order);
+        CHECK(a.n_rows == b.n_rows);
+        CHECK(a.grid == b.grid);
+        CHECK(a.unit_labels == b.unit_labels);
+        CHECK(a.unit_of_row == b.unit_of_row);
+        CHECK(a.period_of_row == b.period_of_row);
+        CHECK(a.unit_start == b.unit_start);
+        CHECK(a.rows_by_unit == b.rows_by_unit);
+        // a repeated pair, counted alike by the structure report on both routes
+        std::vector<double> ids2 = ids, t2 = t;
+        const std::size_t at = rng() % ids.size();
+        ids2.insert(ids2.begin() + static_cast<std::ptrdiff_t>(at), ids[at]);
+        t2.insert(t2.begin() + static_cast<std::ptrdiff_t>(at), t[at]);
+        const weft::UnitColumn fast2 = numbers(ids2, false), general2 = numbers(ids2, true);
+        const weft::Column periods2 = column("t", t2);
+        const std::string msg_a = core_test::message_of([&] { weft::build_index(fast2, periods2, 3); });
+        const std::string msg_b = core_test::message_of([&] { weft::build_index(general2, periods2, 3); });
+        CHECK(msg_a == msg_b);
+        CHECK(weft::describe_structure(fast2, periods2, 3).duplicate_pairs ==
+              weft::describe_structure(general2, periods2, 3).duplicate_pairs);
+    }
+}
+
+TEST_CASE("index: on the one-pass route a repeated pair is named, after any bad id", "[panel]") {
+    weft::UnitColumn units;
+    units.numbers = {1, 1, 2, 2, 2};
+    // unit 2 has period 3 twice, at input rows 3 and 4 (row numbers 5 and 6 from 2)
+    const std::string msg = core_test::message_of(
+        [&] { weft::build_index(units, column("t", {1, 2, 1, 3, 3}), 2); });
+    INFO(msg);
+    CHECK(msg.find("unit \"2\" has two rows for period 3 (rows 5 and 6)") != std::string::npos);
+    // a unit id that is not a number, below the repeated pair, is reported first (as
+    // the general route does: ids are checked before pairs)
+    units.numbers = {1, 1, 2, 2, std::numeric_limits<double>::quiet_NaN()};
+    const std::string bad = core_test::message_of(
+        [&] { weft::build_index(units, column("t", {1, 1, 1, 3, 3}), 2); });
+    INFO(bad);
+    CHECK(bad.find("units, row 6") != std::string::npos);
+}
