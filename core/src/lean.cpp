@@ -160,8 +160,8 @@ public:
             while (lo_ < is_row.size() && !is_row[lo_]) ++lo_;
             hi_ = is_row.size();
             while (hi_ > lo_ && !is_row[hi_ - 1]) --hi_;
-            assign_large(keep_, hi_ - lo_, 0.0);
-            for (std::size_t r = lo_; r < hi_; ++r) keep_[r - lo_] = is_row[r] ? 1.0 : 0.0;
+            marks_ = is_row.data();
+            keep_.assign(static_cast<std::size_t>(block), 0.0);
         } else {
             const std::vector<std::size_t>& later = *in.later;
             for (std::size_t i = 0; i < later.size(); ++i) {
@@ -208,7 +208,9 @@ public:
             const Index b = static_cast<Index>(std::min<std::size_t>(static_cast<std::size_t>(block_), hi_ - a));
             blk.rows = b;
             blk.first = a;
-            blk.keep = keep_.data() + (a - lo_);
+            // the block's weights from the row marks (0 or 1)
+            for (Index i = 0; i < b; ++i) keep_[static_cast<std::size_t>(i)] = marks_[a + static_cast<std::size_t>(i)] != 0 ? 1.0 : 0.0;
+            blk.keep = keep_.data();
             for (Index c = 0; c < width(); ++c) {
                 const double* x = columns_[static_cast<std::size_t>(c)];
                 // a column without a mask is checked in the same loop that reads it
@@ -348,7 +350,8 @@ private:
     bool fd_;
     Index block_;
     std::size_t lo_ = 0, hi_ = 0;          // sorted: the input rows [lo_, hi_) hold every equation row
-    std::vector<double> keep_;             // sorted: weights of rows lo_..hi_-1; unsorted: ones
+    const std::uint8_t* marks_ = nullptr;  // sorted: LeanInput::is_row
+    std::vector<double> keep_;             // sorted: weights of the block's rows; unsorted: ones
     std::vector<Piece> pieces_;
     std::vector<const double*> columns_;
     std::vector<const std::uint8_t*> masks_;
@@ -656,7 +659,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
             i = j;
         }
     }
-    if (by_unit) g = group_sums.rowwise().sum() + no_unit;
+    if (by_unit) g = group_sums * VectorXd::Ones(static_cast<Index>(groups)) + no_unit;
     const VectorXd delta = correction(g);
     c += delta;
     eq.coef = original_coefficients(eq, c.cast<long double>(), shift_y);
@@ -684,7 +687,8 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     } else if (by_unit) {
         clusters = eq.n_units;
         if (clusters < 2) return std::nullopt;
-        meat = group_sums * group_sums.transpose();
+        meat.selfadjointView<Eigen::Lower>().rankUpdate(group_sums);
+        meat = meat.selfadjointView<Eigen::Lower>();
     } else if (kind == Covariance::cluster_period) {
         clusters = eq.n_periods;
         if (clusters < 2) return std::nullopt;
