@@ -88,6 +88,14 @@ int main(int argc, char** argv) {
   });
   const Timing copy_in = time_median(reps, [&] { weft::PanelData copy = to_core(s); });
   const Timing index = time_median(reps, [&] { weft::build_index(data.units, data.periods, 1); });
+  const Timing lean = time_median(reps, [&] { weft::fit_model_lean(data, spec); });
+  weft::PanelData borrowed;
+  borrowed.outcome = weft::Column::borrow("y", s.outcome(), nullptr, s.rows);
+  for (std::size_t k = 0; k < s.regressors; ++k)
+    borrowed.regressors.push_back(weft::Column::borrow("x" + std::to_string(k + 1), s.regressor(k), nullptr, s.rows));
+  borrowed.units.numbers = s.unit;
+  borrowed.periods = weft::Column::borrow("t", s.period.data(), nullptr, s.rows);
+  const Timing lean_borrowed = time_median(reps, [&] { weft::fit_model_lean(borrowed, spec); });
   const Timing fit = time_median(reps, [&] { weft::fit_model(data, spec); });
   const Timing fd_design = time_median(reps, [&] { weft::EquationInput in = fd_equation(s); });
   weft::EquationInput prepared = fd_equation(s);
@@ -108,7 +116,10 @@ int main(int argc, char** argv) {
   };
   line("floor: Z'Z, one pass (Eigen rank update)", floor);
   line("copying the columns (what weft_panel_set_* does)", copy_in);
-  line("fit_model total", fit);
+  line("fit_model_lean total (the route weft_model_new takes)", lean);
+  line("  of which build_index (sort rows by unit, period)", index);
+  line("fit_model_lean on the host's block, borrowed in place", lean_borrowed);
+  line("fit_model total (the full route, for comparison)", fit);
   line("  of which build_index (sort rows by unit, period)", index);
   line("  of which the fd design (bench's own loop, same shape)", fd_design);
   line("  of which solve_equation on that design", solve);
