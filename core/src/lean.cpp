@@ -551,9 +551,16 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     const bool by_period = kind == Covariance::cluster_period || kind == Covariance::dk;
     const bool per_row = kind == Covariance::hc0 || kind == Covariance::hc1;
     const std::size_t groups = by_unit ? in.index.n_units() : in.index.n_periods();
-    MatrixXd group_sums;   // p x groups: score sums per unit
+    // By unit: the score sums of a window of kUnitWindow consecutive unit ids, from
+    // window_base on. The equation rows come in unit order (ids never decrease), so
+    // when a row's unit lies past the window every unit in it is complete: its sums go
+    // into the meat (one rank update for the window) and the gradient, and the window
+    // moves on. The sums of all units are never held at once.
+    constexpr Index kUnitWindow = 256;
+    MatrixXd window;       // p x kUnitWindow
+    std::int32_t window_base = 0, window_used = 0;   // ids window_base .. window_base + window_used - 1
     MatrixXd period_sums;  // groups x p: score sums per grid period
-    if (by_unit) group_sums = MatrixXd::Zero(p, static_cast<Index>(groups));
+    if (by_unit) window = MatrixXd::Zero(p, kUnitWindow);
     if (by_period) period_sums = MatrixXd::Zero(static_cast<Index>(groups), p);
     std::vector<std::int32_t> ids(static_cast<std::size_t>(block));
     const std::int32_t* id_of_row = by_unit ? in.index.unit_of_row.data() : in.index.period_of_row.data();
@@ -561,6 +568,15 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     MatrixXd W(block, p);
     VectorXd g = VectorXd::Zero(p);
     VectorXd no_unit = VectorXd::Zero(p);   // by unit: score sums of rows without a unit
+    auto flush_window = [&] {
+        if (window_used == 0) return;
+        const auto done = window.leftCols(window_used);
+        meat.selfadjointView<Eigen::Lower>().rankUpdate(done);
+        g.noalias() += done * VectorXd::Ones(window_used);
+        window.leftCols(window_used).setZero();
+        window_used = 0;
+    };
+    bool units_in_order = true;
     long double ssr = 0, y_sum = 0, y_squares = 0;   // y here is y - t_y
     const long double shift_y_l = shift_y;
     reader.restart();
@@ -622,7 +638,18 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
             Index j = i + 1;
             while (j < b && id_of_row[blk.input_row(j)] == id) ++j;
             {
-                double* sum = id >= 0 ? group_sums.col(id).data() : no_unit.data();
+                double* sum = no_unit.data();
+                if (id >= 0) {
+                    if (id < window_base) units_in_order = false;   // not expected: see above
+                    if (id >= window_base + kUnitWindow) {
+                        flush_window();
+                        window_base = id;
+                    }
+                    if (id >= window_base) {
+                        window_used = std::max(window_used, id - window_base + 1);
+                        sum = window.col(id - window_base).data();
+                    }
+                }
                 const double* ui = u.data() + i;
                 const Index len = j - i;
                 if (intercept) {
@@ -659,7 +686,11 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
             i = j;
         }
     }
-    if (by_unit) g = group_sums * VectorXd::Ones(static_cast<Index>(groups)) + no_unit;
+    if (by_unit) {
+        if (!units_in_order) return std::nullopt;
+        flush_window();
+        g += no_unit;
+    }
     const VectorXd delta = correction(g);
     c += delta;
     eq.coef = original_coefficients(eq, c.cast<long double>(), shift_y);
@@ -687,8 +718,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     } else if (by_unit) {
         clusters = eq.n_units;
         if (clusters < 2) return std::nullopt;
-        meat.selfadjointView<Eigen::Lower>().rankUpdate(group_sums);
-        meat = meat.selfadjointView<Eigen::Lower>();
+        meat = meat.selfadjointView<Eigen::Lower>();   // the windows' rank updates
     } else if (kind == Covariance::cluster_period) {
         clusters = eq.n_periods;
         if (clusters < 2) return std::nullopt;
