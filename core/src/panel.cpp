@@ -270,8 +270,7 @@ bool index_sorted_numbers(const UnitColumn& units, const Column& periods, PanelI
                     std::to_string(index.first_row_number + i - 1) + " and " +
                     std::to_string(index.first_row_number + i) + "); keep one row per unit and period");
     }
-    assign_large(index.rows_by_unit, n, std::size_t{0});
-    std::iota(index.rows_by_unit.begin(), index.rows_by_unit.end(), std::size_t{0});
+    index.rows_by_unit = RowOrder::in_order(n);
     index.in_input_order = true;
     return true;
 }

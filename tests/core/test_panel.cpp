@@ -375,6 +375,8 @@ TEST_CASE("index: sorted numeric ids take a one-pass route that agrees with the 
         const weft::PanelIndex a = weft::build_index(fast, periods, 3);
         const weft::PanelIndex b = weft::build_index(general, periods, 3);
         CHECK(a.in_input_order);
+        CHECK_FALSE(a.rows_by_unit.listed());   // 0..n-1 without a list
+        CHECK(b.rows_by_unit.listed());
         CHECK(a.n_rows == b.n_rows);
         CHECK(a.grid == b.grid);
         CHECK(a.unit_labels == b.unit_labels);

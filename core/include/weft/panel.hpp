@@ -24,6 +24,8 @@
 
 #include <cstddef>
 #include <cstdint>
+#include <iterator>
+#include <utility>
 #include <string>
 #include <vector>
 
@@ -91,6 +93,71 @@ struct PanelData {
     std::size_t first_row_number = 1;   // number used in messages for input position 0
 };
 
+// The input rows in unit-then-period order (PanelIndex::rows_by_unit): a list, or,
+// when the input came in that order, 0, 1, ..., n - 1 held as its length alone (a
+// large panel then needs no list of 8 bytes a row). Read it as a vector: size(),
+// [k], iteration, ==.
+class RowOrder {
+public:
+    RowOrder() = default;
+    RowOrder(std::vector<std::size_t> rows) : rows_(std::move(rows)), n_(rows_.size()) {}  // NOLINT: converts
+    static RowOrder in_order(std::size_t n) {
+        RowOrder order;
+        order.n_ = n;
+        order.listed_ = false;
+        return order;
+    }
+    std::size_t size() const { return n_; }
+    bool empty() const { return n_ == 0; }
+    std::size_t operator[](std::size_t k) const { return listed_ ? rows_[k] : k; }
+    // false: 0, 1, ..., size() - 1, with no list behind it
+    bool listed() const { return listed_; }
+
+    class const_iterator {
+    public:
+        using iterator_category = std::random_access_iterator_tag;
+        using value_type = std::size_t;
+        using difference_type = std::ptrdiff_t;
+        using pointer = const std::size_t*;
+        using reference = std::size_t;
+        const_iterator() = default;
+        const_iterator(const RowOrder* order, std::size_t k) : order_(order), k_(k) {}
+        std::size_t operator*() const { return (*order_)[k_]; }
+        std::size_t operator[](difference_type d) const { return (*order_)[k_ + static_cast<std::size_t>(d)]; }
+        const_iterator& operator++() { ++k_; return *this; }
+        const_iterator operator++(int) { const_iterator at = *this; ++k_; return at; }
+        const_iterator& operator--() { --k_; return *this; }
+        const_iterator& operator+=(difference_type d) { k_ += static_cast<std::size_t>(d); return *this; }
+        const_iterator& operator-=(difference_type d) { k_ -= static_cast<std::size_t>(d); return *this; }
+        friend const_iterator operator+(const_iterator it, difference_type d) { return it += d; }
+        friend const_iterator operator-(const_iterator it, difference_type d) { return it -= d; }
+        friend difference_type operator-(const const_iterator& a, const const_iterator& b) {
+            return static_cast<difference_type>(a.k_) - static_cast<difference_type>(b.k_);
+        }
+        friend bool operator==(const const_iterator& a, const const_iterator& b) { return a.k_ == b.k_; }
+        friend bool operator!=(const const_iterator& a, const const_iterator& b) { return a.k_ != b.k_; }
+        friend bool operator<(const const_iterator& a, const const_iterator& b) { return a.k_ < b.k_; }
+
+    private:
+        const RowOrder* order_ = nullptr;
+        std::size_t k_ = 0;
+    };
+    const_iterator begin() const { return {this, 0}; }
+    const_iterator end() const { return {this, n_}; }
+
+    friend bool operator==(const RowOrder& a, const RowOrder& b) {
+        if (a.n_ != b.n_) return false;
+        for (std::size_t k = 0; k < a.n_; ++k)
+            if (a[k] != b[k]) return false;
+        return true;
+    }
+
+private:
+    std::vector<std::size_t> rows_;
+    std::size_t n_ = 0;
+    bool listed_ = true;
+};
+
 // Rows grouped by unit and placed on the period grid.
 struct PanelIndex {
     std::size_t n_rows = 0;                  // input rows (all of them)
@@ -102,7 +169,7 @@ struct PanelIndex {
     // CSR layout: the rows of unit u, sorted by period, are
     // rows_by_unit[unit_start[u] .. unit_start[u+1]).
     std::vector<std::size_t> unit_start;     // size n_units() + 1
-    std::vector<std::size_t> rows_by_unit;
+    RowOrder rows_by_unit;
     // true exactly when rows_by_unit is 0, 1, ..., n_rows - 1: every row has a unit and
     // a period, and the input came sorted by unit, then period
     bool in_input_order = false;
