@@ -436,17 +436,25 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
 
     // listwise: a row is used when its unit, period, outcome and every regressor are present
     std::vector<std::uint8_t> used;
-    assign_large(used, n_rows, std::uint8_t{0});
-    for (std::size_t i = 0; i < n_rows; ++i) used[i] = index.unit_of_row[i] >= 0 ? 1 : 0;
+    // (in input order, every row has its unit and period)
+    bool all_used = index.in_input_order;
+    if (all_used) {
+        assign_large(used, n_rows, std::uint8_t{1});
+    } else {
+        assign_large(used, n_rows, std::uint8_t{0});
+        for (std::size_t i = 0; i < n_rows; ++i) used[i] = index.unit_of_row[i] >= 0 ? 1 : 0;
+    }
     auto drop_missing = [&](const Column& c) {
         const std::uint8_t* mask = c.mask();
         if (mask == nullptr) return;
+        all_used = false;
         for (std::size_t i = 0; i < n_rows; ++i) used[i] &= static_cast<std::uint8_t>(mask[i] == 0);
     };
     drop_missing(data.outcome);
     for (const Column& x : data.regressors) drop_missing(x);
-    std::size_t rows_used = 0;
-    for (std::size_t i = 0; i < n_rows; ++i) rows_used += used[i];
+    std::size_t rows_used = all_used ? n_rows : 0;
+    if (!all_used)
+        for (std::size_t i = 0; i < n_rows; ++i) rows_used += used[i];
     fit.rows_input = n_rows;
     fit.rows_used = rows_used;
     fit.rows_dropped = n_rows - rows_used;
@@ -524,17 +532,28 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
             assign_large(is_row, n_rows, std::uint8_t{0});
             const std::vector<std::int32_t>& unit = index.unit_of_row;
             const std::vector<std::int32_t>& period = index.period_of_row;
-            for (std::size_t r = 0; r < n_rows; ++r) {
-                if (!fd) {
-                    is_row[r] = used[r];
-                } else if (r > 0 && used[r] && used[r - 1] && unit[r] == unit[r - 1]) {
-                    // consecutive used rows of one unit: a difference, unless a grid period lies between
-                    if (period[r] == period[r - 1] + 1)
-                        is_row[r] = 1;
-                    else
-                        ++pairs_lost;
+            if (fd) {
+                // consecutive used rows of one unit: a difference, unless a grid period
+                // lies between (a pair lost); branch-free, the marks of units and
+                // periods set by the row's own mark
+                std::size_t count = 0, lost = 0;
+                for (std::size_t r = 1; r < n_rows; ++r) {
+                    const bool pair = (used[r] & used[r - 1]) != 0 && unit[r] == unit[r - 1];
+                    const bool adjacent = period[r] == period[r - 1] + 1;
+                    const std::uint8_t row = pair && adjacent ? 1 : 0;
+                    is_row[r] = row;
+                    count += row;
+                    lost += pair && !adjacent ? 1 : 0;
+                    unit_seen[static_cast<std::size_t>(unit[r])] |= row;
+                    period_seen[static_cast<std::size_t>(period[r])] |= row;
                 }
-                if (is_row[r]) count_row(r);
+                in.count = count;
+                pairs_lost += lost;
+            } else {
+                for (std::size_t r = 0; r < n_rows; ++r) {
+                    is_row[r] = used[r];
+                    if (is_row[r]) count_row(r);
+                }
             }
             in.is_row = &is_row;
         } else if (fd) {
