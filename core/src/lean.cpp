@@ -550,7 +550,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     const bool by_unit = kind == Covariance::cluster || kind == Covariance::cluster0;
     const bool by_period = kind == Covariance::cluster_period || kind == Covariance::dk;
     const bool per_row = kind == Covariance::hc0 || kind == Covariance::hc1;
-    const std::size_t groups = by_unit ? in.index.n_units() : in.index.n_periods();
+    const std::size_t periods = in.index.n_periods();   // by period: the grid periods
     // By unit: the score sums of a window of kUnitWindow consecutive unit ids, from
     // window_base on. The equation rows come in unit order (ids never decrease), so
     // when a row's unit lies past the window every unit in it is complete: its sums go
@@ -559,9 +559,9 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     constexpr Index kUnitWindow = 256;
     MatrixXd window;       // p x kUnitWindow
     std::int32_t window_base = 0, window_used = 0;   // ids window_base .. window_base + window_used - 1
-    MatrixXd period_sums;  // groups x p: score sums per grid period
+    MatrixXd period_sums;  // periods x p: score sums per grid period
     if (by_unit) window = MatrixXd::Zero(p, kUnitWindow);
-    if (by_period) period_sums = MatrixXd::Zero(static_cast<Index>(groups), p);
+    if (by_period) period_sums = MatrixXd::Zero(static_cast<Index>(periods), p);
     std::vector<std::int32_t> ids(static_cast<std::size_t>(block));
     const std::int32_t* id_of_row = by_unit ? in.index.unit_of_row.data() : in.index.period_of_row.data();
     MatrixXd meat = MatrixXd::Zero(p, p);
@@ -620,7 +620,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
             double* sums_t = period_sums.data();
             for (Index i = 0; i < b; ++i) ids[static_cast<std::size_t>(i)] = id_of_row[blk.input_row(i)];
             for (Index col = -c0; col < k_reg; ++col) {
-                double* target = sums_t + (col + c0) * static_cast<Index>(groups);
+                double* target = sums_t + (col + c0) * static_cast<Index>(periods);
                 const double* z = col >= 0 ? B.col(col).data() : nullptr;
                 for (Index i = 0; i < b; ++i) {
                     const std::int32_t id = ids[static_cast<std::size_t>(i)];

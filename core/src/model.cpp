@@ -436,7 +436,7 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
 
     // listwise: a row is used when its unit, period, outcome and every regressor are present
     std::vector<std::uint8_t> used;
-    // (in input order, every row has its unit and period)
+    // (in input order every row has its unit and period: only the masks drop rows)
     bool all_used = index.in_input_order;
     if (all_used) {
         assign_large(used, n_rows, std::uint8_t{1});
