@@ -193,6 +193,14 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
     return rows;
 }
 
+// A repeated (unit, period) pair: the message names the unit, the period and both rows
+// (row numbers as the host counts them).
+Error duplicate_pair(const std::string& unit, double period, std::size_t first_row, std::size_t second_row) {
+    return Error("unit \"" + unit + "\" has two rows for period " + format_number(period) + " (rows " +
+                 std::to_string(first_row) + " and " + std::to_string(second_row) +
+                 "); keep one row per unit and period");
+}
+
 // The common case in one pass over the rows: numeric unit ids and periods, nothing
 // missing, rows sorted by unit, then period. Fills the index as make_index would and
 // returns true; returns false, with the index to be rebuilt, as soon as a row leaves
@@ -265,10 +273,8 @@ bool index_sorted_numbers(const UnitColumn& units, const Column& periods, PanelI
     }
     if (reject_duplicates && first_duplicate != 0) {
         const std::size_t i = first_duplicate;
-        throw Error("unit \"" + index.unit_labels[static_cast<std::size_t>(unit_of_row[i])] +
-                    "\" has two rows for period " + format_number(p[i]) + " (rows " +
-                    std::to_string(index.first_row_number + i - 1) + " and " +
-                    std::to_string(index.first_row_number + i) + "); keep one row per unit and period");
+        throw duplicate_pair(index.unit_labels[static_cast<std::size_t>(unit_of_row[i])], p[i],
+                             index.first_row_number + i - 1, index.first_row_number + i);
     }
     index.rows_by_unit = RowOrder::in_order(n);
     index.in_input_order = true;
@@ -351,9 +357,7 @@ PanelIndex make_index(const UnitColumn& units, const Column& periods, std::size_
             if (periods.value(prev) != p) continue;
             ++duplicates;
             if (reject_duplicates)
-                throw Error("unit \"" + index.unit_labels[u] + "\" has two rows for period " + format_number(p) +
-                            " (rows " + std::to_string(first_row_number + prev) + " and " +
-                            std::to_string(first_row_number + i) + "); keep one row per unit and period");
+                throw duplicate_pair(index.unit_labels[u], p, first_row_number + prev, first_row_number + i);
         }
     }
     if (duplicate_count != nullptr) *duplicate_count = duplicates;

@@ -20,6 +20,15 @@ weft::Column column(const std::string& name, std::vector<double> v, std::vector<
     return c;
 }
 
+// unit ids as numbers, with an optional missing-value mask
+weft::UnitColumn numeric(std::vector<double> ids, std::vector<std::uint8_t> missing = {}) {
+    weft::UnitColumn u;
+    u.name = "unit";
+    u.numbers = std::move(ids);
+    u.missing = std::move(missing);
+    return u;
+}
+
 weft::UnitColumn text_units(std::vector<std::string> ids) {
     weft::UnitColumn u;
     u.name = "unit";
@@ -306,13 +315,6 @@ TEST_CASE("shuffled rows give identical results, aligned to the input rows", "[p
 TEST_CASE("index: input order is recognised only when every row is in place", "[panel]") {
     // in_input_order lets the lean route read rows in place; it must be true exactly
     // when rows_by_unit is 0, 1, ..., n - 1 (worked out by hand for each case)
-    auto numeric = [](std::vector<double> ids, std::vector<std::uint8_t> missing = {}) {
-        weft::UnitColumn u;
-        u.name = "unit";
-        u.numbers = std::move(ids);
-        u.missing = std::move(missing);
-        return u;
-    };
     auto identity = [](const weft::PanelIndex& index) {
         for (std::size_t k = 0; k < index.rows_by_unit.size(); ++k)
             if (index.rows_by_unit[k] != k) return false;
@@ -347,14 +349,8 @@ TEST_CASE("index: sorted numeric ids take a one-pass route that agrees with the 
     // general route (sort, then grid), so the two indexes must be identical, field by
     // field. The panels are sorted with gaps; periods first seen in a later unit fall
     // inside the grid known so far, which renumbers the positions already given.
-    // ids as numbers; with_mask: a missing-value mask that marks no row
-    auto numbers = [](std::vector<double> ids, bool with_mask) {
-        weft::UnitColumn u;
-        u.name = "unit";
-        if (with_mask) u.missing.assign(ids.size(), 0);
-        u.numbers = std::move(ids);
-        return u;
-    };
+    // the general route: a missing-value mask that marks no row
+    auto unmasked = [](const std::vector<double>& ids) { return std::vector<std::uint8_t>(ids.size(), 0); };
     std::mt19937 rng(20261202);
     for (int trial = 0; trial < 200; ++trial) {
         const int n_units = 1 + static_cast<int>(rng() % 12), n_periods = 1 + static_cast<int>(rng() % 9);
@@ -370,7 +366,7 @@ TEST_CASE("index: sorted numeric ids take a one-pass route that agrees with the 
         }
         if (ids.empty()) continue;
         INFO("trial " << trial << ", rows " << ids.size());
-        const weft::UnitColumn fast = numbers(ids, false), general = numbers(ids, true);
+        const weft::UnitColumn fast = numeric(ids), general = numeric(ids, unmasked(ids));
         const weft::Column periods = column("t", t);
         const weft::PanelIndex a = weft::build_index(fast, periods, 3);
         const weft::PanelIndex b = weft::build_index(general, periods, 3);
@@ -389,7 +385,7 @@ TEST_CASE("index: sorted numeric ids take a one-pass route that agrees with the 
         const std::size_t at = rng() % ids.size();
         ids2.insert(ids2.begin() + static_cast<std::ptrdiff_t>(at), ids[at]);
         t2.insert(t2.begin() + static_cast<std::ptrdiff_t>(at), t[at]);
-        const weft::UnitColumn fast2 = numbers(ids2, false), general2 = numbers(ids2, true);
+        const weft::UnitColumn fast2 = numeric(ids2), general2 = numeric(ids2, unmasked(ids2));
         const weft::Column periods2 = column("t", t2);
         const std::string msg_a = core_test::message_of([&] { weft::build_index(fast2, periods2, 3); });
         const std::string msg_b = core_test::message_of([&] { weft::build_index(general2, periods2, 3); });
