@@ -635,6 +635,18 @@ public:
         CallTrace trace("fitEffects");
         return table_result([&] { return fn_fit_effects(to_arg(fit)); });
     }
+    AnyRows SAL_CALL bootstrap(const AnyRows& y, const AnyRows& x, const AnyRows& u, const AnyRows& t,
+                               const Any& model, const Any& term, const Any& settings) override {
+        CallTrace trace("bootstrap");
+        return table_result([&] {
+            const UnoPanelSource r(y, x, u, t);
+            return fn_bootstrap(r, to_arg(model), to_arg(term), to_arg(settings));
+        });
+    }
+    AnyRows SAL_CALL fitBootstrap(const Any& fit, const Any& term, const Any& settings) override {
+        CallTrace trace("fitBootstrap");
+        return table_result([&] { return fn_fit_bootstrap(to_arg(fit), to_arg(term), to_arg(settings)); });
+    }
 
     // ---- XAddIn ----------------------------------------------------------------
     // (The misspelling is the interface's own.) Nothing may escape here either.

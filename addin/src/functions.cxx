@@ -974,6 +974,45 @@ OutTable serial_of(const ModelRef& ref) {
     return lv.table();
 }
 
+// WEFT.BOOTSTRAP: label and value rows (FUNCTIONS.md). settings: one cell of words,
+// or a range whose non-blank cells are words.
+OutTable bootstrap_of(const ModelRef& ref, const Arg& term_arg, const Arg& settings_arg) {
+    std::string term;
+    if (term_arg.given && !term_arg.is_scalar())
+        fail("term is a range of several cells; give one term name, e.g. \"x1\"");
+    const Cell& tc = term_arg.scalar();
+    if (term_arg.given && tc.is_text()) term = trim(tc.text);
+    else if (term_arg.given && tc.is_number()) term = format_number(tc.number);
+    if (term.empty()) fail("WEFT.BOOTSTRAP needs term: the name of the term to test, e.g. \"x1\"");
+    std::string settings;
+    if (settings_arg.given)
+        for (const Cell& c : settings_arg.table.cells) {
+            if (c.is_text()) settings += " " + c.text;
+            else if (c.is_number() && !(settings_arg.is_scalar() && c.number == 0.0))
+                fail("settings holds the number " + format_number(c.number) +
+                     "; give words such as \"draws=9999 seed=1 null=0\"");
+        }
+    Fitted f = fitted_of(ref);
+    weft_bootstrap_result r;
+    check(weft_test_bootstrap(f.model, term.c_str(), settings.c_str(), &r));
+    const auto end = [](double v) { return std::isfinite(v) ? v : std::numeric_limits<double>::quiet_NaN(); };
+    LabelValue lv;
+    lv.text("term", term);
+    lv.number("estimate", r.estimate);
+    lv.number("value tested", r.null_value);
+    lv.number("bootstrap p-value", r.p);
+    if (std::isfinite(r.ci_low)) lv.number("interval low", end(r.ci_low));
+    else lv.text("interval low", "unbounded");
+    if (std::isfinite(r.ci_high)) lv.number("interval high", end(r.ci_high));
+    else lv.text("interval high", "unbounded");
+    lv.number("draws", r.draws);
+    lv.text("weights", r.weights == WEFT_BOOT_WEBB ? "Webb six-point" : "Rademacher");
+    lv.text("every sign pattern used", r.enumerated ? "yes" : "no");
+    lv.number(r.by_period ? "clusters (periods)" : "clusters (units)", r.clusters);
+    add_test_warnings(lv);
+    return lv.table();
+}
+
 }  // namespace
 
 OutCell fn_fit(const PanelSource& in, const Arg& model) {
@@ -1034,6 +1073,15 @@ OutTable fn_fit_fitted(const Arg& fit) {
 OutTable fn_fit_joint(const Arg& fit, const Arg& terms) { return joint_of({nullptr, nullptr, &fit}, terms); }
 OutTable fn_fit_hetero(const Arg& fit, const Arg& form) { return hetero_of({nullptr, nullptr, &fit}, form); }
 OutTable fn_fit_serial(const Arg& fit) { return serial_of({nullptr, nullptr, &fit}); }
+OutTable fn_bootstrap(const PanelSource& in, const Arg& model, const Arg& term, const Arg& settings) {
+    return bootstrap_of({&in, &model, nullptr}, term, settings);
+}
+OutTable fn_fit_bootstrap(const Arg& fit, const Arg& term, const Arg& settings) {
+    return bootstrap_of({nullptr, nullptr, &fit}, term, settings);
+}
+OutTable fn_bootstrap(const PanelRanges& in, const Arg& model, const Arg& term, const Arg& settings) {
+    return fn_bootstrap(TableSource(in), model, term, settings);
+}
 
 namespace {
 

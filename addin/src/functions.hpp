@@ -60,6 +60,9 @@ OutTable fn_fit_hetero(const Arg& fit, const Arg& form);
 OutTable fn_fit_serial(const Arg& fit);
 OutTable fn_fit_hausman(const Arg& fit);
 OutTable fn_fit_effects(const Arg& fit);
+OutTable fn_fit_bootstrap(const Arg& fit, const Arg& term, const Arg& settings);
+OutTable fn_bootstrap(const PanelSource& in, const Arg& model, const Arg& term, const Arg& settings);
+OutTable fn_bootstrap(const PanelRanges& in, const Arg& model, const Arg& term, const Arg& settings);
 
 OutTable fn_estimates(const PanelSource& in, const Arg& model);
 OutTable fn_summary(const PanelSource& in, const Arg& model);

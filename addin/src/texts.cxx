@@ -45,6 +45,13 @@ const ArgumentText fit_arg{
     "fit", "The cell that holds =WEFT.FIT(...): the fitted model, so the ranges are not read or "
            "fitted again."};
 
+const ArgumentText tested_term_arg{
+    "term", "Name of the one term to test, as in WEFT.ESTIMATES, e.g. \"x1\"."};
+const ArgumentText boot_settings_arg{
+    "settings",
+    "Optional words: draws=N (99 to 1000000, default 9999), seed=S (default 1), rademacher or "
+    "webb (weights), null=V (tested value, default 0). Same words, same numbers."};
+
 std::vector<ArgumentText> panel_args() {
     return {outcome_arg, regressors_arg, units_arg, periods_arg, model_arg};
 }
@@ -170,6 +177,15 @@ std::vector<FunctionText> make_texts() {
                  "WEFT.EFFECTS on a fit cell's data: F test that all unit effects are zero "
                  "(within versus pooled): F, df1, df2, p-value.",
                  {fit_arg}});
+    t.push_back({"bootstrap", "WEFT.BOOTSTRAP",
+                 "Wild cluster bootstrap test of one term (restricted, CR1 t in every draw; clusters "
+                 "as in the model's standard errors, units if not clustered): term, estimate, value "
+                 "tested, p-value, interval, draws, weights, every sign pattern used, clusters.",
+                 panel_args_plus({tested_term_arg, boot_settings_arg})});
+    t.push_back({"fitBootstrap", "WEFT.FIT.BOOTSTRAP",
+                 "WEFT.BOOTSTRAP on a fit cell's model: wild cluster bootstrap p-value and interval "
+                 "of one term.",
+                 {fit_arg, tested_term_arg, boot_settings_arg}});
     return t;
 }
 

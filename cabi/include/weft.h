@@ -82,10 +82,10 @@ extern "C" {
 /** Version of this header. WEFT_VERSION_NUMBER = major * 10000 + minor * 100 +
  *  patch. Compare with weft_version_number() to detect a header/library mismatch. */
 #define WEFT_VERSION_MAJOR 0
-#define WEFT_VERSION_MINOR 2
+#define WEFT_VERSION_MINOR 3
 #define WEFT_VERSION_PATCH 0
-#define WEFT_VERSION_NUMBER 200
-#define WEFT_VERSION "0.2.0"
+#define WEFT_VERSION_NUMBER 300
+#define WEFT_VERSION "0.3.0"
 
 /** The library's version number, same encoding as WEFT_VERSION_NUMBER. Never
  *  fails. */
@@ -694,6 +694,57 @@ typedef struct weft_effects_result {
  *  intercept used). Errors: as weft_model_new. */
 WEFT_API int weft_test_effects(const weft_panel *panel, const weft_options *options,
                                weft_effects_result *out);
+
+/* ------------------------------------------------------------------------------
+ * Wild cluster bootstrap (0.3.0)
+ * --------------------------------------------------------------------------- */
+
+/** Weight schemes of the wild cluster bootstrap (append-only). */
+enum weft_boot_weights {
+    WEFT_BOOT_RADEMACHER = 1,   /**< +1 or -1 with probability 1/2 */
+    WEFT_BOOT_WEBB = 2          /**< Webb (2023) six points +-sqrt(1/2), +-1, +-sqrt(3/2) */
+};
+
+/** Result of the wild cluster bootstrap test of one term (WEFT.BOOTSTRAP). */
+typedef struct weft_bootstrap_result {
+    double estimate;     /**< the model's estimate of the term */
+    double null_value;   /**< the tested value (settings word null=V; 0 by default) */
+    double p;            /**< symmetric bootstrap p-value: the share of draws with
+                              |t*| >= |t|, ties within relative 1e-10 counted */
+    double ci_low;       /**< interval by test inversion at the model's level: the
+                              tested values whose p-value is at least 1 - level;
+                              -INFINITY when no value below the estimate is rejected */
+    double ci_high;      /**< +INFINITY when no value above the estimate is rejected */
+    double level;        /**< the model's confidence level */
+    double draws;        /**< draws used: 2^G when the sign patterns were enumerated */
+    int weights;         /**< enum weft_boot_weights */
+    int enumerated;      /**< 1 when every Rademacher sign pattern was used once */
+    double clusters;     /**< G */
+    int by_period;       /**< 1 when the clusters are periods, 0 units */
+    double t;            /**< t statistic of the sample with the CR1 covariance of the
+                              same clusters (G/(G-1) (N-1)/(N-K)) */
+} weft_bootstrap_result;
+
+/** Restricted wild cluster bootstrap-t of one term (Cameron, Gelbach and Miller
+ *  2008; the per-cluster algebra of Roodman, MacKinnon, Nielsen and Webb 2019):
+ *  H0 term = null_value imposed, CR1 t in every draw, clusters as in the model's
+ *  standard errors (periods under WEFT_SE_CLUSTER_PERIOD, units otherwise).
+ *  settings is a text of words separated by spaces or commas (NULL or "": the
+ *  defaults): draws=N (99 to 1000000, default 9999), seed=S (whole number 0 to
+ *  2^53 - 1, default 1), rademacher or webb (default: Rademacher, every sign pattern
+ *  once when 2^G <= draws; otherwise Webb when G <= 12 and Rademacher above),
+ *  null=V. Random weights come from weft's own generator (xoshiro256** seeded by
+ *  splitmix64, see core/src/bootstrap.cpp), so the same model, term and settings give
+ *  the same result on every call and machine. Warnings (few sign patterns, an
+ *  unbounded interval) are in weft_test_warnings(). A lean model is refitted in full
+ *  once (as for the other tests that need the equation's rows).
+ *  Errors: WEFT_EINVAL (NULL model/term/out); WEFT_EMODEL (a bad settings word:
+ *  message names it and lists the words); WEFT_ERANGE (a term the model does not
+ *  estimate); WEFT_ECOMPUTE (one cluster, two-way clusters, period clusters with
+ *  within or random, an exact fit). On failure the doubles of *out are NaN and its
+ *  ints 0. */
+WEFT_API int weft_test_bootstrap(const weft_model *model, const char *term,
+                                 const char *settings, weft_bootstrap_result *out);
 
 #ifdef __cplusplus
 }

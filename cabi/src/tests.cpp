@@ -27,6 +27,15 @@ void keep_warnings(const std::vector<std::string>& warnings) {
     for (const std::string& w : warnings) test_warnings += (test_warnings.empty() ? "" : "; ") + w;
 }
 
+}  // namespace
+
+namespace weft_cabi {
+// For the other test files of the C interface (bootstrap.cpp).
+void keep_test_warnings(const std::vector<std::string>& warnings) { keep_warnings(warnings); }
+}  // namespace weft_cabi
+
+namespace {
+
 weft_wald_result to_c(const weft::WaldResult& r) {
     weft_wald_result out;
     out.f = r.f;

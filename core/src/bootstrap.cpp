@@ -356,8 +356,8 @@ bool clusters_by_period(const Fit& fit) {
 
 BootstrapResult wild_bootstrap(const Fit& fit, std::string_view term, const BootstrapSettings& settings) {
     const Equation& eq = fit.equation;
-    detail::require_rows(eq, "the bootstrap");
     const std::size_t j = term_column(fit, term);
+    detail::require_rows(eq, "the bootstrap");
     BootstrapResult r;
     r.by_period = clusters_by_period(fit);
     const std::vector<std::int32_t>& ids = r.by_period ? eq.period : eq.unit;

@@ -1256,6 +1256,45 @@ static void test_borrowed(const grunfeld *g)
     weft_model_free(m);
 }
 
+/* The wild cluster bootstrap on Grunfeld (10 firms: all 1024 sign patterns are
+ * enumerated, so there is no randomness). Source of the p-values: the R enumeration
+ * of tests/bootstrap/boot_support.hpp (base lm, sandwich::vcovCL HC1, every sign
+ * vector) run on grunfeld.csv with x1 = value: counts 4, 196 and 802 of 1024 at
+ * tested values 0, 0.1 and 0.12. */
+static void test_bootstrap(const grunfeld *g)
+{
+    weft_panel *p = make_panel(g, 0, NULL, NULL);
+    weft_model *m = fit_text(p, "pooled cluster"); /* a lean fit: refitted in full once */
+    weft_bootstrap_result b, b2;
+    OK(weft_test_bootstrap(m, "value", NULL, &b));
+    CHECK(b.p == 4.0 / 1024.0);
+    CHECK(b.draws == 1024.0 && b.enumerated == 1 && b.weights == WEFT_BOOT_RADEMACHER);
+    CHECK(b.clusters == 10.0 && b.by_period == 0 && b.null_value == 0.0 && b.level == 0.95);
+    CHECK(b.ci_low < b.estimate && b.estimate < b.ci_high);
+    NEAR(b.estimate, value_of(m, "estimate", "value"), "the model's own estimate");
+    NEAR(fabs(b.t), fabs(value_of(m, "t", "value")), "the model's CR1 t (same clusters)");
+    OK(weft_test_bootstrap(m, "value", "null=0.1", &b));
+    CHECK(b.p == 196.0 / 1024.0);
+    OK(weft_test_bootstrap(m, "value", "null=0.12, draws=5000", &b));
+    CHECK(b.p == 802.0 / 1024.0);
+    OK(weft_test_bootstrap(m, "value", "webb draws=999 seed=3", &b));
+    OK(weft_test_bootstrap(m, "value", "seed=3 draws=999 webb", &b2));
+    CHECK(b.weights == WEFT_BOOT_WEBB && b.enumerated == 0 && b.draws == 999.0);
+    CHECK(b.p == b2.p && b.ci_low == b2.ci_low && b.ci_high == b2.ci_high);
+    EXPECT_ERROR(weft_test_bootstrap(m, "value", "draws=ten", &b), WEFT_EMODEL, "draws=ten");
+    CHECK(isnan(b.p));
+    EXPECT_ERROR(weft_test_bootstrap(m, "value", "webb rademacher", &b), WEFT_EMODEL, "conflicts");
+    EXPECT_ERROR(weft_test_bootstrap(m, "labour", NULL, &b), WEFT_ERANGE, "labour");
+    EXPECT_ERROR(weft_test_bootstrap(NULL, "value", NULL, &b), WEFT_EINVAL, "model is NULL");
+    EXPECT_ERROR(weft_test_bootstrap(m, NULL, NULL, &b), WEFT_EINVAL, "term is NULL");
+    EXPECT_ERROR(weft_test_bootstrap(m, "value", NULL, NULL), WEFT_EINVAL, "out is NULL");
+    weft_model_free(m);
+    m = fit_text(p, "pooled cluster-both");
+    EXPECT_ERROR(weft_test_bootstrap(m, "value", NULL, &b), WEFT_ECOMPUTE, "one dimension");
+    weft_model_free(m);
+    weft_panel_free(p);
+}
+
 int main(int argc, char **argv)
 {
     static grunfeld g;
@@ -1275,6 +1314,7 @@ int main(int argc, char **argv)
     test_units_masks_and_rows(&g);
     test_model_misuse(&g);
     test_borrowed(&g);
+    test_bootstrap(&g);
     printf("c_consumer: %d checks, %d failed\n", checks, failures);
     return failures == 0 ? 0 : 1;
 }
