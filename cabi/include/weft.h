@@ -160,7 +160,11 @@ enum weft_se {
     WEFT_SE_CLUSTER0 = 6,        /**< cluster by unit, CR0 */
     WEFT_SE_CLUSTER_PERIOD = 7,  /**< cluster by period, CR1 */
     WEFT_SE_CLUSTER_BOTH = 8,    /**< two-way clustering by unit and period */
-    WEFT_SE_DK = 9               /**< Driscoll-Kraay, Bartlett lag dk_lag */
+    WEFT_SE_DK = 9,              /**< Driscoll-Kraay, Bartlett lag dk_lag */
+    WEFT_SE_CR2 = 10             /**< cluster by unit, bias-reduced CR2 (Bell-McCaffrey
+                                      2002): t, p and intervals of each term on its own
+                                      Satterthwaite df (weft_model_term_df); joint tests
+                                      by the HTZ approximation (since 0.3.0) */
 };
 
 #define WEFT_OPTIONS_VERSION 1

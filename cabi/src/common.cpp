@@ -53,9 +53,10 @@ weft::ModelSpec to_spec(const weft_options& options) {
         case WEFT_SE_CLUSTER_PERIOD: spec.covariance = weft::Covariance::cluster_period; break;
         case WEFT_SE_CLUSTER_BOTH: spec.covariance = weft::Covariance::cluster_both; break;
         case WEFT_SE_DK: spec.covariance = weft::Covariance::dk; break;
+        case WEFT_SE_CR2: spec.covariance = weft::Covariance::cr2; break;
         default:
             fail(WEFT_EINVAL, "options: se is " + std::to_string(options.se) +
-                                  ", which is not a weft_se value (0 to 9)");
+                                  ", which is not a weft_se value (0 to 10)");
     }
     if (options.dk_lag < -1)
         fail(WEFT_EMODEL, "options: dk_lag is " + std::to_string(options.dk_lag) +
@@ -90,6 +91,7 @@ weft_options from_spec(const weft::ModelSpec& spec) {
         case weft::Covariance::cluster_period: o.se = WEFT_SE_CLUSTER_PERIOD; break;
         case weft::Covariance::cluster_both: o.se = WEFT_SE_CLUSTER_BOTH; break;
         case weft::Covariance::dk: o.se = WEFT_SE_DK; break;
+        case weft::Covariance::cr2: o.se = WEFT_SE_CR2; break;
     }
     o.dk_lag = spec.dk_lag;
     o.period_effects = spec.period_effects ? 1 : 0;

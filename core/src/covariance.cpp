@@ -98,6 +98,10 @@ void require_clusters(std::size_t G, const char* what, const char* covariance_wo
 
 namespace detail {
 
+std::size_t dense_ids(const std::vector<std::int32_t>& ids, std::vector<std::int32_t>& dense) {
+    return densify(ids, dense);
+}
+
 void require_rows(const Equation& eq, const char* what) {
     if (!eq.rows_held())
         throw Error(std::string("internal: ") + what + " needs the estimated equation's rows; this fit is "
@@ -329,6 +333,9 @@ CovarianceResult compute_covariance(const Equation& eq, Covariance kind, int dk_
             out = detail::covariance_from_meat(eq, kind, detail::dk_meat(h, lag), T, lag);
             break;
         }
+        case Covariance::cr2:
+            out = detail::cr2_covariance(eq);
+            break;
     }
     return out;
 }

@@ -140,3 +140,21 @@ bool lean_applies(const ModelSpec& spec);
 std::optional<LeanResult> lean_equation(const LeanInput& in);
 
 }  // namespace weft::detail
+
+#include "weft/spec.hpp"
+
+namespace weft::detail {
+
+// Dense ids 0..G-1 in order of first appearance for ids >= 0; returns G.
+std::size_t dense_ids(const std::vector<std::int32_t>& ids, std::vector<std::int32_t>& dense);
+
+// cr2 by unit (covariance_cr2.cpp): the covariance with CovarianceResult::term_df.
+CovarianceResult cr2_covariance(const Equation& eq);
+
+// Wald test of R b = r under cr2: chi-square rows the plain W on q df, F rows the HTZ
+// test of Pustejovsky and Tipton (2018). Throws weft::Error when the HTZ df are not
+// positive.
+WaldResult cr2_wald_test(const Equation& eq, const Eigen::VectorXd& coef, const Eigen::MatrixXd& covariance,
+                         const Eigen::MatrixXd& restriction, const Eigen::VectorXd& value);
+
+}  // namespace weft::detail

@@ -796,9 +796,11 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     fit.p.resize(static_cast<Index>(K));
     fit.ci_low.resize(static_cast<Index>(K));
     fit.ci_high.resize(static_cast<Index>(K));
-    const double df = fit.covariance.df;
-    const double q = t_quantile(1.0 - (1.0 - spec.level) / 2.0, df);
     for (Index k = 0; k < static_cast<Index>(K); ++k) {
+        // cr2: each term on its own Satterthwaite df
+        const std::vector<double>& term_df = fit.covariance.term_df;
+        const double df = term_df.empty() ? fit.covariance.df : term_df[static_cast<std::size_t>(k)];
+        const double q = t_quantile(1.0 - (1.0 - spec.level) / 2.0, df);
         const double se = std::sqrt(std::max(fit.covariance.matrix(k, k), 0.0));
         fit.se[k] = se;
         fit.t[k] = se > 0 ? eq.coef[k] / se : std::numeric_limits<double>::quiet_NaN();

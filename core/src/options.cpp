@@ -16,7 +16,7 @@ namespace {
 
 const char* const kAcceptedWords =
     "pooled, fd, within, random, between; classical, hc0, hc1, hc2, hc3, cluster, "
-    "cluster0, cluster-period, cluster-both, dk, dk=L; periods; level=0.95; no-intercept";
+    "cluster0, cluster-period, cluster-both, dk, dk=L, cr2; periods; level=0.95; no-intercept";
 
 std::string lower(std::string_view s) {
     std::string out(s);
@@ -54,6 +54,7 @@ bool parse_covariance(const std::string& w, Covariance& out) {
     else if (w == "cluster-period") out = Covariance::cluster_period;
     else if (w == "cluster-both") out = Covariance::cluster_both;
     else if (w == "dk") out = Covariance::dk;
+    else if (w == "cr2") out = Covariance::cr2;
     else return false;
     return true;
 }
@@ -83,6 +84,7 @@ const char* to_word(Covariance c) {
         case Covariance::cluster_period: return "cluster-period";
         case Covariance::cluster_both: return "cluster-both";
         case Covariance::dk: return "dk";
+        case Covariance::cr2: return "cr2";
     }
     return "classical";
 }

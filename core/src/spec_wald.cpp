@@ -9,6 +9,7 @@
 #include "weft/distributions.hpp"
 #include "weft/error.hpp"
 #include "weft/spec.hpp"
+#include "internal.hpp"
 
 namespace weft {
 
@@ -72,6 +73,12 @@ WaldResult wald_test(const Eigen::VectorXd& coef, const Eigen::MatrixXd& covaria
 
 WaldResult wald_test(const Fit& fit, const Eigen::MatrixXd& restriction,
                      const Eigen::VectorXd& value) {
+    if (fit.covariance.kind == Covariance::cr2) {
+        WaldResult r = detail::cr2_wald_test(fit.equation, fit.equation.coef, fit.covariance.matrix,
+                                             restriction, value);
+        r.covariance_label = fit.covariance.label;
+        return r;
+    }
     WaldResult r = wald_test(fit.equation.coef, fit.covariance.matrix, fit.covariance.df,
                              restriction, value);
     r.covariance_label = fit.covariance.label;

@@ -32,6 +32,8 @@
 //
 // Stability: fields may be added; existing names and meanings do not change. Changes
 // are announced here:
+//   2026-12-04: Covariance::cr2 and CovarianceResult::term_df (per-term df: t, p and
+//   intervals of term k use term_df[k] when it is not empty).
 //   2026-12-02: fit_model_lean and Equation::lean_rows / rows_held() added (lean fits for
 //   large data; fit_model is unchanged).
 //   2026-12-02: Fit::exact_fit added; an exact fit reports se 0 and t, p NaN with a warning.
@@ -153,6 +155,8 @@ struct CovarianceResult {
     double min_eigenvalue = 0;          // cluster_both: smallest eigenvalue before clipping
     std::vector<std::string> warnings;
     std::string label;                  // readable, e.g. "cluster by unit (CR1)"
+    std::vector<double> term_df;        // cr2: Satterthwaite df per term (term order; df is
+                                        // then the smallest); empty for the others
 };
 
 // Any covariance of an estimated equation (CONVENTIONS.md "Standard errors").

@@ -7,7 +7,7 @@
 //   commas, in any order, case-insensitive:
 //     estimator: pooled fd within random between
 //     standard errors: classical hc0 hc1 hc2 hc3 cluster cluster0 cluster-period
-//                      cluster-both dk dk=L (L >= 0 integer)
+//                      cluster-both dk dk=L (L >= 0 integer) cr2
 //     periods        (add period indicators)
 //     level=0.90     (0 < level < 1)
 //     no-intercept
@@ -33,7 +33,8 @@ enum class Covariance {
     cluster0,        // by unit, CR0 (no finite-sample factor)
     cluster_period,  // by period, CR1
     cluster_both,    // unit and period (Cameron, Gelbach & Miller 2011), clipped to PSD
-    dk               // Driscoll & Kraay (1998), Bartlett lag dk_lag
+    dk,              // Driscoll & Kraay (1998), Bartlett lag dk_lag
+    cr2              // by unit, Bell & McCaffrey (2002) CR2, Satterthwaite df per term
 };
 
 struct ModelSpec {

@@ -51,6 +51,7 @@ struct WaldResult {
     double f_p = 1;                  // upper tail of F(q, df)
     std::string covariance_label;    // e.g. "cluster by unit (CR1)"
     std::string df_rule;             // e.g. "G-1"
+    double f_scale = 1;              // F = f_scale * W / q (cr2: the HTZ factor (nu-q+1)/nu)
 };
 
 // R b = r under an explicit covariance V (K x K) with inference df `df`. R is q x K with

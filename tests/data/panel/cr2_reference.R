@@ -1,0 +1,85 @@
+# Reference values for weft's cr2 (bias-reduced cluster covariance by unit, Satterthwaite
+# df per term, HTZ joint tests), written to cr2_reference.json beside this script.
+# Oracles: R clubSandwich (coef_test(..., vcov = "CR2", test = "Satterthwaite"),
+# Wald_test(..., test = c("HTZ", "chi-sq"))), estimatr (lm_robust, se_type = "CR2"),
+# plm for the within and first-difference fits. Run by hand from the repository root:
+#   Rscript tests/data/panel/cr2_reference.R
+# (the build never runs R). Data: grunfeld.csv (Grunfeld panel, 10 firms) and
+# few_clusters.csv, written here from a fixed seed (random data for the oracle
+# comparison: both sides fit the same numbers).
+suppressMessages({
+  library(plm); library(clubSandwich); library(estimatr); library(jsonlite)
+})
+dir <- "tests/data/panel"
+
+set.seed(20261204)
+G <- 6
+sizes <- c(4, 7, 5, 9, 6, 8)
+few <- do.call(rbind, lapply(seq_len(G), function(g) {
+  t <- seq_len(sizes[g])
+  x1 <- rnorm(sizes[g], mean = g / 3) + 0.2 * t
+  x2 <- rexp(sizes[g]) * (1 + (g %% 2))
+  u <- rnorm(1, sd = 1.5)
+  y <- 1 + 0.7 * x1 - 0.4 * x2 + u + rnorm(sizes[g], sd = 0.5 + g / 4)
+  data.frame(unit = g, period = 2000 + t, y = y, x1 = x1, x2 = x2)
+}))
+few[] <- lapply(few, function(v) sprintf("%.17g", v))
+write.csv(few, file.path(dir, "few_clusters.csv"), row.names = FALSE, quote = FALSE)
+few <- read.csv(file.path(dir, "few_clusters.csv"))
+gr <- read.csv(file.path(dir, "grunfeld.csv"))
+
+one_case <- function(fit, cluster, terms, joint) {
+  # plm fits find their unit clusters themselves (cluster = NULL)
+  v <- if (is.null(cluster)) vcovCR(fit, type = "CR2") else vcovCR(fit, cluster = cluster, type = "CR2")
+  ct <- coef_test(fit, vcov = v, test = "Satterthwaite")
+  keep <- rownames(ct) %in% terms
+  wt <- Wald_test(fit, constraints = constrain_zero(joint, reg_ex = FALSE), vcov = v,
+                  test = c("HTZ", "chi-sq"))
+  htz <- wt[wt$test == "HTZ", ]
+  chi <- wt[wt$test == "chi-sq", ]
+  list(terms = rownames(ct)[keep], estimate = ct$beta[keep], se = ct$SE[keep],
+       df = ct$df_Satt[keep], p = ct$p_Satt[keep],
+       joint = list(terms = joint, F = htz$Fstat, df1 = htz$df_num, df2 = htz$df_denom,
+                    p = htz$p_val, chi2 = chi$Fstat * chi$df_num, chi2_df = chi$df_num,
+                    chi2_p = chi$p_val))
+}
+
+cases <- list()
+make_cases <- function(d, y, xs, unit, period, prefix) {
+  f <- reformulate(xs, y)
+  pd <- pdata.frame(d, index = c(unit, period))
+  out <- list()
+  pooled <- lm(f, data = d)
+  out[[paste0(prefix, "_pooled")]] <- one_case(pooled, d[[unit]], c("(Intercept)", xs), xs)
+  d$cl_ <- d[[unit]]
+  er <- lm_robust(f, data = d, clusters = cl_, se_type = "CR2")
+  out[[paste0(prefix, "_pooled")]]$estimatr <- list(se = unname(er$std.error), df = unname(er$df))
+  within <- plm(f, data = pd, model = "within")
+  out[[paste0(prefix, "_within")]] <- one_case(within, NULL, xs, xs)
+  dummies <- lm(reformulate(c(xs, paste0("factor(", unit, ")")), y), data = d)
+  out[[paste0(prefix, "_within")]]$dummy_fit <- one_case(dummies, d[[unit]], xs, xs)
+  fdfit <- plm(f, data = pd, model = "fd")
+  out[[paste0(prefix, "_fd")]] <- one_case(fdfit, NULL, c("(Intercept)", xs), xs)
+  # the same first differences by hand, through lm and estimatr
+  dd <- do.call(rbind, lapply(split(d, d[[unit]]), function(s) {
+    s <- s[order(s[[period]]), ]
+    keep <- diff(s[[period]]) == 1
+    data.frame(unit = s[[unit]][-1][keep],
+               dy = diff(s[[y]])[keep],
+               sapply(xs, function(x) diff(s[[x]])[keep], simplify = FALSE))
+  }))
+  efd <- lm_robust(reformulate(xs, "dy"), data = dd, clusters = unit, se_type = "CR2")
+  out[[paste0(prefix, "_fd")]]$estimatr <- list(se = unname(efd$std.error), df = unname(efd$df))
+  means <- aggregate(d[c(y, xs)], by = list(unit = d[[unit]]), FUN = mean)
+  between <- lm(f, data = means)
+  out[[paste0(prefix, "_between")]] <- one_case(between, means$unit, c("(Intercept)", xs), xs)
+  out
+}
+cases <- c(make_cases(gr, "inv", c("value", "capital"), "firm", "year", "grunfeld"),
+           make_cases(few, "y", c("x1", "x2"), "unit", "period", "few"))
+cases$software <- list(R = R.version.string,
+                       clubSandwich = as.character(packageVersion("clubSandwich")),
+                       estimatr = as.character(packageVersion("estimatr")),
+                       plm = as.character(packageVersion("plm")))
+writeLines(toJSON(cases, digits = NA, auto_unbox = TRUE, pretty = TRUE),
+           file.path(dir, "cr2_reference.json"))
