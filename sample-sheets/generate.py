@@ -103,6 +103,33 @@ def clinic_panel(seed):
     return rows
 
 
+def office_pilot_panel(seed):
+    """Few clusters: the 8 regional offices of the (invented) Regional Services Agency,
+    by quarter (2021 Q1 to 2024 Q4).
+
+    processing_days = 30 + a_i + 0.0 training_hours + 0.5 backlog + u_iq, with
+    u_iq = 0.85 u_i,q-1 + e_iq: the errors of an office persist from quarter to quarter
+    and training hours drift slowly within an office, so the residuals of an office
+    are strongly correlated and only 8 clusters carry the information. Training has NO
+    effect in the generator: a test that rejects it is a false alarm.
+    """
+    rand = random.Random(seed)
+    rows = []
+    for o in range(1, 9):
+        a_i = rand.gauss(0.0, 4.0)
+        training = rand.uniform(4.0, 16.0)                # hours per staff member a quarter
+        backlog = rand.uniform(10.0, 30.0)                # open cases per staff member
+        u = rand.gauss(0.0, 2.0)
+        for q in range(1, 17):
+            if q > 1:
+                training = max(0.0, training + rand.gauss(0.15, 1.0))
+                backlog = max(2.0, backlog + rand.gauss(0.0, 2.0))
+                u = 0.85 * u + rand.gauss(0.0, 1.0)
+            days = 30.0 + a_i + 0.0 * training + 0.5 * backlog + u
+            rows.append((f"Office {o}", q, round(days, 2), round(training, 2), round(backlog, 2)))
+    return rows
+
+
 SCENARIOS = {
     "branch-service-costs": {
         "seed": 20240611,
@@ -131,6 +158,8 @@ SCENARIOS = {
                              "thousand cases a year", "percent of cases filed online"],
         "true": {"caseload": -2.0, "online_share": -0.40},
         "make": branch_panel,
+        "few_clusters": {"seed": 8121, "make": office_pilot_panel,
+                         "true": {"training_hours": 0.0, "backlog": 0.5}},
     },
     "clinic-waiting-times": {
         "seed": 7304,
@@ -641,6 +670,10 @@ def workbook(key, sc):
                        "(=WEFT.HAUSMAN)"),
         ("Analysis 7-8", "chart of the slopes with their 95% intervals; the reading"),
     ]
+    if "few_clusters" in sc:
+        where.append(("Few clusters", "a separate panel of 8 offices: cluster (CR1), cr2 and "
+                                      "the wild cluster bootstrap side by side (=WEFT.BOOTSTRAP), "
+                                      "and which to trust"))
     for i, (a, b) in enumerate(where):
         ov.text(r + 1 + i, 0, a, "head")
         ov.text(r + 1 + i, 1, b, "wrap")
@@ -682,7 +715,116 @@ def workbook(key, sc):
             "Needs the weft add-in for LibreOffice Calc (README.md).", "note")
     ov.formula(r + 1 + len(cautions) + 2, 0, call("VERSION"), None)
 
-    return document(sc["title"], [ov, data, an], named)
+    sheets = [ov, data, an]
+    if "few_clusters" in sc:
+        few, few_named = few_clusters_sheet(sc["few_clusters"])
+        sheets.append(few)
+        named += few_named
+    return document(sc["title"], sheets, named)
+
+
+def few_clusters_sheet(fc):
+    """The sheet "Few clusters": a panel of 8 offices, its slope under three kinds of
+    inference side by side (cluster CR1, cr2, the wild cluster bootstrap) and, in words
+    computed by formulas, which to trust and why."""
+    rows = fc["make"](fc["seed"])
+    n = len(rows) + 1
+    F = "Few clusters"
+    fs = Sheet(F, [2.4, 1.6, 2.6, 2.6, 2.4, 0.4, 6.2, 2.6, 2.6, 2.6, 2.6, 2.6, 2.6],
+               page="landscape")
+    for c, name in enumerate(["office", "quarter", "processing_days", "training_hours",
+                              "backlog"]):
+        fs.text(0, c, name, "head")
+    for r, row in enumerate(rows, start=1):
+        fs.text(r, 0, row[0])
+        for c in range(1, 5):
+            fs.number(r, c, row[c])
+    args = f"{rng(None, 2, 0, 1, n)};{rng(None, 3, 0, 2, n)};{rng(None, 0, 0, 1, n)};{rng(None, 1, 0, 1, n)}"
+
+    def call(method, *a):
+        return ADDIN + method + "(" + ";".join(a) + ")"
+
+    G = 6
+    fs.text(0, G, "Few clusters: a training pilot in 8 regional offices", "title")
+    fs.text(1, G, "Regional Services Agency (invented). Data in columns A-E; every number "
+                  "on the right is a formula.", "note")
+    story = [
+        "The agency's 8 regional offices report each quarter from 2021 Q1 to 2024 Q4 the "
+        "average days to process a case, the training hours per staff member and the backlog.",
+        "Question: do more training hours shorten processing, net of each office's fixed "
+        "traits (within, unit effects absorbed)? Only 8 offices: 8 clusters.",
+        "An office's delays persist from quarter to quarter, so its rows are not independent: "
+        "the standard errors must be clustered by office, and with 8 clusters the usual "
+        "cluster-robust t test is known to reject too often.",
+    ]
+    for i, t in enumerate(story):
+        fs.text(3 + i, G, t)
+    r1 = 7
+    fs.text(r1, G, "1. Clustered by office (CR1), t on G - 1 = 7 df", "section")
+    fs.text(r1 + 1, G, '=WEFT.ESTIMATES(...; "within cluster")', "note")
+    fs.formula(r1 + 2, G, call("ESTIMATES", args, '"within cluster"'), "num4", rows=3, cols=7)
+    r2 = r1 + 6
+    fs.text(r2, G, "2. Bias-reduced cluster errors (cr2), Satterthwaite df per term", "section")
+    fs.text(r2 + 1, G, '=WEFT.ESTIMATES(...; "within cr2")', "note")
+    fs.formula(r2 + 2, G, call("ESTIMATES", args, '"within cr2"'), "num4", rows=3, cols=7)
+    r3 = r2 + 6
+    fs.text(r3, G, "3. Wild cluster bootstrap of training_hours (restricted, CR1 t in every "
+                   "draw)", "section")
+    fs.text(r3 + 1, G, '=WEFT.BOOTSTRAP(...; "within cluster"; "training_hours")', "note")
+    fs.formula(r3 + 2, G, call("BOOTSTRAP", args, '"within cluster"', '"training_hours"'),
+               "num4", rows=11, cols=2)
+    fs.text(r3 + 1, G + 3, '... with "webb draws=9999 seed=1"', "note")
+    fs.formula(r3 + 2, G + 3, call("BOOTSTRAP", args, '"within cluster"', '"training_hours"',
+                                   '"webb draws=9999 seed=1"'), "num4", rows=10, cols=2)
+    r4 = r3 + 15
+    fs.text(r4, G, "4. Side by side: training_hours", "section")
+    for c, h in enumerate(["p-value", "interval low", "interval high"]):
+        fs.text(r4 + 1, G + 1 + c, h, "head")
+    lines = [
+        ("cluster (CR1), t on 7 df", addr(G + 4, r1 + 3), addr(G + 5, r1 + 3), addr(G + 6, r1 + 3)),
+        ("cr2, Satterthwaite df", addr(G + 4, r2 + 3), addr(G + 5, r2 + 3), addr(G + 6, r2 + 3)),
+        ("bootstrap, Rademacher, all 256 sign patterns", addr(G + 1, r3 + 5), addr(G + 1, r3 + 6),
+         addr(G + 1, r3 + 7)),
+        ("bootstrap, Webb, 9,999 draws", addr(G + 4, r3 + 5), addr(G + 4, r3 + 6), addr(G + 4, r3 + 7)),
+    ]
+    for i, (label, *cells) in enumerate(lines):
+        fs.text(r4 + 2 + i, G, label)
+        for c, ref in enumerate(cells):
+            fs.formula(r4 + 2 + i, G + 1 + c, ref, "num4")
+    Q = f"'{F}'"  # a sheet name with a space is quoted in range addresses
+    named = [("few_clusters_comparison", f"${Q}.$A$1", abs_range(Q, G, r4 + 2, 4, 4))]
+    p1, p2, p3, p4 = (addr(G + 1, r4 + 2 + i) for i in range(4))
+    r5 = r4 + 7
+    fs.text(r5, G, "5. Which to trust, and why", "section")
+    reading = [
+        "With few clusters trust the bootstrap first and cr2 next. The plain cluster t "
+        "treats its standard error as if it were known with G - 1 df; with 8 offices that "
+        "error is itself very uncertain and biased down, so the test rejects true nulls too "
+        "often (Cameron, Gelbach and Miller 2008). cr2 corrects the bias and uses honest "
+        "Satterthwaite df (Bell and McCaffrey 2002; Pustejovsky and Tipton 2018); the "
+        "bootstrap imposes the null and needs no t distribution at all.",
+        f'="p-values for training_hours: cluster "&TEXT({p1};"0.000")&", cr2 "&TEXT({p2};"0.000")'
+        f'&", bootstrap "&TEXT({p3};"0.000")&" (Webb weights "&TEXT({p4};"0.000")&")."',
+        f'=IF(AND({p1}<0.05;{p3}>=0.05);"Only the plain cluster t calls training significant: '
+        f'with 8 clusters that is the test known to over-reject, so the effect is not '
+        f'established.";IF(AND({p1}<0.05;{p2}<0.05;{p3}<0.05);"All three reject: the effect '
+        f'holds even under the few-cluster corrections; quote the bootstrap p-value and '
+        f'interval.";IF({p3}<0.05;"The bootstrap rejects while the plain cluster t does not: '
+        f'quote the bootstrap, but read it with care.";"None of the tests finds an effect of '
+        f'training at 5%: the data do not show one.")))',
+        "With Rademacher weights and 8 clusters there are only 256 sign patterns, so p-values "
+        "move in steps of 2/256; the Webb weights give finer steps and should agree closely.",
+        "The generator gave training_hours no effect at all (true slope 0) and backlog a "
+        "slope of 0.5, so any rejection for training is a false alarm.",
+    ]
+    for i, t in enumerate(reading):
+        fs.text(r5 + 1 + i, G - 1, "-", None)
+        if t.startswith("="):
+            fs.formula(r5 + 1 + i, G, t[1:], None)
+        else:
+            fs.text(r5 + 1 + i, G, t)
+    named.append(("few_clusters_reading", f"${Q}.$A$1", abs_range(Q, G, r5 + 1, 1, len(reading))))
+    return fs, named
 
 
 def reading(sc, fd_terms_col, fd_rows, joint_row, hetero_row, haus_row):

@@ -166,6 +166,18 @@ def main():
             check(all(axis.Min <= v <= axis.Max for v in ends),
                   f"{key}: the chart's value axis [{axis.Min}, {axis.Max}] holds every "
                   f"slope interval ({min(ends):.3f} to {max(ends):.3f})")
+        if "few_clusters" in sc:
+            # The few-cluster sheet: four kinds of inference side by side, each a
+            # p-value and a finite interval, and the reading in words.
+            comp = named_block(doc, "few_clusters_comparison")
+            check(len(comp) == 4 and all(isinstance(r[1], float) and 0.0 <= r[1] <= 1.0
+                                         and isinstance(r[2], float) and r[2] < r[3]
+                                         for r in comp),
+                  f"{key}: few clusters: cluster, cr2 and two bootstraps each give a p-value "
+                  f"and an interval ({comp})")
+            words = [r[0] for r in named_block(doc, "few_clusters_reading")]
+            check(all(isinstance(t, str) and len(t) > 40 for t in words),
+                  f"{key}: few clusters: which to trust is written out in words")
         reading = [r[0] for r in named_block(doc, "reading")]
         check(all(isinstance(t, str) and len(t) > 20 for t in reading),
               f"{key}: the reading is written out in words")
