@@ -80,6 +80,8 @@ class FitCellTests(unittest.TestCase):
             ("=WEFT.FIT.SERIAL(G1)", f"=WEFT.SERIAL({R};{model})", "12:2"),
             ("=WEFT.FIT.HAUSMAN(G1)", f"=WEFT.HAUSMAN({R};{model})", "12:2"),
             ("=WEFT.FIT.EFFECTS(G1)", f"=WEFT.EFFECTS({R};{model})", "4:2"),
+            ('=WEFT.FIT.BOOTSTRAP(G1;"value";"webb draws=999")',
+             f'=WEFT.BOOTSTRAP({R};{model};"value";"webb draws=999")', "10:2"),
         ]
         col = 8  # column I onwards, two blocks side by side per pair
         placed = []
