@@ -41,16 +41,6 @@ LEVELS = {"": "95%", "level=0.90": "90%", "level=0.99": "99%", "level=0.975": "9
 HEADER = ["term", "coefficient", "standard error", "t ratio", "two-sided p"]
 
 
-def setUpModule():
-    global OFFICE
-    OFFICE = Office(extensions=[oxt_path()], timeout=500)
-    OFFICE.__enter__()
-
-
-def tearDownModule():
-    OFFICE.stop()
-
-
 def texts_of(rows):
     return [v for row in rows for v in row if isinstance(v, str) and v]
 
@@ -59,11 +49,19 @@ class LabelTests(unittest.TestCase):
 
     @classmethod
     def setUpClass(cls):
-        cls.doc = OFFICE.new_calc()
-        cls.sheet = cls.doc.Sheets.getByIndex(0)
-        put_grunfeld(cls.sheet)
+        cls.office = Office(extensions=[oxt_path()], timeout=500).__enter__()
+        try:
+            cls.doc = cls.office.new_calc()
+            cls.sheet = cls.doc.Sheets.getByIndex(0)
+            put_grunfeld(cls.sheet)
+        except BaseException:
+            cls.office.stop()  # tearDownClass is not called when setUpClass fails
+            raise
         cls.col = 6
-        cls.blocks = {}
+
+    @classmethod
+    def tearDownClass(cls):
+        cls.office.stop()
 
     def block(self, nrows, ncols, formula):
         """The values of an array formula placed to the right of the data, each block
@@ -152,7 +150,7 @@ class LabelTests(unittest.TestCase):
         self.assert_own_words("WEFT.HAUSMAN warning", texts_of(rows))
 
     def test_wizard_texts(self):
-        fd = OFFICE.service("com.sun.star.sheet.FunctionDescriptions")
+        fd = self.office.service("com.sun.star.sheet.FunctionDescriptions")
         seen = 0
         for i in range(fd.getCount()):
             d = {p.Name: p.Value for p in fd.getByIndex(i)}
