@@ -670,7 +670,8 @@ WEFT_API int weft_test_serial(const weft_model *model, weft_serial_result *out);
 
 /** Result of the fixed- versus random-effects comparison (WEFT.HAUSMAN). */
 typedef struct weft_hausman_result {
-    double statistic;          /**< raw H (may be negative) */
+    double statistic;          /**< H as computed (negative or too small when
+                                    positive_definite is 0: read the robust form) */
     double df;                 /**< number of slopes compared */
     double p;                  /**< upper tail of chi-square(df) at H (1 if H <= 0) */
     double rank;               /**< rank of the covariance difference, within
