@@ -122,3 +122,26 @@ TEST_CASE("size near 5% at G = 8 where the cluster t over-rejects, and power", "
     INFO("power " << power / 200.0);
     CHECK(power >= 100);
 }
+
+TEST_CASE("the model's own covariance chooses only the cluster dimension", "[bootstrap][rule]") {
+    // CONVENTIONS.md "Few clusters": CR1 in every draw, clusters as in the model's
+    // standard errors, units when those are not clustered. So classical, hc1, cluster
+    // and cr2 models (all by unit) give the same numbers; period clusters differ.
+    const weft::PanelData d = boot_test::panel(9, 6, 0.2, 1804);
+    const weft::BootstrapResult base = boot(fit(d, "within cluster"), "");
+    for (const char* model : {"within", "within hc1", "within cr2", "within cluster0"}) {
+        const weft::BootstrapResult b = boot(fit(d, model), "");
+        INFO(model);
+        CHECK(b.p == base.p);
+        CHECK(b.ci_low == base.ci_low);
+        CHECK(b.ci_high == base.ci_high);
+        CHECK_FALSE(b.by_period);
+    }
+    const weft::BootstrapResult periods = boot(fit(d, "pooled cluster-period"), "");
+    CHECK(periods.by_period);
+    CHECK(periods.clusters == 6);
+    // between has one row per unit: each row is its own cluster
+    const weft::BootstrapResult between = boot(fit(d, "between"), "");
+    CHECK(between.clusters == 9);
+    CHECK(between.enumerated);
+}
