@@ -14,6 +14,8 @@ from ._fit import JointTest, Result, fit
 from ._library import LibraryError, load as _load
 
 __version__ = "0.3.0"
+for _name in ("WeftError", "LibraryError", "Result", "JointTest"):
+    globals()[_name].__module__ = "weft"  # shown as weft.WeftError in tracebacks
 __all__ = ["fit", "version", "library_path", "Result", "JointTest", "WeftError", "LibraryError"]
 
 
