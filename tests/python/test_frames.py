@@ -4,6 +4,7 @@ unit ids, numeric and date periods, missing values. Expected values: the Grunfel
 reference files (R plm/sandwich/lmtest, tests/data/panel/README.md) and residuals
 recomputed here with pandas from the reference coefficients."""
 import datetime
+import gc
 import unittest
 
 import numpy as np
@@ -110,6 +111,25 @@ class Columns(unittest.TestCase):
         self.assertEqual(result.summary["rows dropped"], 2)
         self.assertEqual(result.summary["observations used"], 198)
         self.assertEqual(list(result.residuals[result.residuals.isna()].index), [3, 17])
+
+
+class Lifetimes(unittest.TestCase):
+    def test_borrowed_columns_live_with_the_result(self):
+        # float64 columns are lent to weft in place (weft_panel_borrow_*); the result
+        # keeps them alive after the frame is gone, and frees weft's model when it goes.
+        frame = support.grunfeld().astype({"inv": float, "value": float, "capital": float})
+        result = weft.fit(frame, "inv", REGRESSORS, "firm", "year", "within cluster")
+        kept = result._model.keep
+        self.assertTrue(any(a is not None and np.shares_memory(a, frame["inv"].to_numpy()) for a in kept))
+        del frame
+        gc.collect()
+        ref = support.reference("grunfeld_within")["results"]["wald_subset"]["CR1"]
+        support.close(self, result.joint(REGRESSORS).chi2, ref["wald_chi2"], TOL, "Wald chi-square")
+        finalizer = result._model._finalizer
+        self.assertTrue(finalizer.alive)
+        del result
+        gc.collect()
+        self.assertFalse(finalizer.alive)
 
 
 if __name__ == "__main__":

@@ -41,7 +41,9 @@ def numbers(column, role):
     """(values, missing) for a numeric column: float64 values (the frame's own memory when
     it already is float64), missing a uint8 mask or None. NaN and pandas' NA are missing;
     an infinite value is passed on, for weft to refuse with the row."""
-    if pd.api.types.is_bool_dtype(column.dtype) or pd.api.types.is_numeric_dtype(column.dtype):
+    if column.dtype == np.float64:
+        values = column.to_numpy()  # no copy: NaN already marks a missing value
+    elif pd.api.types.is_bool_dtype(column.dtype) or pd.api.types.is_numeric_dtype(column.dtype):
         values = column.to_numpy(dtype=np.float64, na_value=np.nan)
     elif pd.api.types.is_object_dtype(column.dtype) and \
             pd.api.types.infer_dtype(column, skipna=True) in _NUMERIC_KINDS:
