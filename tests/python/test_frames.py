@@ -112,6 +112,22 @@ class Columns(unittest.TestCase):
         self.assertEqual(result.summary["observations used"], 198)
         self.assertEqual(list(result.residuals[result.residuals.isna()].index), [3, 17])
 
+    def test_dropped_terms_and_warnings(self):
+        # Regressors constant within each firm are absorbed by the unit effects of
+        # within (the estimator's definition), so weft drops them and the other
+        # estimates are those of grunfeld_within.json (R plm; hc1 is its HC1_lsdv).
+        frame = support.grunfeld().assign(size=lambda f: 2.0 * f["firm"], size2=lambda f: f["firm"] ** 2)
+        result = weft.fit(frame, "inv", REGRESSORS + ["size", "size2"], "firm", "year", "within hc1")
+        ref = support.reference("grunfeld_within")["results"]
+        self.assertEqual(list(result.coefficients.index), REGRESSORS)
+        for term in REGRESSORS:
+            support.close(self, result.coefficients.loc[term, "estimate"], ref["coef"][term], TOL, term)
+            support.close(self, result.coefficients.loc[term, "se"], ref["se"]["HC1_lsdv"][term], TOL, term)
+        self.assertEqual(list(result.dropped), ["size", "size2"])
+        self.assertEqual(result.summary["term dropped"], list(result.dropped.values()))
+        self.assertTrue(any("hc0-hc3" in w for w in result.warnings), result.warnings)
+        self.assertEqual(result.summary["warning"], result.warnings)
+
 
 class Lifetimes(unittest.TestCase):
     def test_borrowed_columns_live_with_the_result(self):

@@ -97,10 +97,14 @@ def _by_row(lib, function, pointer, index, name):
     return pd.Series(out, index=index, name=name)
 
 
+# Summary labels that weft.h gives once per dropped term and once per warning.
+LISTED_LABELS = ("term dropped", "warning")
+
+
 def _summary(lib, pointer):
-    """Summary items as a dict label -> value (float or str). A label that occurs more
-    than once (one "term dropped" per dropped term, one "warning" per warning) maps to
-    the list of its values, in order."""
+    """Summary items as a dict label -> value (float or str). The labels of
+    LISTED_LABELS, and any other label that occurs more than once, map to the list of
+    their values in order (a list even when there is one)."""
     summary = {}
     item = SummaryItem()
     for i in range(_count(lib, lib.weft_model_summary_count, pointer)):
@@ -111,7 +115,7 @@ def _summary(lib, pointer):
             previous = summary[label]
             summary[label] = (previous if isinstance(previous, list) else [previous]) + [value]
         else:
-            summary[label] = value
+            summary[label] = [value] if label in LISTED_LABELS else value
     return summary
 
 

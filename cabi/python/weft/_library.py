@@ -78,18 +78,18 @@ _loaded = None  # (ctypes.CDLL, path or name it was loaded from)
 
 
 def _candidates():
-    """The places searched, in order: (description, path or name, required)."""
-    places = []
+    """The places searched, in order: (description, path or name, required). A
+    generator: the system's path is asked (which may start the compiler) only when the
+    first two places did not give the library."""
     env = os.environ.get(ENV_VARIABLE)
     if env:
-        places.append((f"{ENV_VARIABLE}={env}", env, True))
+        yield f"{ENV_VARIABLE}={env}", env, True
     else:
-        places.append((f"{ENV_VARIABLE} (not set)", None, False))
-    here = os.path.dirname(os.path.abspath(__file__))
-    places.append((f"beside the package: {os.path.join(here, SONAME)}", os.path.join(here, SONAME), False))
+        yield f"{ENV_VARIABLE} (not set)", None, False
+    beside = os.path.join(os.path.dirname(os.path.abspath(__file__)), SONAME)
+    yield f"beside the package: {beside}", beside, False
     system = ctypes.util.find_library("weft") or SONAME
-    places.append((f"the system's library path ({system})", system, False))
-    return places
+    yield f"the system's library path ({system})", system, False
 
 
 def _open():
