@@ -119,14 +119,15 @@ def _summary(lib, pointer):
     return summary
 
 
-def _borrowed_texts(lib, function, pointer, count_function, pairs):
+def _borrowed_texts(lib, function, pointer, count_function, per_item):
+    """For each index below the count: the per_item strings function(pointer, i, ...)
+    lends, decoded (a tuple when per_item > 1)."""
     out = []
     for i in range(_count(lib, count_function, pointer)):
-        first, second = ctypes.c_char_p(), ctypes.c_char_p()
-        _check(lib, function(pointer, i, *((ctypes.byref(first), ctypes.byref(second)) if pairs
-                                           else (ctypes.byref(first),))))
-        out.append((first.value.decode("utf-8"), second.value.decode("utf-8")) if pairs
-                   else first.value.decode("utf-8"))
+        texts = [ctypes.c_char_p() for _ in range(per_item)]
+        _check(lib, function(pointer, i, *(ctypes.byref(t) for t in texts)))
+        decoded = tuple(t.value.decode("utf-8") for t in texts)
+        out.append(decoded if per_item > 1 else decoded[0])
     return out
 
 
@@ -164,11 +165,7 @@ class Result:
     def __init__(self, lib, model, index):
         self._lib, self._model = lib, model
         pointer = model.pointer
-        terms = []
-        for i in range(_count(lib, lib.weft_model_term_count, pointer)):
-            name = ctypes.c_char_p()
-            _check(lib, lib.weft_model_term_name(pointer, i, ctypes.byref(name)))
-            terms.append(name.value.decode("utf-8"))
+        terms = _borrowed_texts(lib, lib.weft_model_term_name, pointer, lib.weft_model_term_count, 1)
         term_index = pd.Index(terms, name="term")
         table = _matrix(lib, lib.weft_model_coefficients, pointer, len(COEFFICIENT_COLUMNS))
         self.coefficients = pd.DataFrame(table, index=term_index, columns=COEFFICIENT_COLUMNS)
@@ -179,9 +176,9 @@ class Result:
         self.residuals = _by_row(lib, lib.weft_model_residuals, pointer, index, "residual")
         self.fitted = _by_row(lib, lib.weft_model_fitted, pointer, index, "fitted")
         self.dropped = dict(_borrowed_texts(lib, lib.weft_model_dropped, pointer,
-                                            lib.weft_model_dropped_count, True))
+                                            lib.weft_model_dropped_count, 2))
         self.warnings = _borrowed_texts(lib, lib.weft_model_warning, pointer,
-                                        lib.weft_model_warning_count, False)
+                                        lib.weft_model_warning_count, 1)
 
     def joint(self, terms):
         """Wald test that every term in terms (a list of names, or one name) is zero."""
