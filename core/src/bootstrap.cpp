@@ -45,6 +45,16 @@ BootstrapRandom::BootstrapRandom(std::uint64_t seed) {
     for (std::uint64_t& s : s_) s = splitmix64(state);
 }
 
+BootstrapRandom BootstrapRandom::from_state(std::uint64_t s0, std::uint64_t s1, std::uint64_t s2,
+                                            std::uint64_t s3) {
+    BootstrapRandom r(0);
+    r.s_[0] = s0;
+    r.s_[1] = s1;
+    r.s_[2] = s2;
+    r.s_[3] = s3;
+    return r;
+}
+
 std::uint64_t BootstrapRandom::next() {
     const auto rotl = [](std::uint64_t x, int k) { return (x << k) | (x >> (64 - k)); };
     const std::uint64_t result = rotl(s_[1] * 5, 7) * 9;

@@ -15,6 +15,13 @@ TEST_CASE("splitmix64 and xoshiro256** give the reference outputs", "[bootstrap]
     CHECK(weft::BootstrapRandom::splitmix64(state) == 0xe220a8397b1dcdafULL);
     CHECK(weft::BootstrapRandom::splitmix64(state) == 0x6e789e6aa1b965f4ULL);
     CHECK(weft::BootstrapRandom::splitmix64(state) == 0x06c45d188009454fULL);
+    // xoshiro256** 1.0 from the state {1, 2, 3, 4}: the first outputs of the reference
+    // code (prng.di.unimi.it/xoshiro256starstar.c), from memory, reproduced by a
+    // line-by-line Python transcription of that code when this test was written.
+    weft::BootstrapRandom x = weft::BootstrapRandom::from_state(1, 2, 3, 4);
+    const std::uint64_t expected[] = {11520ULL, 0ULL, 1509978240ULL, 1215971899390074240ULL,
+                                      1216172134540287360ULL, 607988272756665600ULL};
+    for (std::uint64_t e : expected) CHECK(x.next() == e);
 }
 
 TEST_CASE("the same seed gives the same numbers, another seed other numbers", "[bootstrap][determinism]") {

@@ -49,6 +49,8 @@ namespace weft {
 class BootstrapRandom {
 public:
     explicit BootstrapRandom(std::uint64_t seed);
+    // A generator with the given state (not all zero), for checking reference outputs.
+    static BootstrapRandom from_state(std::uint64_t s0, std::uint64_t s1, std::uint64_t s2, std::uint64_t s3);
     std::uint64_t next();
     static std::uint64_t splitmix64(std::uint64_t& state);
 
