@@ -35,6 +35,8 @@ oracle_packages=(
   python3-statsmodels
   r-cran-data.table    # bench: compare.py reads the 1M-row CSV quickly in R
   r-cran-jsonlite      # bench: compare_reference.R writes its results as JSON
+  r-cran-clubsandwich  # oracle: cr2 SEs, Satterthwaite df and HTZ tests (cr2_reference.R)
+  r-cran-estimatr      # oracle: lm_robust CR2 as a second cr2 reference
 )
 
 # --- tools: sanitizers, fuzzing, memory checks, benchmarks, the demo's PDF text dump

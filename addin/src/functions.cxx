@@ -860,7 +860,7 @@ OutCell value_of(const ModelRef& ref, const Arg& what_arg, const Arg& term_arg) 
     const std::string what = lower(optional_word(what_arg, "what", "\"estimate\""));
     if (what.empty())
         fail("WEFT.VALUE needs what: one of estimate, se, t, p, ci-low, ci-high (with a term), "
-             "n, units, periods, r2, adj-r2, r2-within, r2-between, r2-overall, sigma, df, "
+             "n, units, periods, r2, adj-r2, r2-within, r2-between, r2-overall, sigma, df (a term's with a term), "
              "df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped");
     std::string term;
     if (term_arg.given && !term_arg.is_scalar())

@@ -25,17 +25,17 @@ const ArgumentText periods_arg{
 const ArgumentText model_arg{
     "model",
     "Optional model words, e.g. \"within cluster\": pooled, fd, within, random, between; "
-    "classical, hc0-hc3, cluster, cluster0, cluster-period, cluster-both, dk or dk=L; "
-    "periods; level=0.90; no-intercept."};
+    "classical, hc0-hc3, cluster, cluster0, cluster-period, cluster-both, dk or dk=L, cr2 "
+    "(few clusters: bias-reduced, each term on its own df); periods; level=0.90; no-intercept."};
 
 const ArgumentText what_arg{
     "what",
     "Which number: estimate, se, t, p, ci-low, ci-high (these need term), n, units, r2, "
-    "r2-within, sigma, df, f, f-p."};
+    "r2-within, sigma, df (with term: that term's df, its own under cr2), f, f-p."};
 const ArgumentText term_arg{
     "term",
     "The term's name (a regressor header, x1, intercept, period 1990) for estimate, se, t, p, "
-    "ci-low, ci-high."};
+    "ci-low, ci-high, and optionally df."};
 const ArgumentText terms_arg{
     "terms", "The terms to test: a text list such as \"value, capital\" or a range of term names."};
 const ArgumentText form_arg{

@@ -82,10 +82,10 @@ extern "C" {
 /** Version of this header. WEFT_VERSION_NUMBER = major * 10000 + minor * 100 +
  *  patch. Compare with weft_version_number() to detect a header/library mismatch. */
 #define WEFT_VERSION_MAJOR 0
-#define WEFT_VERSION_MINOR 2
+#define WEFT_VERSION_MINOR 3
 #define WEFT_VERSION_PATCH 0
-#define WEFT_VERSION_NUMBER 200
-#define WEFT_VERSION "0.2.0"
+#define WEFT_VERSION_NUMBER 300
+#define WEFT_VERSION "0.3.0"
 
 /** The library's version number, same encoding as WEFT_VERSION_NUMBER. Never
  *  fails. */
@@ -497,7 +497,9 @@ typedef struct weft_summary_item {
  *    the finite-sample factor when one is applied), "observations used" N (rows of
  *    the estimated equation: differences for fd, units for between), "rows used" N,
  *    "rows dropped" N (for a missing value), "units" N, "periods" N, "terms" N,
- *    "residual df" N, "df of t, F and intervals" T (number and rule, e.g. "9 (G-1)"),
+ *    "residual df" N, "df of t, F and intervals" T (number and rule, e.g. "9 (G-1)";
+ *    under WEFT_SE_CR2 the range of the per-term df, e.g. "1.8 to 6.4 (Satterthwaite,
+ *    per term)"),
  *    "clusters" N (cluster standard errors) or "periods in the covariance" N (dk),
  *    "confidence level" N, "R-squared" N, "adjusted R-squared" N,
  *    "R-squared within" N, "R-squared between" N, "R-squared overall" N (within and
@@ -519,7 +521,9 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
  *  "ci-low", "ci-high" (these need `term`, a term name), or (term ignored, may be
  *  NULL) "n" (observations in the estimated equation), "units", "periods", "r2",
  *  "adj-r2", "r2-within", "r2-between", "r2-overall", "sigma" (residual std
- *  deviation), "df" (df of t, F and intervals under the model's standard errors),
+ *  deviation), "df" (df of t, F and intervals under the model's standard errors;
+ *  with `term`: that term's df, which differs by term under WEFT_SE_CR2; without a
+ *  term under WEFT_SE_CR2: the smallest of the terms' df),
  *  "df-residual", "f", "f-df1", "f-df2", "f-p" (F on all slopes), "ssr",
  *  "clusters", "rows-dropped", and for random effects "sigma2-idiosyncratic",
  *  "sigma2-unit" and "theta" (the quasi-demeaning weight; NaN when the panel is
@@ -531,6 +535,13 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
  *  term the model does not have (message says whether it was dropped). */
 WEFT_API int weft_model_value(const weft_model *model, const char *what,
                               const char *term, double *value);
+
+/** The df of t, p and the interval of each term, in term order (since 0.3.0): under
+ *  WEFT_SE_CR2 each term's Satterthwaite df (Bell and McCaffrey 2002; Pustejovsky and
+ *  Tipton 2018), otherwise the model's one df repeated. *needed = n_terms. Buffer
+ *  convention as at the top. Errors: WEFT_EINVAL (NULL model), WEFT_EBUFFER. */
+WEFT_API int weft_model_term_df(const weft_model *model, double *buf, size_t capacity,
+                                size_t *needed);
 
 /* --- residuals and fitted values (WEFT.RESIDUALS, WEFT.FITTED) -------------- */
 
@@ -577,7 +588,8 @@ WEFT_API const char *weft_test_warnings(void);
 typedef struct weft_wald_result {
     double f;         /**< W / q */
     double f_df1;     /**< q */
-    double f_df2;     /**< the model's inference df */
+    double f_df2;     /**< the model's inference df; under WEFT_SE_CR2 f is the HTZ
+                           F (Pustejovsky and Tipton 2018), f_df2 its denominator df */
     double f_p;       /**< upper tail of F(q, df2) */
     double chi2;      /**< W */
     double chi2_df;   /**< q */

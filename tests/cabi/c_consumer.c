@@ -1256,6 +1256,46 @@ static void test_borrowed(const grunfeld *g)
     weft_model_free(m);
 }
 
+/* cr2 on Grunfeld within: tests/data/panel/cr2_reference.json "grunfeld_within"
+ * (clubSandwich 0.5.8 coef_test CR2 Satterthwaite and Wald_test HTZ on the plm fit). */
+static void test_cr2(const grunfeld *g)
+{
+    static const double se[] = {0.0206311068339026, 0.0826753020489797};
+    static const double df[] = {1.81256840291113, 1.79953119283768};
+    weft_panel *p = make_panel(g, 0, NULL, NULL);
+    weft_model *m = fit_text(p, "within cr2");
+    weft_wald_result w;
+    weft_summary_item item;
+    double buf[2], small[1];
+    size_t needed = 0, i;
+    double table[2 * WEFT_COEF_COLUMNS];
+    OK(weft_model_coefficients(m, table, 2 * WEFT_COEF_COLUMNS, &needed));
+    OK(weft_model_term_df(m, NULL, 0, &needed));
+    CHECK(needed == 2);
+    EXPECT_ERROR(weft_model_term_df(m, small, 1, &needed), WEFT_EBUFFER, "2");
+    EXPECT_ERROR(weft_model_term_df(NULL, buf, 2, &needed), WEFT_EINVAL, "model");
+    OK(weft_model_term_df(m, buf, 2, &needed));
+    for (i = 0; i < 2; ++i) {
+        NEAR_TOL(table[i * WEFT_COEF_COLUMNS + WEFT_COEF_SE], se[i], 1e-8, "cr2_reference grunfeld_within.se");
+        NEAR_TOL(buf[i], df[i], 1e-8, "cr2_reference grunfeld_within.df");
+    }
+    NEAR_TOL(value_of(m, "df", "capital"), df[1], 1e-8, "cr2_reference grunfeld_within.df[capital]");
+    NEAR_TOL(value_of(m, "p", "value"), 0.0410217892800318, 1e-8, "cr2_reference grunfeld_within.p[value]");
+    CHECK(summary_find(m, "clusters", &item) > 0 && item.number == 10.0);
+    OK(weft_test_joint_list(m, "value, capital", &w));
+    NEAR_TOL(w.f, 6.42900221599661, 1e-8, "cr2_reference grunfeld_within.joint.F (HTZ)");
+    NEAR_TOL(w.f_df2, 0.782981670219427, 1e-8, "cr2_reference grunfeld_within.joint.df2");
+    NEAR_TOL(w.f_p, 0.326680345674805, 1e-8, "cr2_reference grunfeld_within.joint.p");
+    NEAR_TOL(w.chi2, 29.2798504611472, 1e-8, "cr2_reference grunfeld_within.joint.chi2");
+    weft_model_free(m);
+    /* other covariances: the model's one df for every term */
+    m = fit_text(p, "within cluster");
+    OK(weft_model_term_df(m, buf, 2, &needed));
+    CHECK(buf[0] == 9.0 && buf[1] == 9.0);
+    weft_model_free(m);
+    weft_panel_free(p);
+}
+
 int main(int argc, char **argv)
 {
     static grunfeld g;
@@ -1275,6 +1315,7 @@ int main(int argc, char **argv)
     test_units_masks_and_rows(&g);
     test_model_misuse(&g);
     test_borrowed(&g);
+    test_cr2(&g);
     printf("c_consumer: %d checks, %d failed\n", checks, failures);
     return failures == 0 ? 0 : 1;
 }
