@@ -219,3 +219,18 @@ TEST_CASE("cr2: errors name the problem", "[cr2]") {
     const std::string conflict = core_test::message_of([] { weft::parse_model_text("cr2 cluster"); });
     CHECK(conflict.find("conflict") != std::string::npos);
 }
+
+TEST_CASE("cr2: an exact fit gives standard errors 0 and undefined t, without failing", "[cr2]") {
+    weft::PanelData d = few_clusters();
+    for (std::size_t i = 0; i < d.outcome.values.size(); ++i)
+        d.outcome.values[i] = 1.0 + 2.0 * d.regressors[0].values[i] - d.regressors[1].values[i];
+    const weft::Fit fit = weft::fit_model(d, weft::parse_model_text("pooled cr2"));
+    CHECK(fit.exact_fit);
+    for (Eigen::Index k = 0; k < fit.se.size(); ++k) {
+        CHECK(fit.se[k] == 0.0);
+        CHECK(std::isnan(fit.t[k]));
+    }
+    // the joint test has no variance to work with: a weft error, not a crash
+    CHECK(core_test::message_of([&] { weft::wald_test_terms(fit, {"x1", "x2"}); }).find("singular") !=
+          std::string::npos);
+}
