@@ -25,22 +25,9 @@ namespace {
 using nlohmann::json;
 constexpr double kTol = 1e-8;  // relative, as the issue asks (the JSON keeps 15 digits)
 
+// tests/data/panel/few_clusters.csv: 6 units, 4 to 9 periods (cr2_reference.R).
 weft::PanelData few_clusters() {
-    const core_test::Table t = core_test::read_csv("panel/few_clusters.csv");
-    weft::PanelData d;
-    d.outcome.name = "y";
-    d.outcome.values = t.column("y");
-    d.regressors.resize(2);
-    d.regressors[0].name = "x1";
-    d.regressors[0].values = t.column("x1");
-    d.regressors[1].name = "x2";
-    d.regressors[1].values = t.column("x2");
-    d.units.name = "unit";
-    d.units.numbers = t.column("unit");
-    d.periods.name = "period";
-    d.periods.values = t.column("period");
-    d.first_row_number = 2;
-    return d;
+    return core_test::read_panel("panel/few_clusters.csv", "y", {"x1", "x2"}, "unit", "period");
 }
 
 std::string weft_term(const std::string& r_name) { return r_name == "(Intercept)" ? "intercept" : r_name; }
