@@ -221,3 +221,15 @@ TEST_CASE("cr2: an exact fit gives standard errors 0 and undefined t, without fa
     CHECK(core_test::message_of([&] { weft::wald_test_terms(fit, {"x1", "x2"}); }).find("singular") !=
           std::string::npos);
 }
+
+TEST_CASE("cr2: a direction of leverage 1 is left out (pseudo-inverse), as clubSandwich does", "[cr2]") {
+    // cr2_leverage.csv: period 6 appears in unit 3 only; reference leverage_pooled_periods
+    const json ref = core_test::read_json("panel/cr2_reference.json")["leverage_pooled_periods"];
+    const weft::PanelData d = core_test::read_panel("panel/cr2_leverage.csv", "y", {"x1", "x2"}, "unit", "period");
+    const weft::Fit fit = weft::fit_model(d, weft::parse_model_text("pooled periods cr2"));
+    check_terms(fit, ref, true);
+    check_joint(fit, ref["joint"]);
+    bool warned = false;
+    for (const std::string& w : fit.warnings) warned = warned || w.find("leverage 1") != std::string::npos;
+    CHECK(warned);
+}
