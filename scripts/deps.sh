@@ -39,6 +39,13 @@ oracle_packages=(
   r-cran-estimatr      # oracle: lm_robust CR2 as a second cr2 reference
 )
 
+# --- python: the weft Python package (cabi/python) and its tests (label python)
+python_packages=(
+  python3-pandas       # the package's frames and results
+  python3-pip          # python.install: pip install of cabi/python from the source tree
+  python3-setuptools   # its build backend, used offline (--no-build-isolation)
+)
+
 # --- tools: sanitizers, fuzzing, memory checks, benchmarks, the demo's PDF text dump
 tool_packages=(
   valgrind
@@ -49,7 +56,7 @@ tool_packages=(
   time                 # bench: /usr/bin/time -f %M for the reference libraries' peak memory
 )
 
-all_packages=("${build_packages[@]}" "${office_packages[@]}" "${oracle_packages[@]}" "${tool_packages[@]}")
+all_packages=("${build_packages[@]}" "${office_packages[@]}" "${oracle_packages[@]}" "${python_packages[@]}" "${tool_packages[@]}")
 
 missing=()
 for pkg in "${all_packages[@]}"; do
