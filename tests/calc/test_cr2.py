@@ -24,27 +24,16 @@ def weft_term(r_name):
     return "intercept" if r_name == "(Intercept)" else r_name
 
 
-def setUpModule():
-    global OFFICE
-    OFFICE = Office(extensions=[oxt_path()], timeout=500)
-    OFFICE.__enter__()
-
-
-def tearDownModule():
-    OFFICE.stop()
-
-
 class Cr2CellTests(unittest.TestCase):
 
-    def setUp(self):
-        self.doc = OFFICE.new_calc()
-        self.sheet = self.doc.Sheets.getByIndex(0)
-        put_grunfeld(self.sheet)
-
-    def tearDown(self):
-        self.doc.close(True)
-
     def test_cr2_cells_equal_clubsandwich(self):
+        with Office(extensions=[oxt_path()], timeout=500) as office:
+            doc = office.new_calc()
+            sheet = doc.Sheets.getByIndex(0)
+            put_grunfeld(sheet)
+            self.compare(doc, sheet)
+
+    def compare(self, doc, sheet):
         failures, checked = [], 0
 
         def check(what, actual, expected, source, scale=None):
@@ -62,20 +51,20 @@ class Cr2CellTests(unittest.TestCase):
         for model, key in CASES:
             ref = REF[key]
             k = len(ref["terms"])
-            table = ArrayFormula(self.sheet, 8, row, k + 1, 7, f'=WEFT.ESTIMATES({R};"{model}")')
-            joint = ArrayFormula(self.sheet, 16, row, 7, 2, f'=WEFT.JOINT({R};"{model}";"value, capital")')
-            fit = self.sheet.getCellByPosition(19, row)
+            table = ArrayFormula(sheet, 8, row, k + 1, 7, f'=WEFT.ESTIMATES({R};"{model}")')
+            joint = ArrayFormula(sheet, 16, row, 7, 2, f'=WEFT.JOINT({R};"{model}";"value, capital")')
+            fit = sheet.getCellByPosition(19, row)
             fit.setFormula(f'=WEFT.FIT({R};"{model}")')
             dfs = []
             for j, term in enumerate(ref["terms"]):
-                c = self.sheet.getCellByPosition(20 + j, row)
+                c = sheet.getCellByPosition(20 + j, row)
                 c.setFormula(f'=WEFT.VALUE({R};"{model}";"df";"{weft_term(term)}")')
-                f = self.sheet.getCellByPosition(20 + j, row + 1)
+                f = sheet.getCellByPosition(20 + j, row + 1)
                 f.setFormula(f'=WEFT.FIT.VALUE({fit.AbsoluteName.split(".")[-1]};"df";"{weft_term(term)}")')
                 dfs.append((c, f))
             placed.append((model, key, table, joint, dfs))
             row += max(k + 1, 7) + 2
-        self.doc.calculateAll()
+        doc.calculateAll()
 
         for model, key, table, joint, dfs in placed:
             ref = REF[key]
