@@ -1,7 +1,9 @@
 // The imputation estimator of Borusyak, Jaravel and Spiess (2024): unit and period
 // effects (and controls) fitted on untreated observations (e < -anticipation and
 // never-treated units), the untreated outcome imputed for every treated observation,
-// effects averaged with equal weights by exact event time, by cohort and overall.
+// effects averaged with equal weights by exact event time and by cohort; the overall
+// average weights the cohort averages by cohort size (as group-time does), one of the
+// weightings their Theorem 1 allows.
 //
 // Variance: their conservative clustered variance (Theorem 3): sum over units of
 // (sum_t v_it e_it)^2, with v_it the weight of y_it in the estimate (w_it for treated
@@ -87,23 +89,24 @@ ImputationFit fit_untreated(const EventPanel& panel) {
     return out;
 }
 
-// Estimate and conservative variance of the equal-weight average of the selected treated
-// observations.
-Effect average_effect(const EventPanel& panel, const ImputationFit& fit, const std::vector<std::uint8_t>& selected,
+// Estimate and conservative variance of the weighted average of the treated observations
+// (weights >= 0, normalised here to sum 1).
+Effect average_effect(const EventPanel& panel, const ImputationFit& fit, std::vector<double> weight,
                       const std::vector<double>& residual_treated, double level) {
     const Equation& eq = fit.untreated.fit.equation;
     const std::vector<int>& kept = fit.untreated.fit.design_kept;
-    double count = 0;
-    for (std::uint8_t s : selected) count += s;
-    if (count == 0) return Effect{};
-    const double w = 1.0 / count;
+    double total = 0;
+    for (double w : weight) total += w;
+    if (total == 0) return Effect{};
+    for (double& w : weight) w /= total;
     Eigen::VectorXd psi = Eigen::VectorXd::Zero(static_cast<Eigen::Index>(panel.n_units()));
     std::vector<double> omega(panel.n_units(), 0.0);
     Eigen::VectorXd c = Eigen::VectorXd::Zero(static_cast<Eigen::Index>(eq.terms.size()));
     double estimate = 0;
     std::vector<std::uint8_t> unit_seen(panel.n_units(), 0);
     for (std::size_t k = 0; k < fit.treated.size(); ++k) {
-        if (!selected[k]) continue;
+        if (weight[k] == 0) continue;
+        const double w = weight[k];
         const Imputed& obs = fit.treated[k];
         estimate += w * obs.tau;
         omega[obs.unit] += w;
@@ -185,6 +188,12 @@ void pre_trend(const EventPanel& panel, const ImputationFit& fit, const EventDes
     }
 }
 
+double cohort_units(const EventPanel& panel, std::int32_t g) {
+    double n = 0;
+    for (std::size_t u = 0; u < panel.n_units(); ++u) n += panel.cohort(u) == g ? 1 : 0;
+    return n;
+}
+
 }  // namespace
 
 EventResult estimate_imputation(const EventPanel& panel, const EventDesign& design) {
@@ -193,8 +202,8 @@ EventResult estimate_imputation(const EventPanel& panel, const EventDesign& desi
     const std::vector<double> residual_treated = treated_residuals(panel, fit);
     const std::size_t T = fit.treated.size();
     auto select = [&](auto keep) {
-        std::vector<std::uint8_t> s(T, 0);
-        for (std::size_t k = 0; k < T; ++k) s[k] = keep(fit.treated[k]) ? 1 : 0;
+        std::vector<double> s(T, 0.0);
+        for (std::size_t k = 0; k < T; ++k) s[k] = keep(fit.treated[k]) ? 1.0 : 0.0;
         return s;
     };
     for (int e = -panel.before; e <= panel.after; ++e) {
@@ -213,8 +222,16 @@ EventResult estimate_imputation(const EventPanel& panel, const EventDesign& desi
                                    residual_treated, design.level);
         out.cohorts.push_back(ce);
     }
-    out.overall = average_effect(panel, fit, select([](const Imputed& o) { return o.event >= 0; }), residual_treated,
-                                 design.level);
+    // overall: the cohort averages weighted by cohort size (the same target as group-time's
+    // overall average), i.e. weight n_g / (rows of cohort g after adoption) per row
+    std::vector<double> overall = select([](const Imputed& o) { return o.event >= 0; });
+    std::map<std::int32_t, double> rows_of;
+    for (std::size_t k = 0; k < T; ++k) rows_of[panel.cohort(fit.treated[k].unit)] += overall[k];
+    for (std::size_t k = 0; k < T; ++k) {
+        const std::int32_t g = panel.cohort(fit.treated[k].unit);
+        if (overall[k] > 0) overall[k] = cohort_units(panel, g) / rows_of[g];
+    }
+    out.overall = average_effect(panel, fit, overall, residual_treated, design.level);
     if (fit.not_imputable > 0)
         out.warnings.push_back(std::to_string(fit.not_imputable) +
                                " treated rows have no untreated outcome to impute from (their period or unit has no "

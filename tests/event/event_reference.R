@@ -15,7 +15,7 @@
 #   the "simple"/dynamic aggregations). SE = sqrt(sum of squared influence / n^2).
 # Imputation (Borusyak, Jaravel and Spiess 2024, Theorem 2 and 3): lm of untreated
 #   observations on unit and period indicators (and x); tau = y - prediction; equal
-#   weights; v = w for treated, -Z0 (Z0'Z0)^-1 Z1' w for untreated (explicit dense
+#   weights by event time and cohort, cohort-size weights of cohort averages overall; v = w for treated, -Z0 (Z0'Z0)^-1 Z1' w for untreated (explicit dense
 #   indicator matrix); residuals for treated = tau minus cohort-by-period mean of tau;
 #   V = sum_i (sum_t v_it e_it)^2. Pre-trend: lm on untreated observations with
 #   indicators of e = -before..-1-K, vcovCL by unit.
@@ -153,9 +153,9 @@ res0 <- d0$y - drop(Z0 %*% coef0)
 cellmean <- ave(d1$tau, d1$g, d1$p)
 res1 <- d1$tau - cellmean
 Z0Z0inv <- solve(crossprod(Z0))
-imp_effect <- function(sel) {
+imp_effect <- function(sel, w = rep(1, length(sel))) {
   if (!any(sel)) return(NULL)
-  w1 <- ifelse(sel, 1 / sum(sel), 0)
+  w1 <- ifelse(sel, w, 0); w1 <- w1 / sum(w1)
   v0 <- -drop(Z0 %*% (Z0Z0inv %*% crossprod(Z1, w1)))
   psi <- tapply(c(w1 * res1, v0 * res0), c(as.character(d1$unit), as.character(d0$unit)), sum)
   list(est = sum(w1 * d1$tau), se = sqrt(sum(psi^2)))
@@ -170,7 +170,10 @@ for (g in cohorts) {
   r <- imp_effect(d1$e >= 0 & d1$g == g)
   if (!is.null(r)) imp_cohort[[length(imp_cohort) + 1]] <- list(cohort = grid[g], est = r$est, se = r$se)
 }
-imp_overall <- imp_effect(d1$e >= 0)
+# overall: cohort averages weighted by cohort size (n_g / post rows of g per row)
+post_rows <- table(d1$g[d1$e >= 0])
+imp_overall <- imp_effect(d1$e >= 0, sapply(seq_len(nrow(d1)), function(k)
+  if (d1$e[k] >= 0) sum(cohort == d1$g[k]) / post_rows[[as.character(d1$g[k])]] else 0))
 cr1 <- function(fit, data, absorbed) {
   V <- vcovCL(fit, cluster = data$unit, type = "HC0", cadjust = TRUE)
   N <- nrow(data); Kx <- fit$rank - absorbed

@@ -21,6 +21,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include "weft/error.hpp"
 #include "weft/event.hpp"
 
 namespace event_test {
@@ -35,6 +36,7 @@ struct SimSpec {
     double missing_share = 0;            // rows dropped at random (unbalanced panel)
     bool heterogeneous = true;           // effects differ by cohort
     double noise = 1.0;
+    bool random_groups = false;          // group of a unit drawn at random (equal chances), else round robin
     unsigned seed = 1;
 };
 
@@ -48,6 +50,7 @@ inline double true_effect(const SimSpec& s, std::size_t k, int e) {
 
 struct SimPanel {
     std::vector<double> unit, period, y, d, x;
+    std::vector<double> tau;  // true effect of each row
     std::vector<int> group;  // per unit: -1 never, else cohort number
 };
 
@@ -60,7 +63,7 @@ inline SimPanel simulate(const SimSpec& s) {
     std::vector<double> lambda;
     for (int t = 0; t < s.periods; ++t) lambda.push_back(0.3 * t + 0.5 * normal(rng));
     for (std::size_t i = 0; i < s.units; ++i) {
-        const std::size_t g = i % groups;
+        const std::size_t g = s.random_groups ? std::uniform_int_distribution<std::size_t>(0, groups - 1)(rng) : i % groups;
         const int group = s.never_treated ? static_cast<int>(g) - 1 : static_cast<int>(g);
         p.group.push_back(group);
         const double a = normal(rng) + (group >= 0 ? 0.5 * group : -0.5);  // selection on levels
@@ -76,6 +79,7 @@ inline SimPanel simulate(const SimSpec& s) {
             p.y.push_back(yv);
             p.d.push_back(group >= 0 && ev >= 0 ? 1.0 : 0.0);
             p.x.push_back(xv);
+            p.tau.push_back(effect);
         }
     }
     return p;
