@@ -228,17 +228,20 @@ void require_some_values(const PanelInput& p) {
              "; periods must be numbers or dates (a text period is read as missing)");
 }
 
-PanelInput read_panel(const PanelRanges& in) {
+// regressors_optional: a grid of no columns means no regressors (the controls of the
+// event functions); otherwise it is refused.
+PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     require_one_column(in.outcome, "outcome", "the dependent variable");
     require_one_column(in.units, "units", "the unit id of each row");
     require_one_column(in.periods, "periods", "the period of each row");
-    if (in.regressors.col_count() == 0) fail("regressors is empty; give one column per regressor");
-    require_same_rows(in.regressors, "regressors", in.outcome, "outcome");
+    const bool no_regressors = in.regressors.col_count() == 0;
+    if (no_regressors && !regressors_optional) fail("regressors is empty; give one column per regressor");
+    if (!no_regressors) require_same_rows(in.regressors, "regressors", in.outcome, "outcome");
     require_same_rows(in.units, "units", in.outcome, "outcome");
     require_same_rows(in.periods, "periods", in.outcome, "outcome");
 
     PanelInput p;
-    const std::size_t rows = std::min({in.outcome.row_count(), in.regressors.row_count(),
+    const std::size_t rows = std::min({in.outcome.row_count(), no_regressors ? in.outcome.row_count() : in.regressors.row_count(),
                                        in.units.row_count(), in.periods.row_count()});
     p.header = rows > 0 && in.outcome.cell(0, 0).is_text();
     require_data_rows(rows, p.header);
@@ -1209,6 +1212,18 @@ std::string fn_version() {
     if (weft_version_number() != WEFT_VERSION_NUMBER)
         text += " (built against weft.h " WEFT_VERSION "; reinstall the matching add-in)";
     return text;
+}
+
+
+PanelRead read_panel_ranges(const PanelRanges& in, bool regressors_optional) {
+    const PanelInput p = read_panel(in, regressors_optional);
+    PanelRead out;
+    out.panel = std::shared_ptr<weft_panel>(make_panel(p).release(), weft_panel_free);
+    out.header = p.header;
+    out.n = p.n;
+    out.first_row = p.first_row;
+    out.hash = p.hash;
+    return out;
 }
 
 }  // namespace weft_addin
