@@ -733,6 +733,15 @@ def reading(sc, fd_terms_col, fd_rows, joint_row, hetero_row, haus_row):
     return out
 
 
+def all_workbooks():
+    """(file name, function writing the workbook) of every sample workbook: the two
+    above, and the staggered-adoption event study of event_workbook.py."""
+    import event_workbook  # uses this module's writer; imported here to avoid a cycle
+    out = [(key, lambda key=key, sc=sc: workbook(key, sc)) for key, sc in SCENARIOS.items()]
+    out.append((event_workbook.EVENT["key"], lambda: event_workbook.event_workbook(event_workbook.EVENT)))
+    return out
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--check", action="store_true",
@@ -740,8 +749,8 @@ def main():
     ap.add_argument("--out", default=HERE, help="folder to write into (default: here)")
     args = ap.parse_args()
     stale = []
-    for key, sc in SCENARIOS.items():
-        text = workbook(key, sc)
+    for key, make in all_workbooks():
+        text = make()
         path = os.path.join(args.out, key + ".fods")
         if args.check:
             old = open(path, encoding="utf-8").read() if os.path.exists(path) else None
