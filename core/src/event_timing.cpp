@@ -113,8 +113,7 @@ EventDesign parse_design_text(std::string_view text) {
 }
 
 std::string describe(const EventDesign& d) {
-    char level[32];
-    std::snprintf(level, sizeof level, "%.17g", d.level);
+    const std::string level = format_number(d.level);
     return std::string(to_word(d.estimator)) + " " + to_word(d.comparison) +
            " anticipation=" + std::to_string(d.anticipation) +
            (d.before >= 0 ? " before=" + std::to_string(d.before) : std::string()) +
