@@ -559,17 +559,30 @@ def workbook(key, sc):
     an.formula(haus_row + 2, 0, call("HAUSMAN", panel_args, '"periods"'), "num4",
                rows=12, cols=2)
     named.append(("hausman", f"${A}.$A$1", abs_range(A, 0, haus_row + 2, 2, 12)))
+    # How closely each fit's slope prediction follows the outcome, read three ways.
+    fm = haus_row + 15
+    an.text(fm, 0, "Squared correlation of outcome and slope prediction "
+            '(=WEFT.VALUE, e.g. "corr2-rows")', "note")
+    fit_measures = [("all rows", "corr2-rows"), ("unit means", "corr2-means"),
+                    ("deviations from unit means", "corr2-deviations")]
+    for j, estimator in enumerate(("within", "random")):
+        for i, (words, what) in enumerate(fit_measures):
+            row = fm + 1 + 3 * j + i
+            an.text(row, 0, f"{estimator}: {words}", "wrap")
+            an.formula(row, 1, call("VALUE", panel_args, f'"{estimator} periods cluster"',
+                                    f'"{what}"'), "num4")
+    named.append(("fit_measures", f"${A}.$A$1", abs_range(A, 0, fm + 1, 2, 6)))
 
     # Chart data: for each fit its slope estimates and the distances from each
     # estimate down to its interval's low end and up to its high end (a chart's error
     # bars are distances); one row per fit, so each fit is one series of the chart.
-    cd = max(r2 + 1 + n_random, haus_row + 2 + 12) + 2
+    cd = max(r2 + 1 + n_random, fm + 1 + 6) + 2
     an.text(cd, 0, "7. Slopes and 95% intervals (the chart's data)", "section")
     an.page_breaks.add(cd)      # the chart and its data on one printed page
     an.text(cd + 1, 0, "estimates; distances to the interval ends", "note")
     an.text(cd + 1, 4, "estimate", "head")
-    an.text(cd + 1, 4 + k, "distance to ci low", "head")
-    an.text(cd + 1, 4 + 2 * k, "distance to ci high", "head")
+    an.text(cd + 1, 4 + k, "down to the interval's start", "head")
+    an.text(cd + 1, 4 + 2 * k, "up to the interval's end", "head")
     an.text(cd + 2, 3, "fit", "head")
     for i, term in enumerate(sc["regressors"]):
         # The term's name comes from the estimates table itself, so the label always
@@ -638,7 +651,8 @@ def workbook(key, sc):
         ("Analysis 4-5", "heteroskedasticity (=WEFT.FIT.HETERO) and serial correlation "
                          "(=WEFT.FIT.SERIAL) of the first-difference residuals"),
         ("Analysis 6", "within and random effects side by side, Hausman comparison "
-                       "(=WEFT.HAUSMAN)"),
+                       "(=WEFT.HAUSMAN), and how closely each fit's slope prediction follows "
+                       "the outcome (=WEFT.VALUE)"),
         ("Analysis 7-8", "chart of the slopes with their 95% intervals; the reading"),
     ]
     for i, (a, b) in enumerate(where):

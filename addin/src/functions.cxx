@@ -805,6 +805,17 @@ OutTable run_transform(const Table& values_in, const Table& units_in, const Tabl
 
 namespace {
 
+// The header of WEFT.ESTIMATES in the project's own words; the interval columns say
+// the model's level, e.g. "90% interval from" at level=0.90.
+std::vector<std::string> estimates_header(const weft_model* model) {
+    weft_options o = WEFT_OPTIONS_INIT;
+    check(weft_model_options(model, &o));
+    char percent[32];
+    std::snprintf(percent, sizeof percent, "%.10g%%", 100.0 * o.level);
+    return {"term", "coefficient", "standard error", "t ratio", "two-sided p",
+            std::string(percent) + " interval from", std::string(percent) + " interval to"};
+}
+
 // Each model function once, for either way of naming the model (ModelRef).
 OutTable estimates_of(const ModelRef& ref) {
     Fitted f = fitted_of(ref);
@@ -816,8 +827,8 @@ OutTable estimates_of(const ModelRef& ref) {
     check(weft_model_coefficients(f.model, coef.data(), coef.size(), &needed));
 
     OutTable t(1 + n_terms + n_dropped, 1 + WEFT_COEF_COLUMNS);
-    const char* headers[] = {"term", "estimate", "std error", "t", "p-value", "ci low", "ci high"};
-    for (std::size_t c = 0; c < 7; ++c) t.set(0, c, std::string(headers[c]));
+    const std::vector<std::string> headers = estimates_header(f.model);
+    for (std::size_t c = 0; c < headers.size(); ++c) t.set(0, c, headers[c]);
     for (std::size_t r = 0; r < n_terms; ++r) {
         const char* name = nullptr;
         check(weft_model_term_name(f.model, r, &name));
@@ -863,7 +874,7 @@ OutCell value_of(const ModelRef& ref, const Arg& what_arg, const Arg& term_arg) 
     const std::string what = lower(optional_word(what_arg, "what", "\"estimate\""));
     if (what.empty())
         fail("WEFT.VALUE needs what: one of estimate, se, t, p, ci-low, ci-high (with a term), "
-             "n, units, periods, r2, adj-r2, r2-within, r2-between, r2-overall, sigma, df, "
+             "n, units, periods, r2, adj-r2, corr2-rows, corr2-means, corr2-deviations, sigma, df, "
              "df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped");
     std::string term;
     if (term_arg.given && !term_arg.is_scalar())
@@ -1047,8 +1058,8 @@ OutTable hausman_table(const weft_panel* panel, const weft_options& o) {
     lv.number("statistic", r.statistic);
     lv.number("df", r.df);
     lv.number("p-value", r.p);
-    lv.number("rank of variance difference", r.rank);
-    lv.text("variance difference positive definite", r.positive_definite ? "yes" : "no");
+    lv.number("rank of the covariance difference", r.rank);
+    lv.text("within less precise than random in every direction", r.positive_definite ? "yes" : "no");
     lv.number("robust F", r.robust.f);
     lv.number("robust F df1", r.robust.f_df1);
     lv.number("robust F df2", r.robust.f_df2);

@@ -31,7 +31,7 @@ const ArgumentText model_arg{
 const ArgumentText what_arg{
     "what",
     "Which number: estimate, se, t, p, ci-low, ci-high (these need term), n, units, r2, "
-    "r2-within, sigma, df, f, f-p."};
+    "corr2-rows, corr2-means, corr2-deviations (within, random), sigma, df, f, f-p."};
 const ArgumentText term_arg{
     "term",
     "The term's name (a regressor header, x1, intercept, period 1990) for estimate, se, t, p, "
@@ -72,11 +72,13 @@ std::vector<FunctionText> make_texts() {
     std::vector<FunctionText> t;
     t.push_back({"estimates", "WEFT.ESTIMATES",
                  "Estimates a panel regression. Returns a table: header row, then one row per term "
-                 "with term, estimate, std error, t, p-value, ci low, ci high.",
+                 "with its coefficient, standard error, t ratio, two-sided p and the interval at "
+                 "the model's level.",
                  panel_args()});
     t.push_back({"summary", "WEFT.SUMMARY",
                  "Summary of a panel regression in two columns, label and value: estimator, standard "
-                 "errors, observations, rows dropped, units, periods, R-squared, F test, warnings.",
+                 "errors, observations, rows dropped, units, periods, R-squared (within, random: how "
+                 "closely the slope prediction follows the outcome), F test, warnings.",
                  panel_args()});
     t.push_back({"value", "WEFT.VALUE",
                  "One number from a panel regression, e.g. the estimate or p-value of one term, "
@@ -103,12 +105,13 @@ std::vector<FunctionText> make_texts() {
                  "test of serially uncorrelated level errors (fd, within).",
                  panel_args()});
     t.push_back({"hausman", "WEFT.HAUSMAN",
-                 "Fixed versus random effects: statistic, df, p-value, rank of the variance "
-                 "difference, then the cluster-robust auxiliary-regression version.",
+                 "Fixed versus random effects: statistic, df, p-value, rank of the covariance "
+                 "difference, then the cluster-robust auxiliary-regression version (read it when "
+                 "a warning says the classical one is unreliable).",
                  panel_args()});
     t.push_back({"effects", "WEFT.EFFECTS",
-                 "F test that all unit effects are zero (within versus pooled): F, df1, df2, "
-                 "p-value.",
+                 "Do the units differ in level? F test of within against pooled OLS: F, df1, df2, "
+                 "p-value; a small p-value says keep unit effects (within, fd or random).",
                  panel_args()});
     t.push_back({"diff", "WEFT.DIFF",
                  "k-th difference within each unit between adjacent periods, aligned to the input "
@@ -144,12 +147,13 @@ std::vector<FunctionText> make_texts() {
                  "WEFT.FIT.ESTIMATES, WEFT.FIT.VALUE and the other WEFT.FIT functions.",
                  panel_args()});
     t.push_back({"fitEstimates", "WEFT.FIT.ESTIMATES",
-                 "WEFT.ESTIMATES of a fit cell: header row, then one row per term with term, "
-                 "estimate, std error, t, p-value, ci low, ci high.",
+                 "WEFT.ESTIMATES of a fit cell: header row, then one row per term with its "
+                 "coefficient, standard error, t ratio, two-sided p and the interval at the "
+                 "model's level.",
                  {fit_arg}});
     t.push_back({"fitSummary", "WEFT.FIT.SUMMARY",
                  "WEFT.SUMMARY of a fit cell: label and value of estimator, standard errors, "
-                 "observations, R-squared, F test, warnings.",
+                 "observations, R-squared and related fit measures, F test, warnings.",
                  {fit_arg}});
     t.push_back({"fitValue", "WEFT.FIT.VALUE",
                  "One number of a fit cell, e.g. the estimate or p-value of one term, or n, r2, "
@@ -180,8 +184,8 @@ std::vector<FunctionText> make_texts() {
                  "periods and no-intercept words; statistic, df, p-value, then the robust form.",
                  {fit_arg}});
     t.push_back({"fitEffects", "WEFT.FIT.EFFECTS",
-                 "WEFT.EFFECTS on a fit cell's data: F test that all unit effects are zero "
-                 "(within versus pooled): F, df1, df2, p-value.",
+                 "WEFT.EFFECTS on a fit cell's data: do the units differ in level? F test of within "
+                 "against pooled OLS: F, df1, df2, p-value.",
                  {fit_arg}});
     t.push_back({"event", "WEFT.EVENT",
                  "Event study under staggered adoption: a header row, then one row per event time from "

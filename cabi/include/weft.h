@@ -437,7 +437,8 @@ WEFT_API int weft_model_term_name(const weft_model *model, size_t index,
                                   const char **name);
 
 /** The coefficient table, row-major: n_terms rows by WEFT_COEF_COLUMNS columns
- *  (estimate, std error, t, p-value, ci low, ci high at the model's level), row r
+ *  (coefficient, standard error, t ratio, two-sided p, and the interval from and to
+ *  at the model's level), row r
  *  for term r. *needed = n_terms * WEFT_COEF_COLUMNS. Buffer convention as at the
  *  top. Errors: WEFT_EINVAL (NULL model), WEFT_EBUFFER. */
 WEFT_API int weft_model_coefficients(const weft_model *model, double *buf,
@@ -496,8 +497,15 @@ typedef struct weft_summary_item {
  *    "residual df" N, "df of t, F and intervals" T (number and rule, e.g. "9 (G-1)"),
  *    "clusters" N (cluster standard errors) or "periods in the covariance" N (dk),
  *    "confidence level" N, "R-squared" N, "adjusted R-squared" N,
- *    "R-squared within" N, "R-squared between" N, "R-squared overall" N (within and
- *    random), "residual std deviation" N, "F on all slopes" N, "F df1" N, "F df2" N,
+ *    then, for within and random, three measures of how closely the slope
+ *    prediction (regressors and period indicators times their estimates, without
+ *    intercept or unit effects) follows the outcome:
+ *    "squared correlation of outcome and slope prediction, all rows" N,
+ *    "squared correlation of outcome and slope prediction, unit means" N (one mean
+ *    of each per unit) and
+ *    "squared correlation of outcome and slope prediction, deviations from unit means"
+ *    N (for within the same number as "R-squared"), then
+ *    "residual std deviation" N, "F on all slopes" N, "F df1" N, "F df2" N,
  *    "F p-value" N, "idiosyncratic variance" N and "unit effect variance" N
  *    (random), then one "term dropped" T per dropped term and one "warning" T per
  *    warning.
@@ -514,14 +522,16 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
 /** One number by name, as WEFT.VALUE: `what` (case-insensitive) is one of "estimate", "se", "t", "p",
  *  "ci-low", "ci-high" (these need `term`, a term name), or (term ignored, may be
  *  NULL) "n" (observations in the estimated equation), "units", "periods", "r2",
- *  "adj-r2", "r2-within", "r2-between", "r2-overall", "sigma" (residual std
+ *  "adj-r2", "corr2-rows", "corr2-means", "corr2-deviations" (the three squared
+ *  correlations of outcome and slope prediction of the summary, within and random
+ *  only; renamed in 0.3.0), "sigma" (residual std
  *  deviation), "df" (df of t, F and intervals under the model's standard errors),
  *  "df-residual", "f", "f-df1", "f-df2", "f-p" (F on all slopes), "ssr",
  *  "clusters", "rows-dropped", and for random effects "sigma2-idiosyncratic",
  *  "sigma2-unit" and "theta" (the quasi-demeaning weight; NaN when the panel is
  *  unbalanced, where theta differs between units).
  *  *value receives the number (NaN on failure or when it does not apply to this
- *  estimator, e.g. "r2-within" for pooled, which is still WEFT_OK).
+ *  estimator, e.g. "corr2-means" for pooled, which is still WEFT_OK).
  *  Errors: WEFT_EINVAL (NULL model/what/value, or a term-wise word without term);
  *  WEFT_EMODEL for an unknown `what` (message lists the words); WEFT_ERANGE for a
  *  term the model does not have (message says whether it was dropped). */
@@ -564,7 +574,7 @@ WEFT_API int weft_model_unit_effects(const weft_model *model, double *buf,
  * --------------------------------------------------------------------------- */
 
 /** The warnings of the most recent weft_test_* call on this thread, joined with
- *  "; " (e.g. a Hausman variance difference that is not positive definite, or
+ *  "; " (e.g. a Hausman comparison whose classical form cannot be trusted, or
  *  auxiliary terms of white-full dropped as collinear); "" when it had none or
  *  failed. Never NULL. Valid until the next weft_test_* call on this thread. */
 WEFT_API const char *weft_test_warnings(void);
@@ -660,11 +670,15 @@ WEFT_API int weft_test_serial(const weft_model *model, weft_serial_result *out);
 
 /** Result of the fixed- versus random-effects comparison (WEFT.HAUSMAN). */
 typedef struct weft_hausman_result {
-    double statistic;          /**< raw H (may be negative) */
+    double statistic;          /**< H as computed (negative or too small when
+                                    positive_definite is 0: read the robust form) */
     double df;                 /**< number of slopes compared */
     double p;                  /**< upper tail of chi-square(df) at H (1 if H <= 0) */
-    double rank;               /**< rank of V_within - V_random */
-    int positive_definite;     /**< 1 if V_within - V_random is positive definite */
+    double rank;               /**< rank of the covariance difference, within
+                                    minus random */
+    int positive_definite;     /**< 1 if the within covariance exceeds the random
+                                    one in every direction (the difference is
+                                    positive definite); 0: read the robust form */
     weft_wald_result robust;   /**< auxiliary regression (unit means of X added to
                                     the random-effects equation), cluster by unit
                                     (CR1), F on (q, G-1) */
@@ -689,7 +703,8 @@ typedef struct weft_effects_result {
     double ssr_within;   /**< residual sum of squares of the within fit */
 } weft_effects_result;
 
-/** F test that all unit effects are zero: within versus pooled on the same rows,
+/** Do the units differ in level? F test of within against pooled OLS on the same rows
+ *  (a small p says pooled OLS leaves out real unit effects: use within, fd or random),
  *  with *options (NULL: defaults; estimator and se ignored; period_effects and
  *  intercept used). Errors: as weft_model_new. */
 WEFT_API int weft_test_effects(const weft_panel *panel, const weft_options *options,

@@ -46,6 +46,12 @@ bool is_cluster(weft::Covariance c) {
            c == weft::Covariance::cluster_period || c == weft::Covariance::cluster_both;
 }
 
+// The three fit measures of within and random, by what each number is.
+constexpr const char* fit_label_rows = "squared correlation of outcome and slope prediction, all rows";
+constexpr const char* fit_label_means = "squared correlation of outcome and slope prediction, unit means";
+constexpr const char* fit_label_deviations =
+    "squared correlation of outcome and slope prediction, deviations from unit means";
+
 // The rows of WEFT.SUMMARY (FUNCTIONS.md), built once at fit time so that every
 // borrowed label and text lives as long as the model.
 std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
@@ -86,9 +92,11 @@ std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
     number("confidence level", fit.spec.level);
     optional_number("R-squared", fit.r2);
     optional_number("adjusted R-squared", fit.adj_r2);
-    optional_number("R-squared within", fit.r2_within);
-    optional_number("R-squared between", fit.r2_between);
-    optional_number("R-squared overall", fit.r2_overall);
+    // within and random: how well the slopes' prediction (regressors times slopes, no
+    // unit effects) tracks the outcome, read three ways (labels: FUNCTIONS.md "Labels").
+    optional_number(fit_label_rows, fit.r2_overall);
+    optional_number(fit_label_means, fit.r2_between);
+    optional_number(fit_label_deviations, fit.r2_within);
     number("residual std deviation", fit.sigma);
     if (fit.f) {
         number("F on all slopes", *fit.f);
@@ -149,9 +157,9 @@ std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
     if (what == "periods") return static_cast<double>(fit.n_periods);
     if (what == "r2") return fit.r2;
     if (what == "adj-r2") return fit.adj_r2;
-    if (what == "r2-within") return fit.r2_within;
-    if (what == "r2-between") return fit.r2_between;
-    if (what == "r2-overall") return fit.r2_overall;
+    if (what == "corr2-rows") return fit.r2_overall;
+    if (what == "corr2-means") return fit.r2_between;
+    if (what == "corr2-deviations") return fit.r2_within;
     if (what == "sigma") return fit.sigma;
     if (what == "df") return fit.covariance.df;
     if (what == "df-residual") return fit.df_residual;
@@ -176,8 +184,8 @@ std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
 }
 
 constexpr const char* value_words =
-    "estimate, se, t, p, ci-low, ci-high (with a term), n, units, periods, r2, adj-r2, r2-within, "
-    "r2-between, r2-overall, sigma, df, df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped, "
+    "estimate, se, t, p, ci-low, ci-high (with a term), n, units, periods, r2, adj-r2, corr2-rows, "
+    "corr2-means, corr2-deviations, sigma, df, df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped, "
     "sigma2-idiosyncratic, sigma2-unit, theta";
 
 }  // namespace

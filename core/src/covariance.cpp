@@ -193,144 +193,165 @@ CovarianceResult covariance_from_meat(const Equation& eq, Covariance kind, const
 
 }  // namespace detail
 
-CovarianceResult compute_covariance(const Equation& eq, Covariance kind, int dk_lag) {
-    detail::require_rows(eq, "this covariance");
-    CovarianceResult out;
-    out.kind = kind;
+namespace {
+
+// The working-basis bread B = M^-1 R^-1 R^-T; V = B meat B', symmetrised.
+MatrixXd sandwich(const Equation& eq, const MatrixXd& meat) {
+    const MatrixXd r_inv = detail::r_inverse(eq);
+    const MatrixXd bread = detail::working_to_original(eq) * r_inv * r_inv.transpose();
+    MatrixXd v = bread * meat * bread.transpose();
+    return MatrixXd(0.5 * (v + v.transpose()));
+}
+
+// hc0-hc3: meat sum_i omega_i z_i z_i' with omega_i = u_i^2 (hc2: / (1 - h_ii), hc3:
+// / (1 - h_ii)^2; a row of leverage 1 is left out, with a warning).
+CovarianceResult hc_covariance(const Equation& eq, Covariance kind) {
+    const Index N = eq.X.rows();
+    VectorXd omega = eq.residual.array().square();
+    std::size_t full_leverage = 0;
+    if (kind == Covariance::hc2 || kind == Covariance::hc3) {
+        const VectorXd h = leverages(eq);
+        for (Index i = 0; i < N; ++i) {
+            const double one_minus = 1.0 - h[i];
+            if (one_minus <= 1e-10) {
+                // the row is fitted exactly (e.g. the only row of a period
+                // indicator); its residual is 0 and it carries no information
+                omega[i] = 0.0;
+                ++full_leverage;
+            } else {
+                omega[i] /= (kind == Covariance::hc2) ? one_minus : one_minus * one_minus;
+            }
+        }
+    }
+    CovarianceResult out = detail::covariance_from_meat(eq, kind, weighted_meat(eq, omega), 0, -1);
+    if (full_leverage > 0)
+        out.warnings.push_back(std::to_string(full_leverage) +
+                               " rows have leverage 1 and were left out of the hc2/hc3 sum");
+    return out;
+}
+
+// cluster, cluster0 (by unit), cluster-period: meat sum_g S_g S_g'.
+CovarianceResult one_way_covariance(const Equation& eq, Covariance kind) {
+    const bool by_period = kind == Covariance::cluster_period;
+    const char* word = to_word(kind);
+    const std::vector<std::int32_t>& ids = by_period ? eq.period : eq.unit;
+    require_ids(eq, ids, by_period ? "periods" : "units", word);
+    std::vector<std::int32_t> dense;
+    const std::size_t G = densify(ids, dense);
+    require_clusters(G, by_period ? "period" : "unit", word);
+    return detail::covariance_from_meat(eq, kind, cluster_meat(eq, dense, G), G, -1);
+}
+
+// cluster-both (Cameron, Gelbach & Miller 2011): unit + period - intersection meats,
+// factor on G_min, negative eigenvalues clipped to 0.
+CovarianceResult two_way_covariance(const Equation& eq) {
+    const Covariance kind = Covariance::cluster_both;
     const Index N = eq.X.rows(), K = eq.X.cols();
     const double n_d = static_cast<double>(N), k_d = static_cast<double>(K);
+    CovarianceResult out;
+    out.kind = kind;
+    const char* word = to_word(kind);
+    require_ids(eq, eq.unit, "units", word);
+    require_ids(eq, eq.period, "periods", word);
+    std::vector<std::int32_t> unit_dense, period_dense;
+    const std::size_t G_unit = densify(eq.unit, unit_dense);
+    const std::size_t G_period = densify(eq.period, period_dense);
+    require_clusters(G_unit, "unit", word);
+    require_clusters(G_period, "period", word);
+    // intersection cells (one row each in a panel without repeated pairs)
+    std::vector<std::int32_t> cell(static_cast<std::size_t>(N));
+    std::unordered_map<std::int64_t, std::int32_t> cell_id;
+    for (std::size_t i = 0; i < cell.size(); ++i) {
+        const std::int64_t key = (static_cast<std::int64_t>(unit_dense[i]) << 32) | period_dense[i];
+        auto it = cell_id.emplace(key, static_cast<std::int32_t>(cell_id.size())).first;
+        cell[i] = it->second;
+    }
+    MatrixXd meat = cluster_meat(eq, unit_dense, G_unit) + cluster_meat(eq, period_dense, G_period) -
+                    cluster_meat(eq, cell, cell_id.size());
+    MatrixXd v = sandwich(eq, meat);
+    const std::size_t G_min = std::min(G_unit, G_period);
+    const double g_d = static_cast<double>(G_min);
+    out.factor = g_d / (g_d - 1.0) * (n_d - 1.0) / (n_d - k_d);
+    out.factor_rule = "G_min/(G_min-1) * (N-1)/(N-K)";
+    v *= out.factor;
+    Eigen::SelfAdjointEigenSolver<MatrixXd> eigen(v);
+    out.min_eigenvalue = eigen.eigenvalues().minCoeff();
+    if (out.min_eigenvalue < 0) {
+        const VectorXd clipped = eigen.eigenvalues().cwiseMax(0.0);
+        v = eigen.eigenvectors() * clipped.asDiagonal() * eigen.eigenvectors().transpose();
+        v = 0.5 * (v + v.transpose());
+        out.clipped = true;
+        out.warnings.push_back("cluster-both: the two-way covariance was not positive semi-definite "
+                               "(smallest eigenvalue " + number_text(out.min_eigenvalue) +
+                               "); negative eigenvalues were set to 0");
+    }
+    out.matrix = v;
+    out.clusters = G_min;
+    out.df = g_d - 1.0;
+    out.df_rule = "G_min-1";
+    out.label = "cluster by unit and period (two-way)";
+    return out;
+}
+
+// dk (Driscoll & Kraay 1998): per-period score sums h_t, indexed by grid position so
+// that t - j is j grid steps earlier, with Bartlett weights.
+CovarianceResult dk_covariance(const Equation& eq, int dk_lag) {
+    const Index N = eq.X.rows(), K = eq.X.cols();
+    require_ids(eq, eq.period, "periods", "dk");
+    std::int32_t max_period = -1;
+    for (std::int32_t v : eq.period) max_period = std::max(max_period, v);
+    const std::size_t grid = static_cast<std::size_t>(max_period) + 1;
+    MatrixXd h = MatrixXd::Zero(static_cast<Index>(grid), K);
+    std::vector<std::uint8_t> present(grid, 0);
+    MatrixXd z;
+    for (Index r0 = 0; r0 < N; r0 += detail::kBlockRows) {
+        const Index b = std::min(detail::kBlockRows, N - r0);
+        detail::working_block(eq, r0, b, z);
+        z.array().colwise() *= eq.residual.segment(r0, b).array();
+        for (Index i = 0; i < b; ++i) {
+            const std::size_t t = static_cast<std::size_t>(eq.period[static_cast<std::size_t>(r0 + i)]);
+            h.row(static_cast<Index>(t)) += z.row(i);
+            present[t] = 1;
+        }
+    }
+    std::size_t T = 0;
+    for (std::uint8_t v : present) T += v;
+    require_clusters(T, "period", "dk");
+    const int lag = dk_lag < 0 ? detail::dk_default_lag(T) : dk_lag;
+    return detail::covariance_from_meat(eq, Covariance::dk, detail::dk_meat(h, lag), T, lag);
+}
+
+}  // namespace
+
+// The one dispatch of the covariance families (full route); a new family is a new case
+// here (and, if the streaming route takes it, a meat in lean.cpp's ScorePass).
+CovarianceResult compute_covariance(const Equation& eq, Covariance kind, int dk_lag) {
+    detail::require_rows(eq, "this covariance");
+    const Index N = eq.X.rows(), K = eq.X.cols();
     const double df_resid = eq.df_residual();
     const bool absorbs = eq.absorbed > 0;
-    const std::string resid_rule = absorbs ? "N-n-K" : "N-K";
     if (!(df_resid > 0))
         throw Error("the estimated equation has " + std::to_string(N) + " rows for " + std::to_string(K) +
                     " terms" + (absorbs ? " and " + std::to_string(eq.absorbed) + " unit effects" : std::string()) +
                     ": there must be more rows than terms");
-
-    const MatrixXd r_inv = detail::r_inverse(eq);
-    const MatrixXd bread = detail::working_to_original(eq) * r_inv * r_inv.transpose();
-    auto sandwich = [&](const MatrixXd& meat) {
-        MatrixXd v = bread * meat * bread.transpose();
-        return MatrixXd(0.5 * (v + v.transpose()));
-    };
-
     switch (kind) {
         case Covariance::classical:
-            out = detail::covariance_from_meat(eq, kind, MatrixXd(), 0, -1);
-            break;
+            return detail::covariance_from_meat(eq, kind, MatrixXd(), 0, -1);
         case Covariance::hc0:
         case Covariance::hc1:
         case Covariance::hc2:
-        case Covariance::hc3: {
-            VectorXd omega = eq.residual.array().square();
-            std::size_t full_leverage = 0;
-            if (kind == Covariance::hc2 || kind == Covariance::hc3) {
-                const VectorXd h = leverages(eq);
-                for (Index i = 0; i < N; ++i) {
-                    const double one_minus = 1.0 - h[i];
-                    if (one_minus <= 1e-10) {
-                        // the row is fitted exactly (e.g. the only row of a period
-                        // indicator); its residual is 0 and it carries no information
-                        omega[i] = 0.0;
-                        ++full_leverage;
-                    } else {
-                        omega[i] /= (kind == Covariance::hc2) ? one_minus : one_minus * one_minus;
-                    }
-                }
-            }
-            out = detail::covariance_from_meat(eq, kind, weighted_meat(eq, omega), 0, -1);
-            if (full_leverage > 0)
-                out.warnings.push_back(std::to_string(full_leverage) +
-                                       " rows have leverage 1 and were left out of the hc2/hc3 sum");
-            break;
-        }
+        case Covariance::hc3:
+            return hc_covariance(eq, kind);
         case Covariance::cluster:
         case Covariance::cluster0:
-        case Covariance::cluster_period: {
-            const bool by_period = kind == Covariance::cluster_period;
-            const char* word = to_word(kind);
-            const std::vector<std::int32_t>& ids = by_period ? eq.period : eq.unit;
-            require_ids(eq, ids, by_period ? "periods" : "units", word);
-            std::vector<std::int32_t> dense;
-            const std::size_t G = densify(ids, dense);
-            require_clusters(G, by_period ? "period" : "unit", word);
-            out = detail::covariance_from_meat(eq, kind, cluster_meat(eq, dense, G), G, -1);
-            break;
-        }
-        case Covariance::cluster_both: {
-            const char* word = to_word(kind);
-            require_ids(eq, eq.unit, "units", word);
-            require_ids(eq, eq.period, "periods", word);
-            std::vector<std::int32_t> unit_dense, period_dense;
-            const std::size_t G_unit = densify(eq.unit, unit_dense);
-            const std::size_t G_period = densify(eq.period, period_dense);
-            require_clusters(G_unit, "unit", word);
-            require_clusters(G_period, "period", word);
-            // intersection cells (one row each in a panel without repeated pairs)
-            std::vector<std::int32_t> cell(static_cast<std::size_t>(N));
-            std::unordered_map<std::int64_t, std::int32_t> cell_id;
-            for (std::size_t i = 0; i < cell.size(); ++i) {
-                const std::int64_t key = (static_cast<std::int64_t>(unit_dense[i]) << 32) | period_dense[i];
-                auto it = cell_id.emplace(key, static_cast<std::int32_t>(cell_id.size())).first;
-                cell[i] = it->second;
-            }
-            MatrixXd meat = cluster_meat(eq, unit_dense, G_unit) + cluster_meat(eq, period_dense, G_period) -
-                            cluster_meat(eq, cell, cell_id.size());
-            MatrixXd v = sandwich(meat);
-            const std::size_t G_min = std::min(G_unit, G_period);
-            const double g_d = static_cast<double>(G_min);
-            out.factor = g_d / (g_d - 1.0) * (n_d - 1.0) / (n_d - k_d);
-            out.factor_rule = "G_min/(G_min-1) * (N-1)/(N-K)";
-            v *= out.factor;
-            Eigen::SelfAdjointEigenSolver<MatrixXd> eigen(v);
-            out.min_eigenvalue = eigen.eigenvalues().minCoeff();
-            if (out.min_eigenvalue < 0) {
-                const VectorXd clipped = eigen.eigenvalues().cwiseMax(0.0);
-                v = eigen.eigenvectors() * clipped.asDiagonal() * eigen.eigenvectors().transpose();
-                v = 0.5 * (v + v.transpose());
-                out.clipped = true;
-                out.warnings.push_back("cluster-both: the two-way covariance was not positive semi-definite "
-                                       "(smallest eigenvalue " + number_text(out.min_eigenvalue) +
-                                       "); negative eigenvalues were set to 0");
-            }
-            out.matrix = v;
-            out.clusters = G_min;
-            out.df = g_d - 1.0;
-            out.df_rule = "G_min-1";
-            out.label = "cluster by unit and period (two-way)";
-            break;
-        }
-        case Covariance::dk: {
-            require_ids(eq, eq.period, "periods", "dk");
-            std::int32_t max_period = -1;
-            for (std::int32_t v : eq.period) max_period = std::max(max_period, v);
-            const std::size_t grid = static_cast<std::size_t>(max_period) + 1;
-            // h_t = sum over rows of period t of z_i u_i, indexed by grid position so
-            // that t - j is j grid steps earlier
-            MatrixXd h = MatrixXd::Zero(static_cast<Index>(grid), K);
-            std::vector<std::uint8_t> present(grid, 0);
-            {
-                MatrixXd z;
-                for (Index r0 = 0; r0 < N; r0 += detail::kBlockRows) {
-                    const Index b = std::min(detail::kBlockRows, N - r0);
-                    detail::working_block(eq, r0, b, z);
-                    z.array().colwise() *= eq.residual.segment(r0, b).array();
-                    for (Index i = 0; i < b; ++i) {
-                        const std::size_t t = static_cast<std::size_t>(eq.period[static_cast<std::size_t>(r0 + i)]);
-                        h.row(static_cast<Index>(t)) += z.row(i);
-                        present[t] = 1;
-                    }
-                }
-            }
-            std::size_t T = 0;
-            for (std::uint8_t v : present) T += v;
-            require_clusters(T, "period", "dk");
-            const int lag = dk_lag < 0 ? detail::dk_default_lag(T) : dk_lag;
-            out = detail::covariance_from_meat(eq, kind, detail::dk_meat(h, lag), T, lag);
-            break;
-        }
+        case Covariance::cluster_period:
+            return one_way_covariance(eq, kind);
+        case Covariance::cluster_both:
+            return two_way_covariance(eq);
+        case Covariance::dk:
+            return dk_covariance(eq, dk_lag);
     }
-    return out;
+    throw Error("internal: unknown covariance");
 }
 
 }  // namespace weft

@@ -361,375 +361,506 @@ private:
 
 }  // namespace
 
-std::optional<LeanResult> lean_equation(const LeanInput& in) {
-    const ModelSpec& spec = in.spec;
-    const bool fd = spec.estimator == Estimator::fd;
-    const Index k_reg = static_cast<Index>(in.data.regressors.size());
-    if (k_reg == 0) return std::nullopt;
-    const Index block = kLeanBlockRows;
-    BlockReader reader(in, block);
-    const Index N = static_cast<Index>(in.count);
-    const Index m = k_reg + 1;                 // [X, y]
-    const bool intercept = spec.intercept;
-    const Index p = k_reg + (intercept ? 1 : 0);
-    const Index c0 = intercept ? 1 : 0;         // working column of the first regressor
-    if (N <= p) return std::nullopt;
-    const double n_d = static_cast<double>(N);
+namespace {
 
-    // ---- 1. Gram matrix of [w, v - s0] with w the row weight (1, or 0 for a row that
-    // is not an equation row): its first row holds the count and the column sums.
-    // The same pass takes the first refinement step from a starting solution: the fit
-    // of the first kSampleBlocks blocks (all rows, for data of that size or less); its
-    // blocks are read once more for that step, once the start is known.
-    // B: [w, v - s0, e] with e the start's residual (0 until the start is known); the
-    // rank update of all of it gives, in its last row, the sums h of the first
-    // refinement step at the Gram update's speed.
-    // Its width is padded with zero columns to a multiple of 4, the width of the rank
-    // update's kernel, whose edge code is slower (on the benchmark machine, 512 x 23
-    // blocks took 15% longer than 512 x 24).
-    const Index width = (m + 2 + 3) / 4 * 4;
-    MatrixXd B = MatrixXd::Zero(block, width);
-    MatrixXd SE = MatrixXd::Zero(width, width);
-    VectorXd s0 = VectorXd::Zero(m), ones = VectorXd::Ones(m), levels = VectorXd::Zero(m);
-    VectorXd start_slopes = VectorXd::Zero(k_reg);   // starting solution y ~ start_constant + x' start_slopes
+// The sizes of a lean equation.
+struct LeanShape {
+    Index k_reg = 0;     // regressors
+    Index m = 0;         // [X, y]: k_reg + 1
+    Index p = 0;         // terms: k_reg (+ intercept)
+    Index c0 = 0;        // working column of the first regressor
+    Index N = 0;         // equation rows
+    Index block = kLeanBlockRows;
+    bool intercept = false, fd = false;
+    double n_d = 0;
+};
+
+// What the accumulating pass gathers: SE, the Gram matrix of B = [w, v - s0, e, 0...]
+// (w the row weight: 1, or 0 for a row that is not an equation row; e the start's
+// residual), s0, the fd levels' sums of squares, and the start y ~ start_constant +
+// x' start_slopes with the sums h = sum [w, v - s0] e of its refinement step.
+struct FirstPass {
+    MatrixXd SE;
+    VectorXd s0, levels, start_slopes, h;
     double start_constant = 0;
-    VectorXd h = VectorXd::Zero(m + 1);              // sum over rows of [w, v - s0] e, e the start's residual
-    auto start_residuals = [&](Index b) {
-        // e = y - start_constant - x' start_slopes, written with the shifted columns
-        const double gamma = start_constant + s0.head(k_reg).dot(start_slopes) - s0[k_reg];
-        auto e = B.col(m + 1).head(b);
-        e = B.col(m).head(b) - gamma * B.col(0).head(b);
-        e.noalias() -= B.block(0, 1, b, k_reg) * start_slopes;
-    };
+};
+
+// e = y - start_constant - x' start_slopes of the first b rows of B, written with the
+// shifted columns into column m + 1.
+void start_residuals(const LeanShape& sh, const FirstPass& fp, MatrixXd& B, Index b) {
+    const Index k_reg = sh.k_reg, m = sh.m;
+    const double gamma = fp.start_constant + fp.s0.head(k_reg).dot(fp.start_slopes) - fp.s0[k_reg];
+    auto e = B.col(m + 1).head(b);
+    e = B.col(m).head(b) - gamma * B.col(0).head(b);
+    e.noalias() -= B.block(0, 1, b, k_reg) * fp.start_slopes;
+}
+
+// The start: the fit of the sample's own Gram matrix (if its system is usable; else 0),
+// then the sample's blocks (0..last) once more for the step from the start (the reader
+// ends where the main pass goes on).
+void sample_start(BlockReader& reader, const LeanShape& sh, Index last, MatrixXd& B, FirstPass& fp) {
+    const Index k_reg = sh.k_reg, m = sh.m;
+    const MatrixXd S_sample = fp.SE.topLeftCorner(m + 1, m + 1).selfadjointView<Eigen::Lower>();
+    WorkingSystem sample = working_system(S_sample, fp.s0, sh.intercept, k_reg);
+    MatrixXd R_sample;
+    if (sample.usable && gram_factor(sample.G, R_sample, kSampleConditionLimit)) {
+        const VectorXd c_sample = R_sample.triangularView<Eigen::Upper>().solve(
+            R_sample.transpose().triangularView<Eigen::Lower>().solve(sample.zty));
+        fp.start_slopes = c_sample.tail(k_reg).cwiseQuotient(sample.scale.head(k_reg));
+        fp.start_constant = sample.shift[k_reg] - sample.shift.head(k_reg).dot(fp.start_slopes) +
+                            (sh.intercept ? c_sample[0] / std::sqrt(sample.n) : 0.0);
+    }
+    const VectorXd ones = VectorXd::Ones(m);
+    reader.restart();
+    for (Index kk = 0; kk <= last; ++kk) {
+        const Block again = reader.read(kk, B, 1, fp.s0, ones);
+        const Index rows = again.rows;
+        B.col(0).head(rows) = Eigen::Map<const VectorXd>(again.keep, rows);
+        start_residuals(sh, fp, B, rows);
+        fp.h.noalias() += B.topLeftCorner(rows, m + 1).transpose() * B.col(m + 1).head(rows);
+    }
+}
+
+// Stage "accumulate", streaming: one pass for the Gram matrix of [w, v - s0], its first
+// row holding the count and the column sums. The same pass takes the first refinement
+// step from a starting solution: the fit of the first kSampleBlocks blocks (all rows,
+// for data of that size or less); its blocks are read once more for that step, once the
+// start is known. The rank update of all of B gives, in its last row, the sums h of the
+// first refinement step at the Gram update's speed. B's width is padded with zero
+// columns to a multiple of 4, the width of the rank update's kernel, whose edge code is
+// slower (on the benchmark machine, 512 x 23 blocks took 15% longer than 512 x 24).
+FirstPass accumulate_gram(BlockReader& reader, const LeanShape& sh, MatrixXd& B) {
+    const Index k_reg = sh.k_reg, m = sh.m;
+    const Index width = B.cols();
+    FirstPass fp;
+    fp.SE = MatrixXd::Zero(width, width);
+    fp.s0 = VectorXd::Zero(m);
+    fp.levels = VectorXd::Zero(m);
+    fp.start_slopes = VectorXd::Zero(k_reg);
+    fp.h = VectorXd::Zero(m + 1);
+    const VectorXd ones = VectorXd::Ones(m);
     const Index sample_blocks = std::min<Index>(kSampleBlocks, reader.blocks());
     reader.restart();
-    bool shifted = !intercept;
+    bool shifted = !sh.intercept;
     for (Index k = 0; k < reader.blocks(); ++k) {
-        const Block blk = reader.read(k, B, 1, s0, ones, fd ? &levels : nullptr, true);
+        const Block blk = reader.read(k, B, 1, fp.s0, ones, sh.fd ? &fp.levels : nullptr, true);
         const Index b = blk.rows;
         const Eigen::Map<const VectorXd> keep(blk.keep, b);
         if (!shifted) {
             // s0: the first block's column means, close to the means of all rows
             const double count = keep.sum();
             if (count > 0) {
-                s0 = B.block(0, 1, b, m).colwise().sum().transpose() / count;
-                B.block(0, 1, b, m).rowwise() -= s0.transpose();
+                fp.s0 = B.block(0, 1, b, m).colwise().sum().transpose() / count;
+                B.block(0, 1, b, m).rowwise() -= fp.s0.transpose();
                 B.block(0, 1, b, m).array().colwise() *= keep.array();
                 shifted = true;
             }
         }
         B.col(0).head(b) = keep;
         if (k >= sample_blocks)
-            start_residuals(b);
+            start_residuals(sh, fp, B, b);
         else
             B.col(m + 1).head(b).setZero();
-        SE.selfadjointView<Eigen::Lower>().rankUpdate(B.topRows(b).transpose());
-        if (k + 1 == sample_blocks) {
-            // the start: the sample's own fit (if its system is usable; else 0)
-            const MatrixXd S_sample = SE.topLeftCorner(m + 1, m + 1).selfadjointView<Eigen::Lower>();
-            WorkingSystem sample = working_system(S_sample, s0, intercept, k_reg);
-            MatrixXd R_sample;
-            if (sample.usable && gram_factor(sample.G, R_sample, kSampleConditionLimit)) {
-                const VectorXd c_sample = R_sample.triangularView<Eigen::Upper>().solve(
-                    R_sample.transpose().triangularView<Eigen::Lower>().solve(sample.zty));
-                start_slopes = c_sample.tail(k_reg).cwiseQuotient(sample.scale.head(k_reg));
-                start_constant = sample.shift[k_reg] - sample.shift.head(k_reg).dot(start_slopes) +
-                                 (intercept ? c_sample[0] / std::sqrt(sample.n) : 0.0);
-            }
-            // the sample's blocks once more, for the step from the start (the reader
-            // ends where the main pass goes on)
-            reader.restart();
-            for (Index kk = 0; kk <= k; ++kk) {
-                const Block again = reader.read(kk, B, 1, s0, ones);
-                const Index rows = again.rows;
-                B.col(0).head(rows) = Eigen::Map<const VectorXd>(again.keep, rows);
-                start_residuals(rows);
-                h.noalias() += B.topLeftCorner(rows, m + 1).transpose() * B.col(m + 1).head(rows);
-            }
-        }
+        fp.SE.selfadjointView<Eigen::Lower>().rankUpdate(B.topRows(b).transpose());
+        if (k + 1 == sample_blocks) sample_start(reader, sh, k, B, fp);
     }
-    // a NaN or infinity outside the masks: the full route words the message
-    if (!reader.values_finite()) return std::nullopt;
-    h += SE.row(m + 1).head(m + 1).transpose();
-    const MatrixXd S = SE.topLeftCorner(m + 1, m + 1).selfadjointView<Eigen::Lower>();
+    fp.h += fp.SE.row(m + 1).head(m + 1).transpose();
+    return fp;
+}
+
+// The working system of the accumulated sums, or empty when the full route must
+// decide: values near the limits of double, a term near a dropping threshold, a design
+// near or above the Gram route's condition limit. R: its Cholesky factor.
+std::optional<WorkingSystem> lean_system(const LeanShape& sh, const FirstPass& fp, MatrixXd& R) {
+    const Index k_reg = sh.k_reg, m = sh.m;
+    const MatrixXd S = fp.SE.topLeftCorner(m + 1, m + 1).selfadjointView<Eigen::Lower>();
     const VectorXd sums = S.col(0).tail(m);                 // sum (v - s0)
     const MatrixXd S_v = S.bottomRightCorner(m, m);         // sum (v - s0)(v - s0)'
     // raw sums of squares (thresholds and range checks only)
     VectorXd raw(m);
-    for (Index j = 0; j < m; ++j) raw[j] = S_v(j, j) + 2.0 * s0[j] * sums[j] + n_d * s0[j] * s0[j];
+    for (Index j = 0; j < m; ++j) raw[j] = S_v(j, j) + 2.0 * fp.s0[j] * sums[j] + sh.n_d * fp.s0[j] * fp.s0[j];
     if (!raw.allFinite() || raw.maxCoeff() > 1e290) return std::nullopt;
     for (Index j = 0; j < k_reg; ++j)
         if (!(raw[j] > 1e-290)) return std::nullopt;
-    const WorkingSystem sys = working_system(S, s0, intercept, k_reg);
+    WorkingSystem sys = working_system(S, fp.s0, sh.intercept, k_reg);
     if (!sys.usable) return std::nullopt;
-    const VectorXd& shift = sys.shift;
-    const VectorXd& scale = sys.scale;
     for (Index j = 0; j < k_reg; ++j) {
         // fd: a column whose differences vanish (no variation within units)
-        if (fd && !(std::sqrt(raw[j]) > kLeanDropMargin * 1e-13 * std::sqrt(levels[j]))) return std::nullopt;
+        if (sh.fd && !(std::sqrt(raw[j]) > kLeanDropMargin * 1e-13 * std::sqrt(fp.levels[j]))) return std::nullopt;
         // a column that centring reduces to noise (a multiple of the intercept)
-        if (!(scale[j] > kLeanDropMargin * 1e-13 * std::sqrt(raw[j]))) return std::nullopt;
+        if (!(sys.scale[j] > kLeanDropMargin * 1e-13 * std::sqrt(raw[j]))) return std::nullopt;
     }
-    const double scale_c = std::sqrt(n_d);
-    MatrixXd R;
     if (!gram_factor(sys.G, R, kLeanConditionLimit)) return std::nullopt;
+    return sys;
+}
 
-    LeanResult out;
-    Equation& eq = out.equation;
-    eq.estimator = spec.estimator;
-    if (intercept) eq.terms.push_back("intercept");
+// The lean equation's terms, working basis and factor (no rows).
+Equation lean_shell(const LeanInput& in, const LeanShape& sh, const WorkingSystem& sys, const MatrixXd& R) {
+    Equation eq;
+    const Index k_reg = sh.k_reg, p = sh.p;
+    eq.estimator = in.spec.estimator;
+    if (sh.intercept) eq.terms.push_back("intercept");
     for (const std::string& name : in.regressor_names) eq.terms.push_back(name);
-    eq.intercept_column = intercept ? 0 : -1;
+    eq.intercept_column = sh.intercept ? 0 : -1;
     eq.X.resize(0, p);
     eq.shift = VectorXd::Zero(p);
     eq.scale = VectorXd::Zero(p);
-    if (intercept) eq.scale[0] = scale_c;
-    eq.shift.tail(k_reg) = shift.head(k_reg);
-    eq.scale.tail(k_reg) = scale.head(k_reg);
+    if (sh.intercept) eq.scale[0] = std::sqrt(sh.n_d);
+    eq.shift.tail(k_reg) = sys.shift.head(k_reg);
+    eq.scale.tail(k_reg) = sys.scale.head(k_reg);
     eq.r_factor = R;
-    eq.lean_rows = static_cast<std::size_t>(N);
-    const double shift_y = shift[k_reg];
+    eq.lean_rows = static_cast<std::size_t>(sh.N);
+    return eq;
+}
 
-    // Blocks of the working design: columns 0..k_reg-1 the slopes' Z = (x - t) / scale,
-    // column k_reg the shifted outcome y - t_y; the intercept's column is 1/sqrt(N).
-    VectorXd mult = scale.cwiseInverse();
-    mult[k_reg] = 1.0;
-    VectorXd u(block);
+// c + (R'R)^-1 g
+VectorXd correction(const MatrixXd& R, const VectorXd& g) {
+    return VectorXd(R.triangularView<Eigen::Upper>().solve(R.transpose().triangularView<Eigen::Lower>().solve(g)));
+}
+
+// Stage "solve", streaming: the first refinement step (corrected semi-normal equations,
+// as the solver's Gram route) from the start, in the working basis: the start is
+// c_j = slope_j scale_j, c_0 = sqrt(N) (constant + t_x' slopes - t_y); its gradient
+// Z'e follows from the sums h as g_j = (h_j + (s0_j - t_j) h_0) / scale_j,
+// g_0 = h_0 / sqrt(N).
+VectorXd first_step(const LeanShape& sh, const FirstPass& fp, const WorkingSystem& sys, const MatrixXd& R) {
+    const Index k_reg = sh.k_reg, c0 = sh.c0;
+    const double scale_c = std::sqrt(sh.n_d);
+    const double shift_y = sys.shift[k_reg];
+    VectorXd c(sh.p), g(sh.p);
+    c.tail(k_reg) = fp.start_slopes.cwiseProduct(sys.scale.head(k_reg));
+    if (sh.intercept) {
+        c[0] = scale_c * (fp.start_constant + sys.shift.head(k_reg).dot(fp.start_slopes) - shift_y);
+        g[0] = fp.h[0] / scale_c;
+    }
+    for (Index j = 0; j < k_reg; ++j) g[c0 + j] = (fp.h[1 + j] + (fp.s0[j] - sys.shift[j]) * fp.h[0]) / sys.scale[j];
+    return c + correction(R, g);
+}
+
+// Stage "scores", streaming: one pass at the working solution c for the second
+// refinement step's gradient, the residuals and fitted values (aligned to the input
+// rows), SSR, the outcome's sums, and the score sums of the covariance (per row for
+// hc0/hc1, per unit for cluster/cluster0, per grid period for cluster-period/dk).
+class ScorePass {
+public:
+    ScorePass(const LeanInput& in, const LeanShape& sh, const WorkingSystem& sys, const VectorXd& c)
+        : in_(in), sh_(sh), c_(c), scale_c_(std::sqrt(sh.n_d)), shift_y_(sys.shift[sh.k_reg]),
+          kind_(in.spec.covariance), shift_(sys.shift) {
+        const Index p = sh.p, block = sh.block;
+        by_unit_ = kind_ == Covariance::cluster || kind_ == Covariance::cluster0;
+        by_period_ = kind_ == Covariance::cluster_period || kind_ == Covariance::dk;
+        per_row_ = kind_ == Covariance::hc0 || kind_ == Covariance::hc1;
+        periods_ = in.index.n_periods();   // by period: the grid periods
+        if (by_unit_) window_ = MatrixXd::Zero(p, kUnitWindow);
+        if (by_period_) period_sums_ = MatrixXd::Zero(static_cast<Index>(periods_), p);
+        ids_.resize(static_cast<std::size_t>(block));
+        id_of_row_ = by_unit_ ? in.index.unit_of_row.data() : in.index.period_of_row.data();
+        meat_ = MatrixXd::Zero(p, p);
+        W_.resize(block, p);
+        g_ = VectorXd::Zero(p);
+        no_unit_ = VectorXd::Zero(p);
+        u_.resize(block);
+    }
+
+    // The whole pass; false when the full route must take over (units out of order).
+    bool run(BlockReader& reader, MatrixXd& B, const VectorXd& mult, LeanResult& out) {
+        prepare_series(out);
+        reader.restart();
+        for (Index k = 0; k < reader.blocks(); ++k) {
+            const Block blk = reader.read(k, B, 0, shift_, mult);
+            const Index b = blk.rows;
+            residual(blk, B);
+            // by unit, the gradient is the sum of the unit score sums (taken below)
+            if (!by_unit_) add_gradient(b, B);
+            // per block in double (vectorised; a block's sum of 512 squares loses at most
+            // a few units in the 14th digit), across blocks in long double
+            ssr += static_cast<long double>(u_.head(b).squaredNorm());
+            y_sum += static_cast<long double>(B.col(sh_.k_reg).head(b).sum());
+            y_squares += static_cast<long double>(B.col(sh_.k_reg).head(b).squaredNorm());
+            write_series(blk, B, out);
+            if (kind_ == Covariance::classical) continue;
+            if (per_row_)
+                add_row_scores(b, B);
+            else if (by_period_)
+                add_period_scores(blk, B);
+            else
+                add_unit_scores(blk, B);
+        }
+        if (by_unit_) {
+            if (!units_in_order_) return false;
+            flush_window();
+            g_ += no_unit_;
+        }
+        return true;
+    }
+
+    const VectorXd& gradient() const { return g_; }
+    // The meat of kind_ in the working basis with its cluster count and lag, or empty
+    // when there are fewer than 2 clusters (the full route words that).
+    std::optional<MatrixXd> meat(const Equation& eq, std::size_t& clusters, int& lag) {
+        clusters = 0;
+        lag = -1;
+        if (per_row_) return MatrixXd(meat_.selfadjointView<Eigen::Lower>());
+        if (by_unit_) {
+            clusters = eq.n_units;
+            if (clusters < 2) return std::nullopt;
+            return MatrixXd(meat_.selfadjointView<Eigen::Lower>());   // the windows' rank updates
+        }
+        if (kind_ == Covariance::cluster_period) {
+            clusters = eq.n_periods;
+            if (clusters < 2) return std::nullopt;
+            return MatrixXd(period_sums_.transpose() * period_sums_);
+        }
+        if (kind_ == Covariance::dk) {
+            clusters = eq.n_periods;
+            if (clusters < 2) return std::nullopt;
+            lag = in_.spec.dk_lag < 0 ? dk_default_lag(clusters) : in_.spec.dk_lag;
+            return dk_meat(period_sums_, lag);
+        }
+        return meat_;
+    }
+
+    long double ssr = 0, y_sum = 0, y_squares = 0;   // y here is y - t_y
+
+private:
+    void prepare_series(LeanResult& out) const {
+        const std::size_t n_rows = in_.data.outcome.size();
+        assign_large(out.residuals.value, n_rows, 0.0);
+        assign_large(out.fitted.value, n_rows, 0.0);
+        if (in_.is_row != nullptr) {
+            // sorted input: the defined rows are the equation rows, as marked
+            reserve_large(out.residuals.defined, n_rows);
+            out.residuals.defined = *in_.is_row;
+            reserve_large(out.fitted.defined, n_rows);
+            out.fitted.defined = *in_.is_row;
+        } else {
+            assign_large(out.residuals.defined, n_rows, std::uint8_t{0});
+            assign_large(out.fitted.defined, n_rows, std::uint8_t{0});
+        }
+    }
+
     // u = y - t_y - Z c, the residual of working solution c (0 in rows that are not
     // equation rows)
-    auto residual = [&](const Block& blk, const VectorXd& c) {
-        const Index b = blk.rows;
-        u.head(b) = B.col(k_reg).head(b).array() - (intercept ? c[0] / scale_c : 0.0);
-        u.head(b).noalias() -= B.topLeftCorner(b, k_reg) * c.tail(k_reg);
-        u.head(b).array() *= Eigen::Map<const Eigen::ArrayXd>(blk.keep, b);
-    };
-    auto add_gradient = [&](Index b, VectorXd& g) {
-        if (intercept) g[0] += u.head(b).sum() / scale_c;
-        g.tail(k_reg).noalias() += B.topLeftCorner(b, k_reg).transpose() * u.head(b);
-    };
-    auto correction = [&](const VectorXd& g) {
-        return VectorXd(R.triangularView<Eigen::Upper>().solve(R.transpose().triangularView<Eigen::Lower>().solve(g)));
-    };
-
-    // ---- 2. the first refinement step (corrected semi-normal equations, as the
-    // solver's Gram route) from the start, in the working basis: the start is
-    // c_j = slope_j scale_j, c_0 = sqrt(N) (constant + t_x' slopes - t_y); its gradient
-    // Z'e follows from the sums h as g_j = (h_j + (s0_j - t_j) h_0) / scale_j,
-    // g_0 = h_0 / sqrt(N).
-    VectorXd c(p);
-    {
-        VectorXd g(p);
-        c.tail(k_reg) = start_slopes.cwiseProduct(scale.head(k_reg));
-        if (intercept) {
-            c[0] = scale_c * (start_constant + shift.head(k_reg).dot(start_slopes) - shift_y);
-            g[0] = h[0] / scale_c;
-        }
-        for (Index j = 0; j < k_reg; ++j) g[c0 + j] = (h[1 + j] + (s0[j] - shift[j]) * h[0]) / scale[j];
-        c += correction(g);
+    void residual(const Block& blk, const MatrixXd& B) {
+        const Index b = blk.rows, k_reg = sh_.k_reg;
+        u_.head(b) = B.col(k_reg).head(b).array() - (sh_.intercept ? c_[0] / scale_c_ : 0.0);
+        u_.head(b).noalias() -= B.topLeftCorner(b, k_reg) * c_.tail(k_reg);
+        u_.head(b).array() *= Eigen::Map<const Eigen::ArrayXd>(blk.keep, b);
     }
 
-    // ---- 3. one pass at c: the second refinement step's gradient, the residuals
-    // (aligned to the input rows), SSR, the outcome's sums, and the score sums of the
-    // covariance. The second step's correction delta is then applied to the
-    // coefficients, and to SSR exactly: SSR(c + delta) = SSR(c) - 2 delta'g + |R delta|^2.
-    // Residuals and scores stay at c: they differ by Z delta, of the order of rounding.
-    const std::size_t n_rows = in.data.outcome.size();
-    assign_large(out.residuals.value, n_rows, 0.0);
-    assign_large(out.fitted.value, n_rows, 0.0);
-    if (in.is_row != nullptr) {
-        // sorted input: the defined rows are the equation rows, as marked
-        reserve_large(out.residuals.defined, n_rows);
-        out.residuals.defined = *in.is_row;
-        reserve_large(out.fitted.defined, n_rows);
-        out.fitted.defined = *in.is_row;
-    } else {
-        assign_large(out.residuals.defined, n_rows, std::uint8_t{0});
-        assign_large(out.fitted.defined, n_rows, std::uint8_t{0});
+    void add_gradient(Index b, const MatrixXd& B) {
+        if (sh_.intercept) g_[0] += u_.head(b).sum() / scale_c_;
+        g_.tail(sh_.k_reg).noalias() += B.topLeftCorner(b, sh_.k_reg).transpose() * u_.head(b);
     }
-    const Covariance kind = spec.covariance;
-    const bool by_unit = kind == Covariance::cluster || kind == Covariance::cluster0;
-    const bool by_period = kind == Covariance::cluster_period || kind == Covariance::dk;
-    const bool per_row = kind == Covariance::hc0 || kind == Covariance::hc1;
-    const std::size_t periods = in.index.n_periods();   // by period: the grid periods
-    // By unit: the score sums of a window of kUnitWindow consecutive unit ids, from
-    // window_base on. The equation rows come in unit order (ids never decrease), so
-    // when a row's unit lies past the window every unit in it is complete: its sums go
-    // into the meat (one rank update for the window) and the gradient, and the window
-    // moves on. The sums of all units are never held at once.
-    constexpr Index kUnitWindow = 256;
-    MatrixXd window;       // p x kUnitWindow
-    std::int32_t window_base = 0, window_used = 0;   // ids window_base .. window_base + window_used - 1
-    MatrixXd period_sums;  // periods x p: score sums per grid period
-    if (by_unit) window = MatrixXd::Zero(p, kUnitWindow);
-    if (by_period) period_sums = MatrixXd::Zero(static_cast<Index>(periods), p);
-    std::vector<std::int32_t> ids(static_cast<std::size_t>(block));
-    const std::int32_t* id_of_row = by_unit ? in.index.unit_of_row.data() : in.index.period_of_row.data();
-    MatrixXd meat = MatrixXd::Zero(p, p);
-    MatrixXd W(block, p);
-    VectorXd g = VectorXd::Zero(p);
-    VectorXd no_unit = VectorXd::Zero(p);   // by unit: score sums of rows without a unit
-    auto flush_window = [&] {
-        if (window_used == 0) return;
-        const auto done = window.leftCols(window_used);
-        meat.selfadjointView<Eigen::Lower>().rankUpdate(done);
-        g.noalias() += done * VectorXd::Ones(window_used);
-        window.leftCols(window_used).setZero();
-        window_used = 0;
-    };
-    bool units_in_order = true;
-    long double ssr = 0, y_sum = 0, y_squares = 0;   // y here is y - t_y
-    const long double shift_y_l = shift_y;
-    reader.restart();
-    for (Index k = 0; k < reader.blocks(); ++k) {
-        const Block blk = reader.read(k, B, 0, shift, mult);
-        const Index b = blk.rows;
-        residual(blk, c);
-        // by unit, the gradient is the sum of the unit score sums (taken below)
-        if (!by_unit) add_gradient(b, g);
-        // per block in double (vectorised; a block's sum of 512 squares loses at most
-        // a few units in the 14th digit), across blocks in long double
-        ssr += static_cast<long double>(u.head(b).squaredNorm());
-        y_sum += static_cast<long double>(B.col(k_reg).head(b).sum());
-        y_squares += static_cast<long double>(B.col(k_reg).head(b).squaredNorm());
+
+    void write_series(const Block& blk, const MatrixXd& B, LeanResult& out) const {
+        const Index b = blk.rows, k_reg = sh_.k_reg;
         if (blk.input == nullptr) {
             // consecutive input rows; rows of weight 0 have u = 0 and stay undefined
             // (the defined marks were copied above)
             const Eigen::Map<const Eigen::ArrayXd> keep(blk.keep, b);
-            Eigen::Map<Eigen::ArrayXd>(out.residuals.value.data() + blk.first, b) = u.head(b).array();
+            Eigen::Map<Eigen::ArrayXd>(out.residuals.value.data() + blk.first, b) = u_.head(b).array();
             Eigen::Map<Eigen::ArrayXd>(out.fitted.value.data() + blk.first, b) =
-                (keep != 0.0).select(B.col(k_reg).head(b).array() + shift_y - u.head(b).array(), 0.0);
-        } else {
+                (keep != 0.0).select(B.col(k_reg).head(b).array() + shift_y_ - u_.head(b).array(), 0.0);
+            return;
+        }
+        for (Index i = 0; i < b; ++i) {
+            const std::size_t row = blk.input[i];
+            out.residuals.value[row] = u_[i];
+            out.fitted.value[row] = B(i, k_reg) + shift_y_ - u_[i];
+            out.residuals.defined[row] = out.fitted.defined[row] = 1;
+        }
+    }
+
+    // hc0/hc1: scores z_i u_i in the working basis (0 in rows of weight 0)
+    void add_row_scores(Index b, const MatrixXd& B) {
+        if (sh_.intercept) W_.col(0).head(b) = u_.head(b) / scale_c_;
+        W_.block(0, sh_.c0, b, sh_.k_reg) = B.topLeftCorner(b, sh_.k_reg).array().colwise() * u_.head(b).array();
+        meat_.selfadjointView<Eigen::Lower>().rankUpdate(W_.topRows(b).transpose());
+    }
+
+    // by period: few groups (the grid periods), rows of one period seldom adjacent: add
+    // each row's score into its period's sum, column by column
+    void add_period_scores(const Block& blk, const MatrixXd& B) {
+        const Index b = blk.rows, c0 = sh_.c0, k_reg = sh_.k_reg;
+        double* sums_t = period_sums_.data();
+        for (Index i = 0; i < b; ++i) ids_[static_cast<std::size_t>(i)] = id_of_row_[blk.input_row(i)];
+        for (Index col = -c0; col < k_reg; ++col) {
+            double* target = sums_t + (col + c0) * static_cast<Index>(periods_);
+            const double* z = col >= 0 ? B.col(col).data() : nullptr;
             for (Index i = 0; i < b; ++i) {
-                const std::size_t row = blk.input[i];
-                out.residuals.value[row] = u[i];
-                out.fitted.value[row] = B(i, k_reg) + shift_y - u[i];
-                out.residuals.defined[row] = out.fitted.defined[row] = 1;
+                const std::int32_t id = ids_[static_cast<std::size_t>(i)];
+                if (id < 0) continue;
+                target[id] += (z != nullptr ? z[i] : 1.0 / scale_c_) * u_[i];
             }
         }
-        if (kind == Covariance::classical) continue;
-        if (per_row) {
-            // scores z_i u_i in the working basis (0 in rows of weight 0)
-            if (intercept) W.col(0).head(b) = u.head(b) / scale_c;
-            W.block(0, c0, b, k_reg) = B.topLeftCorner(b, k_reg).array().colwise() * u.head(b).array();
-            meat.selfadjointView<Eigen::Lower>().rankUpdate(W.topRows(b).transpose());
-            continue;
-        }
-        if (by_period) {
-            // few groups (the grid periods), rows of one period seldom adjacent: add
-            // each row's score into its period's sum, column by column
-            double* sums_t = period_sums.data();
-            for (Index i = 0; i < b; ++i) ids[static_cast<std::size_t>(i)] = id_of_row[blk.input_row(i)];
-            for (Index col = -c0; col < k_reg; ++col) {
-                double* target = sums_t + (col + c0) * static_cast<Index>(periods);
-                const double* z = col >= 0 ? B.col(col).data() : nullptr;
-                for (Index i = 0; i < b; ++i) {
-                    const std::int32_t id = ids[static_cast<std::size_t>(i)];
-                    if (id < 0) continue;
-                    target[id] += (z != nullptr ? z[i] : 1.0 / scale_c) * u[i];
-                }
-            }
-            continue;
-        }
-        // score sums over runs of rows with one id, sum z_i u_i = Z_run' u_run (a row of
-        // weight 0 adds a zero score wherever it goes; a row without an id adds to
-        // no unit's sum, only to the gradient)
+    }
+
+    // By unit: the score sums of a window of kUnitWindow consecutive unit ids, from
+    // window_base_ on. The equation rows come in unit order (ids never decrease), so when
+    // a row's unit lies past the window every unit in it is complete: its sums go into
+    // the meat (one rank update for the window) and the gradient, and the window moves
+    // on. The sums of all units are never held at once. Score sums over runs of rows
+    // with one id, sum z_i u_i = Z_run' u_run (a row of weight 0 adds a zero score
+    // wherever it goes; a row without an id adds to no unit's sum, only to the gradient).
+    void add_unit_scores(const Block& blk, const MatrixXd& B) {
+        const Index b = blk.rows;
         for (Index i = 0; i < b;) {
-            const std::int32_t id = id_of_row[blk.input_row(i)];
+            const std::int32_t id = id_of_row_[blk.input_row(i)];
             Index j = i + 1;
-            while (j < b && id_of_row[blk.input_row(j)] == id) ++j;
-            {
-                double* sum = no_unit.data();
-                if (id >= 0) {
-                    if (id < window_base) units_in_order = false;   // not expected: see above
-                    if (id >= window_base + kUnitWindow) {
-                        flush_window();
-                        window_base = id;
-                    }
-                    if (id >= window_base) {
-                        window_used = std::max(window_used, id - window_base + 1);
-                        sum = window.col(id - window_base).data();
-                    }
+            while (j < b && id_of_row_[blk.input_row(j)] == id) ++j;
+            double* sum = no_unit_.data();
+            if (id >= 0) {
+                if (id < window_base_) units_in_order_ = false;   // not expected: see above
+                if (id >= window_base_ + kUnitWindow) {
+                    flush_window();
+                    window_base_ = id;
                 }
-                const double* ui = u.data() + i;
-                const Index len = j - i;
-                if (intercept) {
-                    double t = 0;
-                    for (Index r = 0; r < len; ++r) t += ui[r];
-                    sum[0] += t / scale_c;
-                }
-                // four columns at a time: four independent sums keep the adder busy
-                Index col = 0;
-                for (; col + 4 <= k_reg; col += 4) {
-                    const double* z0 = B.col(col).data() + i;
-                    const double* z1 = B.col(col + 1).data() + i;
-                    const double* z2 = B.col(col + 2).data() + i;
-                    const double* z3 = B.col(col + 3).data() + i;
-                    double t0 = 0, t1 = 0, t2 = 0, t3 = 0;
-                    for (Index r = 0; r < len; ++r) {
-                        t0 += z0[r] * ui[r];
-                        t1 += z1[r] * ui[r];
-                        t2 += z2[r] * ui[r];
-                        t3 += z3[r] * ui[r];
-                    }
-                    sum[c0 + col] += t0;
-                    sum[c0 + col + 1] += t1;
-                    sum[c0 + col + 2] += t2;
-                    sum[c0 + col + 3] += t3;
-                }
-                for (; col < k_reg; ++col) {
-                    const double* z = B.col(col).data() + i;
-                    double t = 0;
-                    for (Index r = 0; r < len; ++r) t += z[r] * ui[r];
-                    sum[c0 + col] += t;
+                if (id >= window_base_) {
+                    window_used_ = std::max(window_used_, id - window_base_ + 1);
+                    sum = window_.col(id - window_base_).data();
                 }
             }
+            add_run(B, i, j - i, sum);
             i = j;
         }
     }
-    if (by_unit) {
-        if (!units_in_order) return std::nullopt;
-        flush_window();
-        g += no_unit;
+
+    // sum += [1/sqrt(N), z] u over block rows [i, i + len)
+    void add_run(const MatrixXd& B, Index i, Index len, double* sum) const {
+        const Index c0 = sh_.c0, k_reg = sh_.k_reg;
+        const double* ui = u_.data() + i;
+        if (sh_.intercept) {
+            double t = 0;
+            for (Index r = 0; r < len; ++r) t += ui[r];
+            sum[0] += t / scale_c_;
+        }
+        // four columns at a time: four independent sums keep the adder busy
+        Index col = 0;
+        for (; col + 4 <= k_reg; col += 4) {
+            const double* z0 = B.col(col).data() + i;
+            const double* z1 = B.col(col + 1).data() + i;
+            const double* z2 = B.col(col + 2).data() + i;
+            const double* z3 = B.col(col + 3).data() + i;
+            double t0 = 0, t1 = 0, t2 = 0, t3 = 0;
+            for (Index r = 0; r < len; ++r) {
+                t0 += z0[r] * ui[r];
+                t1 += z1[r] * ui[r];
+                t2 += z2[r] * ui[r];
+                t3 += z3[r] * ui[r];
+            }
+            sum[c0 + col] += t0;
+            sum[c0 + col + 1] += t1;
+            sum[c0 + col + 2] += t2;
+            sum[c0 + col + 3] += t3;
+        }
+        for (; col < k_reg; ++col) {
+            const double* z = B.col(col).data() + i;
+            double t = 0;
+            for (Index r = 0; r < len; ++r) t += z[r] * ui[r];
+            sum[c0 + col] += t;
+        }
     }
-    const VectorXd delta = correction(g);
+
+    void flush_window() {
+        if (window_used_ == 0) return;
+        const auto done = window_.leftCols(window_used_);
+        meat_.selfadjointView<Eigen::Lower>().rankUpdate(done);
+        g_.noalias() += done * VectorXd::Ones(window_used_);
+        window_.leftCols(window_used_).setZero();
+        window_used_ = 0;
+    }
+
+    static constexpr Index kUnitWindow = 256;
+
+    const LeanInput& in_;
+    const LeanShape& sh_;
+    const VectorXd& c_;
+    const double scale_c_;
+    const double shift_y_;
+    const Covariance kind_;
+    const VectorXd& shift_;
+    bool by_unit_ = false, by_period_ = false, per_row_ = false;
+    std::size_t periods_ = 0;
+    MatrixXd window_;       // p x kUnitWindow
+    std::int32_t window_base_ = 0, window_used_ = 0;   // ids window_base_ .. window_base_ + window_used_ - 1
+    MatrixXd period_sums_;  // periods x p: score sums per grid period
+    std::vector<std::int32_t> ids_;
+    const std::int32_t* id_of_row_ = nullptr;
+    MatrixXd meat_;
+    MatrixXd W_;
+    VectorXd g_;
+    VectorXd no_unit_;      // by unit: score sums of rows without a unit
+    VectorXd u_;
+    bool units_in_order_ = true;
+};
+
+}  // namespace
+
+// The streaming route's stages: accumulate (accumulate_gram), the working system and
+// its factor (lean_system), the first refinement step (first_step), the score pass
+// (ScorePass), and the finish: the second step's correction delta applied to the
+// coefficients and, exactly, to SSR: SSR(c + delta) = SSR(c) - 2 delta'g + |R delta|^2.
+// Residuals and scores stay at c: they differ by Z delta, of the order of rounding.
+std::optional<LeanResult> lean_equation(const LeanInput& in) {
+    LeanShape sh;
+    sh.fd = in.spec.estimator == Estimator::fd;
+    sh.k_reg = static_cast<Index>(in.data.regressors.size());
+    if (sh.k_reg == 0) return std::nullopt;
+    sh.N = static_cast<Index>(in.count);
+    sh.m = sh.k_reg + 1;
+    sh.intercept = in.spec.intercept;
+    sh.p = sh.k_reg + (sh.intercept ? 1 : 0);
+    sh.c0 = sh.intercept ? 1 : 0;
+    if (sh.N <= sh.p) return std::nullopt;
+    sh.n_d = static_cast<double>(sh.N);
+    BlockReader reader(in, sh.block);
+    MatrixXd B = MatrixXd::Zero(sh.block, (sh.m + 2 + 3) / 4 * 4);
+
+    const FirstPass fp = accumulate_gram(reader, sh, B);
+    // a NaN or infinity outside the masks: the full route words the message
+    if (!reader.values_finite()) return std::nullopt;
+    MatrixXd R;
+    const std::optional<WorkingSystem> sys = lean_system(sh, fp, R);
+    if (!sys) return std::nullopt;
+    LeanResult out;
+    Equation& eq = out.equation;
+    eq = lean_shell(in, sh, *sys, R);
+    VectorXd c = first_step(sh, fp, *sys, R);
+
+    // Blocks of the working design: columns 0..k_reg-1 the slopes' Z = (x - t) / scale,
+    // column k_reg the shifted outcome y - t_y; the intercept's column is 1/sqrt(N).
+    VectorXd mult = sys->scale.cwiseInverse();
+    mult[sh.k_reg] = 1.0;
+    ScorePass pass(in, sh, *sys, c);
+    if (!pass.run(reader, B, mult, out)) return std::nullopt;
+    const VectorXd& g = pass.gradient();
+    const VectorXd delta = correction(R, g);
     c += delta;
+    const double shift_y = sys->shift[sh.k_reg];
     eq.coef = original_coefficients(eq, c.cast<long double>(), shift_y);
     eq.xtx_inverse = xtx_inverse(eq);
     {
         const long double dg = delta.cast<long double>().dot(g.cast<long double>());
         const long double rd = (R.triangularView<Eigen::Upper>() * delta).cast<long double>().squaredNorm();
-        const long double corrected = ssr - 2.0L * dg + rd;
-        eq.ssr = static_cast<double>(corrected > 0 ? corrected : ssr);
+        const long double corrected = pass.ssr - 2.0L * dg + rd;
+        eq.ssr = static_cast<double>(corrected > 0 ? corrected : pass.ssr);
     }
     eq.n_units = in.units;
     eq.n_periods = in.periods;
     {
-        const long double n_l = static_cast<long double>(N);
-        const long double mean = y_sum / n_l;           // of y - t_y
-        out.outcome.sum = y_sum + n_l * shift_y_l;
-        out.outcome.centred = y_squares - n_l * mean * mean;
-        out.outcome.raw = y_squares + 2.0L * shift_y_l * y_sum + n_l * shift_y_l * shift_y_l;
+        const long double n_l = static_cast<long double>(sh.N);
+        const long double shift_y_l = shift_y;
+        const long double mean = pass.y_sum / n_l;           // of y - t_y
+        out.outcome.sum = pass.y_sum + n_l * shift_y_l;
+        out.outcome.centred = pass.y_squares - n_l * mean * mean;
+        out.outcome.raw = pass.y_squares + 2.0L * shift_y_l * pass.y_sum + n_l * shift_y_l * shift_y_l;
     }
-
     std::size_t clusters = 0;
     int lag = -1;
-    if (per_row) {
-        meat = meat.selfadjointView<Eigen::Lower>();
-    } else if (by_unit) {
-        clusters = eq.n_units;
-        if (clusters < 2) return std::nullopt;
-        meat = meat.selfadjointView<Eigen::Lower>();   // the windows' rank updates
-    } else if (kind == Covariance::cluster_period) {
-        clusters = eq.n_periods;
-        if (clusters < 2) return std::nullopt;
-        meat = period_sums.transpose() * period_sums;
-    } else if (kind == Covariance::dk) {
-        clusters = eq.n_periods;
-        if (clusters < 2) return std::nullopt;
-        lag = spec.dk_lag < 0 ? dk_default_lag(clusters) : spec.dk_lag;
-        meat = dk_meat(period_sums, lag);
-    }
-    out.covariance = covariance_from_meat(eq, kind, meat, clusters, lag);
+    const std::optional<MatrixXd> meat = pass.meat(eq, clusters, lag);
+    if (!meat) return std::nullopt;
+    out.covariance = covariance_from_meat(eq, in.spec.covariance, *meat, clusters, lag);
     return out;
 }
 

@@ -1,5 +1,5 @@
 // Fixed versus random effects (Hausman 1978; Mundlak 1978 auxiliary regression,
-// Wooldridge 2010 section 10.7.3) and the F test that all unit effects are zero.
+// Wooldridge 2010 section 10.7.3) and the F test of within against pooled OLS.
 #include <algorithm>
 #include <cmath>
 #include <string>
@@ -113,19 +113,23 @@ HausmanResult hausman_test(const Fit& within, const Fit& random) {
     r.rank = rank;
     r.positive_definite = positive == static_cast<std::size_t>(q);
     if (rank == 0)
-        throw Error("Hausman test: the within and random covariances are equal (V_within - "
-                    "V_random is zero), so the contrast has no variance; there is nothing to test");
+        throw Error("Hausman test: the within and random fits give the compared slopes the "
+                    "same covariance, so their difference has no variance to test against");
     r.statistic = h;
     r.df = static_cast<double>(rank);
     r.p = h > 0 ? chi2_upper(h, r.df) : 1.0;
     if (rank < static_cast<std::size_t>(q))
-        r.warnings.push_back("V_within - V_random has rank " + std::to_string(rank) + " of " +
-                             std::to_string(q) + "; a generalised inverse is used and df = rank");
+        r.warnings.push_back("the classical comparison can test only " + std::to_string(rank) +
+                             " independent combinations of the " + std::to_string(q) +
+                             " slope differences (the others have no variance), so its df is " +
+                             std::to_string(rank) + "; the robust rows do not depend on this: read "
+                             "them as well");
     if (!r.positive_definite)
-        r.warnings.push_back("V_within - V_random is not positive definite (" +
-                             std::to_string(positive) + " of " + std::to_string(q) +
-                             " eigenvalues positive); the statistic is reported as computed and "
-                             "may be negative: use the robust (auxiliary-regression) form");
+        r.warnings.push_back("do not read the classical statistic here: in " +
+                             std::to_string(q - positive) + " of " + std::to_string(q) +
+                             " directions the within estimates are not less precise than the random "
+                             "ones, so the statistic can be too small or negative; read the robust "
+                             "rows instead");
 
     // Mundlak: the unit mean of a quasi-demeaned column x - theta_i xbar_i over the unit's
     // rows is (1 - theta_i) xbar_i, so the added columns come from the random equation

@@ -593,7 +593,7 @@ static void test_pooled(const grunfeld *g)
     NEAR(value_of(m, "units", NULL), 10, "P sample.n_units");
     NEAR(value_of(m, "periods", NULL), 20, "P sample.n_periods");
     NEAR(value_of(m, "rows-dropped", NULL), 0, "P sample.n_rows_dropped_missing");
-    CHECK(isnan(value_of(m, "r2-within", NULL)));   /* does not apply to pooled */
+    CHECK(isnan(value_of(m, "corr2-deviations", NULL)));   /* does not apply to pooled */
     CHECK(isnan(value_of(m, "clusters", NULL)));    /* classical: no clusters */
     EXPECT_ERROR(weft_model_value(m, "wibble", NULL, &v), WEFT_EMODEL, "\"wibble\" is not a value");
     CHECK(isnan(v));
@@ -619,7 +619,8 @@ static void test_pooled(const grunfeld *g)
     NEAR(item.number, 94.408403332255, "P results.sigma");
     CHECK(summary_find(m, "F on all slopes", &item) > 0);
     NEAR(item.number, 426.575731304813, "P results.f_all_terms.F");
-    CHECK(summary_find(m, "R-squared within", &item) == -1); /* pooled: left out */
+    CHECK(summary_find(m, "squared correlation of outcome and slope prediction, unit means", &item) ==
+          -1); /* pooled: left out */
     CHECK(summary_find(m, "clusters", &item) == -1);
     EXPECT_ERROR(weft_model_summary_item(m, n, &item), WEFT_ERANGE, "past the last summary item");
     EXPECT_ERROR(weft_model_summary_item(m, 0, NULL), WEFT_EINVAL, "out is NULL");
@@ -914,8 +915,9 @@ static void test_within_random(const grunfeld *g)
     m = fit_text(p, "within");
     check_table(m, slopes, w_coef, w_se, 2, "R within.coef / within.se.classical");
     CHECK(term_index(m, "intercept") == (size_t)-1);
-    NEAR(value_of(m, "r2-within", NULL), 0.76675758374814, "R within.r2");
-    CHECK(summary_find(m, "R-squared within", &item) > 0);
+    NEAR(value_of(m, "corr2-deviations", NULL), 0.76675758374814, "R within.r2");
+    CHECK(summary_find(m, "squared correlation of outcome and slope prediction, deviations from unit means",
+                       &item) > 0);
     NEAR(item.number, 0.76675758374814, "R within.r2");
     OK(weft_test_serial(m, &s));
     NEAR(s.slope, 0.665620467598169, "R within_serial.slope");

@@ -428,7 +428,7 @@ class Runner:
         rel, abs_tol = expect.get("rel", 1e-9), expect.get("abs", 0.0)
         if fn == "estimates":
             header = [v for v, _ in block[0]]
-            if header[:2] != ["term", "estimate"]:
+            if header[:2] != ["term", "coefficient"]:
                 p.append("unexpected header %r" % header)
             table, dropped_rows = {}, {}
             for row in block[1:]:

@@ -46,6 +46,9 @@ SE_KEYS = [("classical", "classical"), ("hc0", "HC0"), ("hc1", "HC1"), ("hc2", "
            ("cluster-period", "CR1_period"), ("cluster-both", "CR1_both"), ("dk", "DK")]
 
 # Which wald_subset F entry carries the model's inference df for each key.
+# The fit measures of within and random (WEFT.SUMMARY): this prefix, then what is
+# correlated ("all rows", "unit means", "deviations from unit means").
+FIT_LABEL = "squared correlation of outcome and slope prediction, "
 F_DF_ENTRY = {"classical": "F_df_resid", "HC0": "F_df_resid", "HC1": "F_df_resid",
               "HC1_lsdv": "F_df_resid", "HC2": "F_df_resid", "HC3": "F_df_resid",
               "CR0": "F_df_G_minus_1", "CR1": "F_df_G_minus_1",
@@ -283,8 +286,9 @@ class ReferenceTests(unittest.TestCase):
             res, inf = ref["results"], ref["results"]["inference"][key]
             rows = block.values()
             m.equal(f"{case} {word} header", rows[0],
-                    ["term", "estimate", "std error", "t", "p-value", "ci low", "ci high"],
-                    "FUNCTIONS.md (WEFT.ESTIMATES layout)")
+                    ["term", "coefficient", "standard error", "t ratio", "two-sided p",
+                     "95% interval from", "95% interval to"],
+                    "FUNCTIONS.md (WEFT.ESTIMATES layout, level 0.95)")
             got_terms = [r[0] for r in rows[1:]]
             want_terms = [term_name(t) for t in ref["regressors_estimated"]]
             m.equal(f"{case} {word} terms", got_terms, want_terms,
@@ -297,9 +301,9 @@ class ReferenceTests(unittest.TestCase):
                 m.number(what + " se", r[2], res["se"][key][t], f"{src}.se.{key}.{t}", tol)
                 m.number(what + " t", r[3], inf["t"][t], f"{src}.inference.{key}.t.{t}", tol)
                 m.number(what + " p", r[4], inf["p"][t], f"{src}.inference.{key}.p.{t}", p_tol)
-                m.number(what + " ci low", r[5], inf["ci95_low"][t],
+                m.number(what + " interval from", r[5], inf["ci95_low"][t],
                          f"{src}.inference.{key}.ci95_low.{t}", tol)
-                m.number(what + " ci high", r[6], inf["ci95_high"][t],
+                m.number(what + " interval to", r[6], inf["ci95_high"][t],
                          f"{src}.inference.{key}.ci95_high.{t}", tol)
         m.report(self, 1500)
 
@@ -346,17 +350,14 @@ class ReferenceTests(unittest.TestCase):
                                                                                "r_squared")
             m.number(f"{case} R-squared", got.get("R-squared"), res[r2], src + "results." + r2)
             if method in ("within", "random"):
-                if method == "within":
-                    m.number(f"{case} R-squared within", got.get("R-squared within"),
-                             res["r_squared_within"], src + "results.r_squared_within")
-                else:
-                    m.number(f"{case} R-squared within", got.get("R-squared within"),
-                             res["r_squared_within_corr2"],
-                             src + "results.r_squared_within_corr2")
-                m.number(f"{case} R-squared between", got.get("R-squared between"),
-                         res["r_squared_between_corr2"], src + "results.r_squared_between_corr2")
-                m.number(f"{case} R-squared overall", got.get("R-squared overall"),
-                         res["r_squared_overall_corr2"], src + "results.r_squared_overall_corr2")
+                # plm's within R-squared equals its squared correlation of the
+                # demeaned outcome and slope prediction (an OLS identity).
+                dev = "r_squared_within" if method == "within" else "r_squared_within_corr2"
+                for what, key in [("deviations from unit means", dev),
+                                  ("unit means", "r_squared_between_corr2"),
+                                  ("all rows", "r_squared_overall_corr2")]:
+                    label = FIT_LABEL + what
+                    m.number(f"{case} {label}", got.get(label), res[key], src + "results." + key)
             if method == "random" and ref["period_dummies"]:
                 # weft's F covers every term but the intercept (period indicators
                 # too, as f_all_terms does for pooled); the reference has no such F
@@ -538,9 +539,10 @@ class ReferenceTests(unittest.TestCase):
             m.number(f"{case} statistic", got.get("statistic"), h["statistic"], src + ".statistic")
             m.number(f"{case} df", got.get("df"), h["df"], src + ".df")
             m.number(f"{case} p", got.get("p-value"), h["p"], src + ".p")
-            m.number(f"{case} rank", got.get("rank of variance difference"), h["vdiff_rank"],
+            m.number(f"{case} rank", got.get("rank of the covariance difference"), h["vdiff_rank"],
                      src + ".vdiff_rank")
-            m.equal(f"{case} positive definite", got.get("variance difference positive definite"),
+            m.equal(f"{case} positive definite",
+                    got.get("within less precise than random in every direction"),
                     "yes" if h["vdiff_positive_definite"] else "no",
                     src + ".vdiff_positive_definite")
             asrc = f"{case}:results.hausman_auxiliary.CR1"

@@ -144,7 +144,7 @@ void push(Column &column, const Cell &cell) {
 }
 
 const char *const kWhat[] = {"estimate", "se", "t", "p", "ci-low", "ci-high", "n", "units",
-                             "periods", "r2", "r2-within", "r2-between", "r2-overall", "sigma",
+                             "periods", "r2", "corr2-rows", "corr2-means", "corr2-deviations", "sigma",
                              "df", "f", "f-df1", "f-df2", "f-p", "clusters", "rows-dropped",
                              "bogus", ""};
 constexpr size_t kWhatCount = sizeof(kWhat) / sizeof(kWhat[0]);

@@ -340,7 +340,7 @@ hausman <- function(periods) {
        aux_f = w$F, aux_df1 = w$df1, aux_df2 = w$df2, aux_p = w$p)
 }
 
-# F test that all unit effects are zero: within against pooled OLS with an intercept and
+# Do the units differ in level? F test of within against pooled OLS with an intercept and
 # the same regressors and period indicators on the same rows.
 effects_f <- function(eq, fit, periods) {
   ep <- build_equation("pooled", periods)

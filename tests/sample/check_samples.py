@@ -175,6 +175,42 @@ def check_event_workbook(doc, key):
     check(any("Why the two-way regression differs" in t for t in reading), f"{key}: the reading explains the two-way result")
 
 
+def independent_within_fit(sc, rows):
+    """The three squared correlations of outcome and slope prediction of the within fit
+    with period effects, from their definitions: OLS of the unit-demeaned outcome on
+    the unit-demeaned regressors and period indicators (all periods but the first), by
+    numpy lstsq; the slope prediction is the levels of those columns times the slopes
+    (leaving out a different period moves it by a constant, which no correlation
+    sees). Returns {"all rows", "unit means", "deviations from unit means"}."""
+    import numpy as np
+    cols = sc["columns"]
+    iu, it, iy = cols.index(sc["unit"]), cols.index(sc["period"]), cols.index(sc["outcome"])
+    ix = [cols.index(x) for x in sc["regressors"]]
+    grid = sorted({r[it] for r in rows})
+    X = np.array([[r[c] for c in ix] + [1.0 if r[it] == t else 0.0 for t in grid[1:]]
+                  for r in rows])
+    y = np.array([r[iy] for r in rows])
+    units = np.array([r[iu] for r in rows])
+
+    def unit_means(v):
+        out = np.empty_like(v)
+        for u in set(units.tolist()):
+            out[units == u] = v[units == u].mean(axis=0)
+        return out
+
+    b, *_ = np.linalg.lstsq(X - unit_means(X), y - unit_means(y), rcond=None)
+    xb = X @ b
+
+    def corr2(a, c):
+        return float(np.corrcoef(a, c)[0, 1] ** 2)
+
+    first = {u: i for i, u in reversed(list(enumerate(units.tolist())))}
+    one = sorted(first.values())
+    return {"all rows": corr2(y, xb),
+            "unit means": corr2(unit_means(y)[one], unit_means(xb)[one]),
+            "deviations from unit means": corr2(y - unit_means(y), xb - unit_means(xb))}
+
+
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("workbook")
@@ -219,8 +255,9 @@ def main():
                        + ("" if not bad else "\n      " + "\n      ".join(bad[:20])))
 
         est = named_block(doc, "fd_estimates")
-        check(list(est[0]) == ["term", "estimate", "std error", "t", "p-value", "ci low",
-                               "ci high"], f"{key}: fd_estimates has the estimates header")
+        check(list(est[0]) == ["term", "coefficient", "standard error", "t ratio",
+                               "two-sided p", "95% interval from", "95% interval to"],
+              f"{key}: fd_estimates has the estimates header (level 0.95)")
         table = {row[0]: row for row in est[1:]}
         n_period_terms = len({r[sc["columns"].index(sc["period"])] for r in rows}) - 2
         check(len(est) == 1 + 1 + len(sc["regressors"]) + n_period_terms,
@@ -246,6 +283,15 @@ def main():
                   f"{key}: true {term} = {true} lies in the fd 95% interval [{lo}, {hi}]")
             check(abs(b - reference[term]) <= 1e-9 * max(1.0, abs(reference[term])),
                   f"{key}: fd estimate of {term} {b} equals numpy lstsq {reference[term]}")
+        # The fit measures are what their labels say (independent numpy computation).
+        measures = {r[0]: r[1] for r in named_block(doc, "fit_measures")}
+        for words, want in independent_within_fit(sc, rows).items():
+            got = measures.get(f"within: {words}")
+            check(isinstance(got, float) and abs(got - want) <= 1e-9 * max(1.0, abs(want)),
+                  f"{key}: within {words}: squared correlation {got} equals numpy's {want}")
+        check(all(isinstance(v, float) and 0 <= v <= 1 for k_, v in measures.items()
+                  if k_.startswith("random")),
+              f"{key}: random effects' squared correlations lie in [0, 1]")
         n_used = [r for r in named_block(doc, "panel_structure") if r[0] == "rows"]
         check(bool(n_used) and n_used[0][1] == len(rows),
               f"{key}: WEFT.PANEL counts the {len(rows)} data rows")

@@ -1,0 +1,108 @@
+// The stages of a fit (ARCHITECTURE.md "The fit as stages"), internal to weft_core.
+//
+//   choose rows          fit_rows.cpp       choose_rows, equation_row_order, fd_pairs
+//   form the equation    fit_equations.cpp  form_equation: one builder per estimator
+//   accumulate + solve   solver.cpp         full route: solve_equation (Gram or TSQR)
+//                        lean.cpp           streaming route: lean_equation (blocks)
+//   scores and meats     covariance.cpp     compute_covariance (full), the lean score
+//                                           pass (lean.cpp); both end in covariance_from_meat
+//   inference, fit stats fit_inference.cpp  term_inference, fit_statistics, aligned_series
+//
+// model.cpp runs them in order (fit_model, fit_model_lean). A new capability is a new
+// stage or a new implementation of one, not a branch inside another.
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "weft/model.hpp"
+#include "internal.hpp"
+
+namespace weft::detail {
+
+// ---- choose rows
+// The rows a fit uses: listwise (a missing outcome, regressor, unit or period drops the
+// row). Fills fit.rows_input, rows_used, rows_dropped, n_units, n_periods; throws for
+// no usable rows (naming a column that is missing everywhere).
+struct RowChoice {
+    std::vector<std::uint8_t> used;    // per input row
+    std::size_t rows_used = 0;
+};
+
+// Checks the columns (lean: shapes only; the streaming route checks values as it reads)
+// and the level.
+void check_inputs(const PanelData& data, const ModelSpec& spec, bool lean);
+RowChoice choose_rows(const PanelData& data, const PanelIndex& index, Fit& fit);
+
+// What the stages after row choice read.
+struct Context {
+    const PanelData& data;
+    const ModelSpec& spec;
+    const PanelIndex& index;
+    const std::vector<std::uint8_t>& used;        // per input row
+    std::vector<std::string> regressor_names;     // header, or x<k>
+    std::size_t k_reg = 0;
+};
+Context make_context(const PanelData& data, const ModelSpec& spec, const PanelIndex& index,
+                     const std::vector<std::uint8_t>& used);
+
+// The used rows in unit-period order (the equation rows of pooled, within, random; the
+// rows averaged by between).
+std::vector<std::size_t> used_rows_in_order(const Context& ctx);
+
+// Per-unit ranges inside a list of rows in unit order.
+struct UnitRuns {
+    std::vector<std::size_t> begin;   // per run
+    std::vector<std::size_t> end;
+    std::vector<std::int32_t> unit;
+};
+UnitRuns unit_runs(const PanelIndex& index, const std::vector<std::size_t>& rows);
+
+// The differences of fd: per unit, consecutive used rows in adjacent grid periods
+// (later row, earlier row); consecutive used rows with a grid period between them are
+// counted in pairs_lost_to_gaps.
+void fd_pairs(const Context& ctx, std::vector<std::size_t>& later, std::vector<std::size_t>& earlier,
+              std::size_t& pairs_lost_to_gaps);
+
+// ---- form the equation
+// What an estimator's builder hands to the solver, plus what it dropped itself.
+struct Design {
+    EquationInput input;
+    std::vector<DroppedTerm> dropped;
+    std::size_t pairs_lost = 0;        // fd: differences not formed because of a gap
+};
+
+// The estimated equation of ctx.spec.estimator over `rows` (used rows in unit order,
+// with their runs). random also sets fit.random_effects and may add warnings.
+Design form_equation(const Context& ctx, const std::vector<std::size_t>& rows, const UnitRuns& runs, Fit& fit);
+
+// ---- the streaming route's rows (lean.cpp reads them)
+// The equation rows of a lean fit, as LeanInput wants them; the LeanInput itself points
+// into this object. Empty (count 0) when there are none.
+struct LeanRows {
+    std::vector<std::uint8_t> is_row;
+    std::vector<std::size_t> later, earlier;
+    std::size_t count = 0, units = 0, periods = 0, pairs_lost = 0;
+    bool sorted = false;
+};
+LeanRows lean_rows(const Context& ctx);
+
+// ---- inference and fit statistics
+// Per-term se, t, p and intervals from fit.covariance at fit.spec.level (df from the
+// covariance), and the exact-fit rule (every residual 0 to rounding: se 0, t and p NaN).
+void term_inference(Fit& fit, const OutcomeSums& ysums);
+// tss, R-squared, adjusted R-squared, the classical F on all slopes.
+void fit_statistics(Fit& fit, const OutcomeSums& ysums);
+// within, random: R-squared variants from the slopes at levels; within: unit effects.
+void level_statistics(const Context& ctx, const std::vector<std::size_t>& rows, const UnitRuns& runs, Fit& fit);
+// Residuals and fitted values aligned to the input rows (between: every used row of a
+// unit carries the unit's value).
+void aligned_series(const std::vector<std::size_t>& rows, const UnitRuns& runs, std::size_t n_rows, Fit& fit);
+
+// "period <value>" for a grid position.
+std::string period_term(const PanelIndex& index, std::int32_t position);
+
+}  // namespace weft::detail
