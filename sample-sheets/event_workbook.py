@@ -208,14 +208,6 @@ def event_workbook(sc):
     lines = reading(sc, did_cols, event_rows)
 
     # ------------------------------------------------------------ Overview sheet
-    ov = g.Sheet("Overview", [4.0, 13.5])
-    ov.text(0, 0, sc["title"], "title")
-    ov.text(1, 0, sc["organisation"], "note")
-    ov.text(3, 0, "Scenario", "section")
-    for i, p in enumerate(sc["story"]):
-        ov.text(3 + i, 1, p, "wrap")
-    r = 3 + len(sc["story"]) + 1
-    ov.text(r, 0, "What is where", "section")
     where = [
         ("Data", f"{len(rows)} rows, one per branch and year; on the right, helper columns: "
                  "the branch's first kiosk year and the event time (years since installation), "
@@ -228,10 +220,7 @@ def event_workbook(sc):
         ("Analysis 4", "the three event studies side by side with the true effects, and the "
                        "chart"),
     ]
-    for i, (a, b) in enumerate(where):
-        ov.text(r + 1 + i, 0, a, "head")
-        ov.text(r + 1 + i, 1, b, "wrap")
-    r += 1 + len(where) + 1
+    ov, r = g.overview_start(sc, where)
     ov.text(r, 0, "Columns of the data", "section")
     for i, (c, m) in enumerate(zip(sc["columns"], sc["units_of_measure"])):
         ov.text(r + 1 + i, 0, c, "head")
@@ -245,13 +234,6 @@ def event_workbook(sc):
     ov.number(r + 4, 1, round(true_overall(sc), 6), "truth")
     named.append(("true_overall", "$Overview.$A$1", g.abs_range("Overview", 0, r + 4, 2, 1)))
     r += 6
-    ov.text(r, 0, "Reading the results", "section")
-    for i, f in enumerate(lines):
-        ov.text(r + 1 + i, 0, "-", None)
-        ov.formula(r + 1 + i, 1, f[1:], "wrap")
-    named.append(("reading", "$Overview.$A$1", g.abs_range("Overview", 1, r + 1, 1, len(lines))))
-    r += 1 + len(lines) + 1
-    ov.text(r, 0, "Cautions", "section")
     cautions = [
         "The estimates rest on parallel trends: without kiosks, branches that installed them "
         "would have changed like the comparison branches. The pre-treatment test can reveal "
@@ -259,11 +241,7 @@ def event_workbook(sc):
         "Have results reviewed before they inform decisions, and follow your organisation's "
         "review practice.",
     ]
-    for i, t in enumerate(cautions):
-        ov.text(r + 1 + i, 0, "-", None)
-        ov.text(r + 1 + i, 1, t, "wrap")
-    ov.text(r + 1 + len(cautions) + 1, 0, "Needs the weft add-in for LibreOffice Calc (README.md).", "note")
-    ov.formula(r + 1 + len(cautions) + 2, 0, call("VERSION"), None)
+    g.overview_end(ov, r, lines, cautions, named)
     return g.document(sc["title"], [ov, data, an], named)
 
 

@@ -31,23 +31,6 @@ bool controls_given(const Arg& controls) {
     return !(c.is_blank() || (c.is_number() && c.number == 0.0));
 }
 
-// The design text: the words of every non-blank cell.
-std::string design_text(const Arg& design) {
-    if (!design.given) return "";
-    std::string text;
-    for (const Cell& c : design.table.cells) {
-        if (c.is_blank()) continue;
-        if (c.is_number()) {
-            if (c.number == 0.0 && design.is_scalar()) continue;
-            throw UserError("design is the number " + std::to_string(c.number) +
-                            "; give the design as text, e.g. \"group-time not-yet after=4\"");
-        }
-        if (!text.empty()) text += ' ';
-        text += c.text;
-    }
-    return text;
-}
-
 // The treatment column below the header: numbers as given, blanks missing, text refused.
 void read_treatment(const CellGrid& t, const PanelRead& p, std::vector<double>& values,
                     std::vector<unsigned char>& missing) {
@@ -82,7 +65,7 @@ EventPtr estimate(const EventRanges& in, const Arg& controls, const Arg& design)
     std::vector<unsigned char> missing;
     read_treatment(in.treatment, panel, treatment, missing);
     weft_event* raw = nullptr;
-    const std::string text = design_text(design);
+    const std::string text = words_text(design, "design", "\"group-time not-yet after=4\"");
     check(weft_event_new(&raw, panel.panel.get(), treatment.data(), missing.data(), text.c_str()));
     return EventPtr(raw);
 }

@@ -311,21 +311,7 @@ PanelPtr make_panel(const PanelInput& in) {
 
 // The model text: omitted, a blank reference (which Calc passes as 0) or "" give
 // the defaults; a range of words is read as the words of its cells.
-std::string model_text(const Arg& model) {
-    if (!model.given) return "";
-    std::string text;
-    for (const Cell& c : model.table.cells) {
-        if (c.is_blank()) continue;
-        if (c.is_number()) {
-            if (c.number == 0.0 && model.is_scalar()) continue;
-            fail("model is the number " + format_number(c.number) +
-                 "; give the model as text, e.g. \"within cluster\"");
-        }
-        if (!text.empty()) text += ' ';
-        text += c.text;
-    }
-    return text;
-}
+std::string model_text(const Arg& model) { return words_text(model, "model", "\"within cluster\""); }
 
 // ------------------------------------------------------------------ the cache
 
@@ -1235,6 +1221,25 @@ PanelRead read_panel_ranges(const PanelRanges& in, bool regressors_optional) {
     out.first_row = p.first_row;
     out.hash = p.hash;
     return out;
+}
+
+// The words of an argument of words (the model text, the event functions' design):
+// omitted, a blank reference (which Calc passes as 0) or "" give the defaults; a range
+// of words is read as the words of its cells; a number is refused, naming `what`.
+std::string words_text(const Arg& words, const char* what, const char* example) {
+    if (!words.given) return "";
+    std::string text;
+    for (const Cell& c : words.table.cells) {
+        if (c.is_blank()) continue;
+        if (c.is_number()) {
+            if (c.number == 0.0 && words.is_scalar()) continue;
+            throw UserError(std::string(what) + " is the number " + format_number(c.number) + "; give the " +
+                            what + " as text, e.g. " + example);
+        }
+        if (!text.empty()) text += ' ';
+        text += c.text;
+    }
+    return text;
 }
 
 }  // namespace weft_addin

@@ -109,6 +109,11 @@ struct PanelRead {
 };
 PanelRead read_panel_ranges(const PanelRanges& in, bool regressors_optional);
 
+// The words of a words argument (model text, design): omitted, blank or a 0 from a
+// blank reference give ""; a range gives the words of its cells; a number is refused
+// with a message naming `what` and showing `example`.
+std::string words_text(const Arg& words, const char* what, const char* example);
+
 // When the environment variable WEFT_ADDIN_LOG names a file, every model fit
 // and every cache hit appends one line to it ("fit <hash>" / "hit <hash>"), so a
 // test can count fits, and every call its conversion time ("convert <ms> <rows>");

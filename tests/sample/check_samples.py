@@ -211,6 +211,22 @@ def independent_within_fit(sc, rows):
             "deviations from unit means": corr2(y - unit_means(y), xb - unit_means(xb))}
 
 
+def open_recalculated(office, path, key, dump):
+    """The workbook loaded and recalculated, its named blocks printed with dump, and
+    the check that no cell shows an error value or a weft: message."""
+    doc = office.load_copy(path)
+    doc.calculateAll()
+    if dump:
+        for name in doc.NamedRanges.getElementNames():
+            print(f"--- {name}")
+            for row in named_block(doc, name):
+                print("   ", row)
+    bad = error_cells(doc)
+    check(not bad, f"{key}: no cell shows an error value or a weft: message"
+                   + ("" if not bad else "\n      " + "\n      ".join(bad[:20])))
+    return doc
+
+
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("workbook")
@@ -222,16 +238,7 @@ def main():
     key = os.path.splitext(os.path.basename(args.workbook))[0]
     if key == event_workbook.EVENT["key"]:
         with Office(extensions=[args.oxt], timeout=240) as office:
-            doc = office.load_copy(args.workbook)
-            doc.calculateAll()
-            if args.dump:
-                for name in doc.NamedRanges.getElementNames():
-                    print(f"--- {name}")
-                    for row in named_block(doc, name):
-                        print("   ", row)
-            bad = error_cells(doc)
-            check(not bad, f"{key}: no cell shows an error value or a weft: message"
-                           + ("" if not bad else "\n      " + "\n      ".join(bad[:20])))
+            doc = open_recalculated(office, args.workbook, key, args.dump)
             check_event_workbook(doc, key)
             doc.close(True)
         print(f"{len(failures)} failed" if failures else "all checks passed")
@@ -242,17 +249,7 @@ def main():
     rows = sc["make"](sc["seed"])
 
     with Office(extensions=[args.oxt], timeout=240) as office:
-        doc = office.load_copy(args.workbook)
-        doc.calculateAll()
-        if args.dump:
-            for name in doc.NamedRanges.getElementNames():
-                print(f"--- {name}")
-                for row in named_block(doc, name):
-                    print("   ", row)
-
-        bad = error_cells(doc)
-        check(not bad, f"{key}: no cell shows an error value or a weft: message"
-                       + ("" if not bad else "\n      " + "\n      ".join(bad[:20])))
+        doc = open_recalculated(office, args.workbook, key, args.dump)
 
         est = named_block(doc, "fd_estimates")
         check(list(est[0]) == ["term", "coefficient", "standard error", "t ratio",
