@@ -111,26 +111,7 @@ def event_workbook(sc):
         return g.ADDIN + method + "(" + ";".join(a) + ")"
 
     named = []
-    # ---------------------------------------------------------------- Data sheet
-    data = g.Sheet(D, [3.0, 1.6, 3.2, 1.4, 0.4, 2.6, 2.2, 3.0])
-    for c, name in enumerate(sc["columns"]):
-        data.text(0, c, name, "head")
-    for r, row in enumerate(rows, start=1):
-        for c, v in enumerate(row):
-            (data.text if isinstance(v, str) else data.number)(r, c, v)
-    # helper columns: the branch's first kiosk year (its cohort), event time, yearly change
-    data.text(0, 5, "kiosk_from", "head")
-    data.text(0, 6, "event_time", "head")
-    last = sc["last_year"]
-    units, kiosk = g.rng(None, 0, 1, 1, n_rows - 1), g.rng(None, 3, 1, 1, n_rows - 1)
-    for r in range(1, n_rows):
-        count = f"COUNTIFS({units};{g.addr(0, r)};{kiosk};1)"
-        # treatment stays 1 once it starts and every branch has every year, so the first
-        # kiosk year is the last year + 1 minus the number of kiosk years
-        data.formula(r, 5, f'IF({count}=0;"never";{last + 1}-{count})')
-        data.formula(r, 6, f'IF(ISNUMBER({g.addr(5, r)});{g.addr(1, r)}-{g.addr(5, r)};"")')
-    data.formula(0, 7, call("DIFF", g.rng(None, 2, 0, 1, n_rows), g.rng(None, 0, 0, 1, n_rows),
-                            g.rng(None, 1, 0, 1, n_rows)), "num3", rows=n_rows, cols=1)
+    data = data_sheet(sc, rows, call)
 
     # ------------------------------------------------------------ Analysis sheet
     an = g.Sheet(A, [4.6, 2.4, 2.4, 2.4, 2.4, 2.4, 2.4, 2.4, 0.5, 5.2, 3.0, 5.2, 3.0], page="landscape")
@@ -206,8 +187,41 @@ def event_workbook(sc):
         "true effects", "change in loans per resident", (-1.0, round(top + 1.5))))
 
     lines = reading(sc, did_cols, event_rows)
+    ov = overview_sheet(sc, rows, lines, named)
+    return g.document(sc["title"], [ov, data, an], named)
 
-    # ------------------------------------------------------------ Overview sheet
+
+def data_sheet(sc, rows, call):
+    """The Data sheet: the panel, then helper columns: the first kiosk year, the event
+    time and the yearly change (=WEFT.DIFF)."""
+    n_rows = len(rows) + 1
+    D = "Data"
+    data = g.Sheet(D, [3.0, 1.6, 3.2, 1.4, 0.4, 2.6, 2.2, 3.0])
+    for c, name in enumerate(sc["columns"]):
+        data.text(0, c, name, "head")
+    for r, row in enumerate(rows, start=1):
+        for c, v in enumerate(row):
+            (data.text if isinstance(v, str) else data.number)(r, c, v)
+    # helper columns: the branch's first kiosk year (its cohort), event time, yearly change
+    data.text(0, 5, "kiosk_from", "head")
+    data.text(0, 6, "event_time", "head")
+    last = sc["last_year"]
+    units, kiosk = g.rng(None, 0, 1, 1, n_rows - 1), g.rng(None, 3, 1, 1, n_rows - 1)
+    for r in range(1, n_rows):
+        count = f"COUNTIFS({units};{g.addr(0, r)};{kiosk};1)"
+        # treatment stays 1 once it starts and every branch has every year, so the first
+        # kiosk year is the last year + 1 minus the number of kiosk years
+        data.formula(r, 5, f'IF({count}=0;"never";{last + 1}-{count})')
+        data.formula(r, 6, f'IF(ISNUMBER({g.addr(5, r)});{g.addr(1, r)}-{g.addr(5, r)};"")')
+    data.formula(0, 7, call("DIFF", g.rng(None, 2, 0, 1, n_rows), g.rng(None, 0, 0, 1, n_rows),
+                            g.rng(None, 1, 0, 1, n_rows)), "num3", rows=n_rows, cols=1)
+
+    return data
+
+
+def overview_sheet(sc, rows, lines, named):
+    """The Overview sheet: scenario, what is where, columns, true effects, the reading
+    and the cautions."""
     where = [
         ("Data", f"{len(rows)} rows, one per branch and year; on the right, helper columns: "
                  "the branch's first kiosk year and the event time (years since installation), "
@@ -242,7 +256,7 @@ def event_workbook(sc):
         "review practice.",
     ]
     g.overview_end(ov, r, lines, cautions, named)
-    return g.document(sc["title"], [ov, data, an], named)
+    return ov
 
 
 def reading(sc, did_cols, event_rows):
