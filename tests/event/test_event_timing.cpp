@@ -2,6 +2,7 @@
 // unit or word (FUNCTIONS.md, CONVENTIONS.md "Difference in differences"); documented
 // handling of units treated from their first observed period and of missing cells.
 // Expected texts are weft's own contract (the messages are the specification here).
+#include <cmath>
 #include <string>
 
 #include "event_support.hpp"
@@ -126,4 +127,12 @@ TEST_CASE("a cohort without a base period under anticipation is left out with a 
     REQUIRE(r.cohorts.size() == 2);
     CHECK_FALSE(r.cohorts[0].effect.estimated);
     CHECK(r.cohorts[1].effect.estimated);
+}
+
+TEST_CASE("a non-finite treatment not marked missing names the row", "[event][timing]") {
+    event_test::SimPanel p = small_panel();
+    p.d[2] = NAN;
+    const std::string m = message_of(event_test::to_data(p, false));
+    INFO(m);
+    CHECK(contains(m, "d in row 4 is not a finite number"));
 }
