@@ -37,6 +37,13 @@ oracle_packages=(
   r-cran-jsonlite      # bench and tests/event: compare_reference.R and event_reference.R write JSON
 )
 
+# --- python: the weft Python package (cabi/python) and its tests (label python)
+python_packages=(
+  python3-pandas       # the package's frames and results
+  python3-pip          # python.install: pip install of cabi/python from the source tree
+  python3-setuptools   # its build backend, used offline (--no-build-isolation)
+)
+
 # --- tools: sanitizers, fuzzing, memory checks, benchmarks, the demo's PDF text dump
 tool_packages=(
   valgrind
@@ -47,7 +54,7 @@ tool_packages=(
   time                 # bench: /usr/bin/time -f %M for the reference libraries' peak memory
 )
 
-all_packages=("${build_packages[@]}" "${office_packages[@]}" "${oracle_packages[@]}" "${tool_packages[@]}")
+all_packages=("${build_packages[@]}" "${office_packages[@]}" "${oracle_packages[@]}" "${python_packages[@]}" "${tool_packages[@]}")
 
 missing=()
 for pkg in "${all_packages[@]}"; do
