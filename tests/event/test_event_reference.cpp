@@ -26,6 +26,8 @@ void compare(const weft::EventResult& w, const nlohmann::json& ref, const std::s
     // every event time R estimates, weft estimates with the same numbers, and no other
     std::map<int, const nlohmann::json*> by_e;
     for (const auto& row : ref["event"]) by_e[row["e"].get<int>()] = &row;
+    REQUIRE(by_e.size() >= 3);  // the oracle produced event-time effects to compare
+    REQUIRE(ref["cohorts"].size() >= 2);
     std::size_t estimated = 0;
     for (const weft::EventTimeEffect& row : w.event_times) {
         if (!row.effect.estimated) continue;
