@@ -46,6 +46,19 @@ const ArgumentText fit_arg{
     "fit", "The cell that holds =WEFT.FIT(...): the fitted model, so the ranges are not read or "
            "fitted again."};
 
+std::vector<ArgumentText> event_args() {
+    return {{"outcome", "One column: the outcome of each row. If its first cell is text, row 1 of the ranges is a "
+                        "header row."},
+            {"treatment", "One column of 0 and 1: 1 from a unit's first treated period on, 0 before; never-treated "
+                          "units are 0 throughout."},
+            units_arg,
+            periods_arg,
+            {"controls", "Optional: one or more adjacent columns of covariates (group-time reads them at the base "
+                         "period)."},
+            {"design", "Optional words, e.g. \"not-yet after=4\": group-time (default), imputation or twfe; never "
+                       "(default) or not-yet; anticipation=K; before=L; after=M; level=0.90."}};
+}
+
 std::vector<ArgumentText> panel_args() {
     return {outcome_arg, regressors_arg, units_arg, periods_arg, model_arg};
 }
@@ -175,6 +188,15 @@ std::vector<FunctionText> make_texts() {
                  "WEFT.EFFECTS on a fit cell's data: do the units differ in level? F test of within "
                  "against pooled OLS: F, df1, df2, p-value.",
                  {fit_arg}});
+    t.push_back({"event", "WEFT.EVENT",
+                 "Event study under staggered adoption: a header row, then one row per event time from "
+                 "-before to after: event time, estimate, std error, t, p-value, interval low and high, "
+                 "treated units.",
+                 event_args()});
+    t.push_back({"did", "WEFT.DID",
+                 "Difference in differences under staggered adoption: label and value rows with the "
+                 "average effect on the treated, each cohort's average and the pre-treatment test.",
+                 event_args()});
     return t;
 }
 

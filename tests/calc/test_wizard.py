@@ -53,12 +53,15 @@ CONTRACT = {
     "WEFT.FIT.RESIDUALS": ["fit"], "WEFT.FIT.FITTED": ["fit"],
     "WEFT.FIT.JOINT": ["fit", "terms"], "WEFT.FIT.HETERO": ["fit", "form"],
     "WEFT.FIT.SERIAL": ["fit"], "WEFT.FIT.HAUSMAN": ["fit"], "WEFT.FIT.EFFECTS": ["fit"],
+    # Policy evaluation (FUNCTIONS.md)
+    "WEFT.EVENT": ["outcome", "treatment", "units", "periods", "controls", "design"],
+    "WEFT.DID": ["outcome", "treatment", "units", "periods", "controls", "design"],
 }
 # Calc marks every argument of type `any` optional: FUNCTIONS.md's [optional] ones,
 # and VALUE's what, an `any` so that a missing one gets a weft: message.
 # The fit argument is an `any` too (a cell's text), so Calc marks it optional; a
 # missing one gets a weft: message.
-OPTIONAL = {"model", "term", "terms", "form", "k", "omit_first", "what", "fit"}
+OPTIONAL = {"model", "term", "terms", "form", "k", "omit_first", "what", "fit", "controls", "design"}
 ADDIN_CATEGORY = 11  # Calc's ID_FUNCTION_GRP_ADDINS ("Add-In")
 
 
