@@ -455,6 +455,44 @@ def document(title, sheets, named_ranges):
 
 # ================================================================= the workbook
 
+def overview_start(sc, where):
+    """The Overview sheet's title, scenario and "what is where" rows; returns the sheet
+    and its next free row."""
+    ov = Sheet("Overview", [4.0, 13.5])
+    ov.text(0, 0, sc["title"], "title")
+    ov.text(1, 0, sc["organisation"], "note")
+    ov.text(3, 0, "Scenario", "section")
+    for i, p in enumerate(sc["story"]):
+        ov.text(3 + i, 1, p, "wrap")
+    r = 3 + len(sc["story"]) + 1
+    ov.text(r, 0, "What is where", "section")
+    for i, (a, b) in enumerate(where):
+        ov.text(r + 1 + i, 0, a, "head")
+        ov.text(r + 1 + i, 1, b, "wrap")
+    return ov, r + 1 + len(where) + 1
+
+
+def overview_end(ov, r, lines, cautions, named):
+    """The reading (sentences written by formulas, named range "reading"), the cautions
+    and the versions line, from row r on."""
+    ov.text(r, 0, "Reading the results", "section")
+    for i, f in enumerate(lines):
+        ov.text(r + 1 + i, 0, "-", None)
+        if f.startswith("="):
+            ov.formula(r + 1 + i, 1, f[1:], "wrap")
+        else:
+            ov.text(r + 1 + i, 1, f, "wrap")
+    named.append(("reading", "$Overview.$A$1", abs_range("Overview", 1, r + 1, 1, len(lines))))
+    r = r + 1 + len(lines) + 1
+    ov.text(r, 0, "Cautions", "section")
+    for i, t in enumerate(cautions):
+        ov.text(r + 1 + i, 0, "-", None)
+        ov.text(r + 1 + i, 1, t, "wrap")
+    ov.text(r + 1 + len(cautions) + 1, 0,
+            "Needs the weft add-in for LibreOffice Calc (README.md).", "note")
+    ov.formula(r + 1 + len(cautions) + 2, 0, ADDIN + "VERSION()", None)
+
+
 def workbook(key, sc):
     rows = sc["make"](sc["seed"])
     cols = sc["columns"]
@@ -659,14 +697,6 @@ def workbook(key, sc):
     lines = reading(sc, fd_terms_col, fd_rows, joint_row, hetero_row, haus_row)
 
     # ------------------------------------------------------------ Overview sheet
-    ov = Sheet("Overview", [4.0, 13.5])
-    ov.text(0, 0, sc["title"], "title")
-    ov.text(1, 0, sc["organisation"], "note")
-    ov.text(3, 0, "Scenario", "section")
-    for i, p in enumerate(sc["story"]):
-        ov.text(3 + i, 1, p, "wrap")
-    r = 3 + len(sc["story"]) + 1
-    ov.text(r, 0, "What is where", "section")
     where = [
         ("Data", f"{len(rows)} rows, one per {sc['unit']} and {sc['period']}; on the "
                  "right, the differences (=WEFT.DIFF) and the lagged outcome "
@@ -688,10 +718,7 @@ def workbook(key, sc):
         where.append(("Few clusters", "a separate panel of 8 offices: cluster (CR1), cr2 and "
                                       "the wild cluster bootstrap side by side (=WEFT.BOOTSTRAP), "
                                       "and which to trust"))
-    for i, (a, b) in enumerate(where):
-        ov.text(r + 1 + i, 0, a, "head")
-        ov.text(r + 1 + i, 1, b, "wrap")
-    r = r + 1 + len(where) + 1
+    ov, r = overview_start(sc, where)
     ov.text(r, 0, "Columns of the data", "section")
     for i, (c, m) in enumerate(zip(cols, sc["units_of_measure"])):
         ov.text(r + 1 + i, 0, c, "head")
@@ -704,16 +731,6 @@ def workbook(key, sc):
     named.append(("true_parameters", "$Overview.$A$1", abs_range("Overview", 0, r + 1, 2, k)))
     r = r + 1 + k + 1
     # The reading, in words computed by formulas from the Analysis sheet's results
-    ov.text(r, 0, "Reading the results", "section")
-    for i, f in enumerate(lines):
-        ov.text(r + 1 + i, 0, "-", None)
-        if f.startswith("="):
-            ov.formula(r + 1 + i, 1, f[1:], "wrap")
-        else:
-            ov.text(r + 1 + i, 1, f, "wrap")
-    named.append(("reading", "$Overview.$A$1", abs_range("Overview", 1, r + 1, 1, len(lines))))
-    r = r + 1 + len(lines) + 1
-    ov.text(r, 0, "Cautions", "section")
     cautions = [
         "The estimates rest on stated assumptions, above all strict exogeneity: the "
         "regressors are unrelated to the errors of every period, given the unit's fixed "
@@ -722,12 +739,7 @@ def workbook(key, sc):
         "Have results reviewed before they inform decisions, and follow your "
         "organisation's review practice.",
     ]
-    for i, t in enumerate(cautions):
-        ov.text(r + 1 + i, 0, "-", None)
-        ov.text(r + 1 + i, 1, t, "wrap")
-    ov.text(r + 1 + len(cautions) + 1, 0,
-            "Needs the weft add-in for LibreOffice Calc (README.md).", "note")
-    ov.formula(r + 1 + len(cautions) + 2, 0, call("VERSION"), None)
+    overview_end(ov, r, lines, cautions, named)
 
     sheets = [ov, data, an]
     if "few_clusters" in sc:
@@ -889,6 +901,15 @@ def reading(sc, fd_terms_col, fd_rows, joint_row, hetero_row, haus_row):
     return out
 
 
+def all_workbooks():
+    """(file name, function writing the workbook) of every sample workbook: the two
+    above, and the staggered-adoption event study of event_workbook.py."""
+    import event_workbook  # uses this module's writer; imported here to avoid a cycle
+    out = [(key, lambda key=key, sc=sc: workbook(key, sc)) for key, sc in SCENARIOS.items()]
+    out.append((event_workbook.EVENT["key"], lambda: event_workbook.event_workbook(event_workbook.EVENT)))
+    return out
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--check", action="store_true",
@@ -896,8 +917,8 @@ def main():
     ap.add_argument("--out", default=HERE, help="folder to write into (default: here)")
     args = ap.parse_args()
     stale = []
-    for key, sc in SCENARIOS.items():
-        text = workbook(key, sc)
+    for key, make in all_workbooks():
+        text = make()
         path = os.path.join(args.out, key + ".fods")
         if args.check:
             old = open(path, encoding="utf-8").read() if os.path.exists(path) else None

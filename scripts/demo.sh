@@ -5,7 +5,7 @@
 # estimates here. Every step prints one progress line; a failure names the step and
 # its log file.
 #
-#   bash scripts/demo.sh                    the first sample workbook
+#   bash scripts/demo.sh                    the first sample workbook and the event study
 #   bash scripts/demo.sh sample-sheets/clinic-waiting-times.fods
 set -euo pipefail
 
@@ -16,8 +16,15 @@ build_dir=${WEFT_BUILD_DIR:-build}
 out_dir="$repo/out/demo"
 log_dir="$out_dir/logs"
 profile_dir="$out_dir/profile"
-workbook=${1:-sample-sheets/branch-service-costs.fods}
-[[ "$workbook" = /* ]] || workbook="$repo/$workbook"
+if [[ $# -gt 0 ]]; then
+  workbooks=("$1")
+else
+  workbooks=(sample-sheets/branch-service-costs.fods sample-sheets/library-kiosk-rollout.fods)
+fi
+for i in "${!workbooks[@]}"; do
+  [[ "${workbooks[$i]}" = /* ]] || workbooks[$i]="$repo/${workbooks[$i]}"
+done
+workbook=${workbooks[0]}
 mkdir -p "$log_dir"
 
 step_no=0
@@ -39,11 +46,12 @@ step() {
   fi
 }
 
-if [[ ! -f "$workbook" ]]; then
-  echo "demo: workbook '$workbook' not found; the samples are in sample-sheets/*.fods" >&2
-  exit 1
-fi
-name=$(basename "$workbook" .fods)
+for workbook in "${workbooks[@]}"; do
+  if [[ ! -f "$workbook" ]]; then
+    echo "demo: workbook '$workbook' not found; the samples are in sample-sheets/*.fods" >&2
+    exit 1
+  fi
+done
 
 step "install missing Debian packages" "$log_dir/deps.log" bash scripts/deps.sh
 configure_args=(-S . -B "$build_dir" -DCMAKE_BUILD_TYPE=Release -DWEFT_WERROR=ON)
@@ -59,18 +67,30 @@ rm -rf "$profile_dir"
 step "install the add-in into a private profile" "$log_dir/install-addin.log" \
   bash scripts/install-addin.sh --oxt "$oxt" --profile "$profile_dir"
 
-step "recalculate $name headless, write PDF" "$log_dir/recalc.log" \
-  /usr/bin/python3 scripts/demo_sheet.py --oxt "$oxt" --workbook "$workbook" \
-  --ods "$out_dir/$name.ods" --pdf "$out_dir/$name.pdf" --table "$out_dir/$name-estimates.txt"
+for workbook in "${workbooks[@]}"; do
+  name=$(basename "$workbook" .fods)
+  step "recalculate $name headless, write PDF" "$log_dir/recalc-$name.log" \
+    /usr/bin/python3 scripts/demo_sheet.py --oxt "$oxt" --workbook "$workbook" \
+    --ods "$out_dir/$name.ods" --pdf "$out_dir/$name.pdf" --table "$out_dir/$name-estimates.txt"
+done
 
-echo
-echo "Estimates from $(basename "$workbook"): first differences with period effects,"
-echo "standard errors clustered by unit (=WEFT.ESTIMATES(...; \"fd periods cluster\")):"
-echo
-cat "$out_dir/$name-estimates.txt"
-echo
-echo "Written: $out_dir/$name.pdf (PDF of the recalculated workbook)"
-echo "         $out_dir/$name.ods (the recalculated workbook)"
+for workbook in "${workbooks[@]}"; do
+  name=$(basename "$workbook" .fods)
+  echo
+  if grep -q 'ORG.WEFT.CALCFUNCTIONS.EVENT' "$workbook"; then
+    echo "Event study from $(basename "$workbook"): effects by years since adoption under"
+    echo "staggered adoption, group-time, imputation and two-way regression side by side"
+    echo "(=WEFT.EVENT), with the generator's true effects:"
+  else
+    echo "Estimates from $(basename "$workbook"): first differences with period effects,"
+    echo "standard errors clustered by unit (=WEFT.ESTIMATES(...; \"fd periods cluster\")):"
+  fi
+  echo
+  cat "$out_dir/$name-estimates.txt"
+  echo
+  echo "Written: $out_dir/$name.pdf (PDF of the recalculated workbook)"
+  echo "         $out_dir/$name.ods (the recalculated workbook)"
+done
 echo
 echo "To open it in Calc with weft (needs a desktop session):"
 echo "  bash scripts/install-addin.sh --oxt $oxt --profile $profile_dir --open $workbook"

@@ -1,7 +1,8 @@
 #!/usr/bin/python3
 """The demo's office step: opens a sample workbook in a headless LibreOffice with the
 weft add-in installed (tests/calc/office.py), recalculates it, stores the result as
-.ods and as PDF, and writes the first-difference estimates table as aligned text.
+.ods and as PDF, and writes the first-difference estimates table (or the workbook's
+named range demo_table, when it has one) as aligned text.
 
     /usr/bin/python3 scripts/demo_sheet.py --oxt build/addin/weft.oxt \
         --workbook sample-sheets/branch-service-costs.fods \
@@ -54,7 +55,9 @@ def main():
         work = office.work_dir
         office.save_as(doc, os.path.join(work, "out.ods"), "calc8")
         office.save_as(doc, os.path.join(work, "out.pdf"), "calc_pdf_Export")
-        est = doc.NamedRanges.getByName("fd_estimates").getReferredCells().getDataArray()
+        # the workbook's own table for the demo, else its first-difference estimates
+        table = "demo_table" if doc.NamedRanges.hasByName("demo_table") else "fd_estimates"
+        est = doc.NamedRanges.getByName(table).getReferredCells().getDataArray()
         bad = []
         for i in range(doc.Sheets.getCount()):
             sheet = doc.Sheets.getByIndex(i)

@@ -34,7 +34,9 @@ oracle_packages=(
   r-cran-lmtest
   python3-statsmodels
   r-cran-data.table    # bench: compare.py reads the 1M-row CSV quickly in R
-  r-cran-jsonlite      # bench: compare_reference.R writes its results as JSON
+  r-cran-jsonlite      # bench and tests/event: compare_reference.R and event_reference.R write JSON
+  r-cran-clubsandwich  # oracle: cr2 SEs, Satterthwaite df and HTZ tests (cr2_reference.R)
+  r-cran-estimatr      # oracle: lm_robust CR2 as a second cr2 reference
 )
 
 # --- python: the weft Python package (cabi/python) and its tests (label python)

@@ -14,8 +14,8 @@ jobs=${WEFT_JOBS:-2}
 log_dir="$build_dir/logs"
 # Test groups every run must contain; a group with no registered test fails the run,
 # because a silently missing group would look like a pass.
-required_labels=(core spec cabi hostile oracle calc sample fuzz python)
-all_labels=(core spec cabi hostile oracle calc sample fuzz python bench)
+required_labels=(core spec event cabi hostile oracle calc sample fuzz python)
+all_labels=(core spec event cabi hostile oracle calc sample fuzz python bench)
 
 start_all=$(date +%s)
 declare -a step_names=() step_results=() step_secs=()

@@ -5,6 +5,7 @@
 // into the office, and only a returned text reaches the user.
 
 #include "cells.hpp"
+#include "event_cells.hpp"
 #include "functions.hpp"
 #include "texts.hpp"
 #include "trace.hpp"
@@ -646,6 +647,24 @@ public:
     AnyRows SAL_CALL fitBootstrap(const Any& fit, const Any& term, const Any& settings) override {
         CallTrace trace("fitBootstrap");
         return table_result([&] { return fn_fit_bootstrap(to_arg(fit), to_arg(term), to_arg(settings)); });
+    }
+    AnyRows SAL_CALL event(const AnyRows& y, const AnyRows& d, const AnyRows& u, const AnyRows& t,
+                           const Any& controls, const Any& design) override {
+        CallTrace trace("event");
+        return table_result([&] {
+            const UnoPanelSource r(y, d, u, t);  // treatment in the regressors' place
+            const PanelRanges p = r.ranges();
+            return fn_event({p.outcome, p.regressors, p.units, p.periods}, to_arg(controls), to_arg(design));
+        });
+    }
+    AnyRows SAL_CALL did(const AnyRows& y, const AnyRows& d, const AnyRows& u, const AnyRows& t,
+                         const Any& controls, const Any& design) override {
+        CallTrace trace("did");
+        return table_result([&] {
+            const UnoPanelSource r(y, d, u, t);
+            const PanelRanges p = r.ranges();
+            return fn_did({p.outcome, p.regressors, p.units, p.periods}, to_arg(controls), to_arg(design));
+        });
     }
 
     // ---- XAddIn ----------------------------------------------------------------

@@ -228,17 +228,20 @@ void require_some_values(const PanelInput& p) {
              "; periods must be numbers or dates (a text period is read as missing)");
 }
 
-PanelInput read_panel(const PanelRanges& in) {
+// regressors_optional: a grid of no columns means no regressors (the controls of the
+// event functions); otherwise it is refused.
+PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     require_one_column(in.outcome, "outcome", "the dependent variable");
     require_one_column(in.units, "units", "the unit id of each row");
     require_one_column(in.periods, "periods", "the period of each row");
-    if (in.regressors.col_count() == 0) fail("regressors is empty; give one column per regressor");
-    require_same_rows(in.regressors, "regressors", in.outcome, "outcome");
+    const bool no_regressors = in.regressors.col_count() == 0;
+    if (no_regressors && !regressors_optional) fail("regressors is empty; give one column per regressor");
+    if (!no_regressors) require_same_rows(in.regressors, "regressors", in.outcome, "outcome");
     require_same_rows(in.units, "units", in.outcome, "outcome");
     require_same_rows(in.periods, "periods", in.outcome, "outcome");
 
     PanelInput p;
-    const std::size_t rows = std::min({in.outcome.row_count(), in.regressors.row_count(),
+    const std::size_t rows = std::min({in.outcome.row_count(), no_regressors ? in.outcome.row_count() : in.regressors.row_count(),
                                        in.units.row_count(), in.periods.row_count()});
     p.header = rows > 0 && in.outcome.cell(0, 0).is_text();
     require_data_rows(rows, p.header);
@@ -308,21 +311,7 @@ PanelPtr make_panel(const PanelInput& in) {
 
 // The model text: omitted, a blank reference (which Calc passes as 0) or "" give
 // the defaults; a range of words is read as the words of its cells.
-std::string model_text(const Arg& model) {
-    if (!model.given) return "";
-    std::string text;
-    for (const Cell& c : model.table.cells) {
-        if (c.is_blank()) continue;
-        if (c.is_number()) {
-            if (c.number == 0.0 && model.is_scalar()) continue;
-            fail("model is the number " + format_number(c.number) +
-                 "; give the model as text, e.g. \"within cluster\"");
-        }
-        if (!text.empty()) text += ' ';
-        text += c.text;
-    }
-    return text;
-}
+std::string model_text(const Arg& model) { return words_text(model, "model", "\"within cluster\""); }
 
 // ------------------------------------------------------------------ the cache
 
@@ -871,7 +860,8 @@ OutCell value_of(const ModelRef& ref, const Arg& what_arg, const Arg& term_arg) 
     const std::string what = lower(optional_word(what_arg, "what", "\"estimate\""));
     if (what.empty())
         fail("WEFT.VALUE needs what: one of estimate, se, t, p, ci-low, ci-high (with a term), "
-             "n, units, periods, r2, adj-r2, corr2-rows, corr2-means, corr2-deviations, sigma, df, "
+             "n, units, periods, r2, adj-r2, corr2-rows, corr2-means, corr2-deviations, sigma, "
+             "df (a term's with a term), "
              "df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped");
     std::string term;
     if (term_arg.given && !term_arg.is_scalar())
@@ -1267,6 +1257,37 @@ std::string fn_version() {
                        WEFT_ADDIN_VERSION;
     if (weft_version_number() != WEFT_VERSION_NUMBER)
         text += " (built against weft.h " WEFT_VERSION "; reinstall the matching add-in)";
+    return text;
+}
+
+
+PanelRead read_panel_ranges(const PanelRanges& in, bool regressors_optional) {
+    const PanelInput p = read_panel(in, regressors_optional);
+    PanelRead out;
+    out.panel = std::shared_ptr<weft_panel>(make_panel(p).release(), weft_panel_free);
+    out.header = p.header;
+    out.n = p.n;
+    out.first_row = p.first_row;
+    out.hash = p.hash;
+    return out;
+}
+
+// The words of an argument of words (the model text, the event functions' design):
+// omitted, a blank reference (which Calc passes as 0) or "" give the defaults; a range
+// of words is read as the words of its cells; a number is refused, naming `what`.
+std::string words_text(const Arg& words, const char* what, const char* example) {
+    if (!words.given) return "";
+    std::string text;
+    for (const Cell& c : words.table.cells) {
+        if (c.is_blank()) continue;
+        if (c.is_number()) {
+            if (c.number == 0.0 && words.is_scalar()) continue;
+            throw UserError(std::string(what) + " is the number " + format_number(c.number) + "; give the " +
+                            what + " as text, e.g. " + example);
+        }
+        if (!text.empty()) text += ' ';
+        text += c.text;
+    }
     return text;
 }
 

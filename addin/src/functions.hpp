@@ -6,7 +6,10 @@
 #include "cache.hpp"
 #include "cells.hpp"
 
+#include <memory>
 #include <string>
+
+#include <weft.h>
 
 namespace weft_addin {
 
@@ -95,6 +98,24 @@ OutTable fn_dummies(const Table& periods, const Arg& omit_first);
 OutTable fn_panel(const Table& units, const Table& periods);
 
 std::string fn_version();
+
+// The panel of outcome, units, periods and the regressor columns, read as every model
+// function reads its ranges (header row, names, blanks, the same checks); with
+// regressors_optional a regressors grid of no columns means none. For other cell
+// modules (the event functions).
+struct PanelRead {
+    std::shared_ptr<weft_panel> panel;
+    bool header = false;
+    std::size_t n = 0;          // data rows
+    std::size_t first_row = 1;  // position of the first data row within the ranges
+    Hash128 hash;
+};
+PanelRead read_panel_ranges(const PanelRanges& in, bool regressors_optional);
+
+// The words of a words argument (model text, design): omitted, blank or a 0 from a
+// blank reference give ""; a range gives the words of its cells; a number is refused
+// with a message naming `what` and showing `example`.
+std::string words_text(const Arg& words, const char* what, const char* example);
 
 // When the environment variable WEFT_ADDIN_LOG names a file, every model fit
 // and every cache hit appends one line to it ("fit <hash>" / "hit <hash>"), so a

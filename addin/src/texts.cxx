@@ -25,17 +25,18 @@ const ArgumentText periods_arg{
 const ArgumentText model_arg{
     "model",
     "Optional model words, e.g. \"within cluster\": pooled, fd, within, random, between; "
-    "classical, hc0-hc3, cluster, cluster0, cluster-period, cluster-both, dk or dk=L; "
-    "periods; level=0.90; no-intercept."};
+    "classical, hc0-hc3, cluster, cluster0, cluster-period, cluster-both, dk or dk=L, cr2 "
+    "(few clusters: bias-reduced, each term on its own df); periods; level=0.90; no-intercept."};
 
 const ArgumentText what_arg{
     "what",
     "Which number: estimate, se, t, p, ci-low, ci-high (these need term), n, units, r2, "
-    "corr2-rows, corr2-means, corr2-deviations (within, random), sigma, df, f, f-p."};
+    "corr2-rows, corr2-means, corr2-deviations (within, random), sigma, df (with term: that "
+    "term's df, its own under cr2), f, f-p."};
 const ArgumentText term_arg{
     "term",
     "The term's name (a regressor header, x1, intercept, period 1990) for estimate, se, t, p, "
-    "ci-low, ci-high."};
+    "ci-low, ci-high, and optionally df."};
 const ArgumentText terms_arg{
     "terms", "The terms to test: a text list such as \"value, capital\" or a range of term names."};
 const ArgumentText form_arg{
@@ -51,6 +52,19 @@ const ArgumentText boot_settings_arg{
     "settings",
     "Optional words: draws=N (99 to 1000000, default 9999), seed=S (default 1), rademacher or "
     "webb (weights), null=V (tested value, default 0). Same words, same numbers."};
+
+std::vector<ArgumentText> event_args() {
+    return {{"outcome", "One column: the outcome of each row. If its first cell is text, row 1 of the ranges is a "
+                        "header row."},
+            {"treatment", "One column of 0 and 1: 1 from a unit's first treated period on, 0 before; never-treated "
+                          "units are 0 throughout."},
+            units_arg,
+            periods_arg,
+            {"controls", "Optional: one or more adjacent columns of covariates (group-time reads them at the base "
+                         "period)."},
+            {"design", "Optional words, e.g. \"not-yet after=4\": group-time (default), imputation or twfe; never "
+                       "(default) or not-yet; anticipation=K; before=L; after=M; level=0.90."}};
+}
 
 std::vector<ArgumentText> panel_args() {
     return {outcome_arg, regressors_arg, units_arg, periods_arg, model_arg};
@@ -190,6 +204,15 @@ std::vector<FunctionText> make_texts() {
                  "WEFT.BOOTSTRAP on a fit cell's model: wild cluster bootstrap p-value and interval "
                  "of one term.",
                  {fit_arg, tested_term_arg, boot_settings_arg}});
+    t.push_back({"event", "WEFT.EVENT",
+                 "Event study under staggered adoption: a header row, then one row per event time from "
+                 "-before to after: event time, estimate, std error, t, p-value, interval low and high, "
+                 "treated units.",
+                 event_args()});
+    t.push_back({"did", "WEFT.DID",
+                 "Difference in differences under staggered adoption: label and value rows with the "
+                 "average effect on the treated, each cohort's average and the pre-treatment test.",
+                 event_args()});
     return t;
 }
 

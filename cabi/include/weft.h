@@ -498,7 +498,9 @@ typedef struct weft_summary_item {
  *    the finite-sample factor when one is applied), "observations used" N (rows of
  *    the estimated equation: differences for fd, units for between), "rows used" N,
  *    "rows dropped" N (for a missing value), "units" N, "periods" N, "terms" N,
- *    "residual df" N, "df of t, F and intervals" T (number and rule, e.g. "9 (G-1)"),
+ *    "residual df" N, "df of t, F and intervals" T (number and rule, e.g. "9 (G-1)";
+ *    under WEFT_SE_CR2 the range of the per-term df, e.g. "1.8 to 6.4 (Satterthwaite,
+ *    per term)"),
  *    "clusters" N (cluster standard errors) or "periods in the covariance" N (dk),
  *    "confidence level" N, "R-squared" N, "adjusted R-squared" N,
  *    then, for within and random, three measures of how closely the slope
@@ -529,7 +531,9 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
  *  "adj-r2", "corr2-rows", "corr2-means", "corr2-deviations" (the three squared
  *  correlations of outcome and slope prediction of the summary, within and random
  *  only; renamed in 0.3.0), "sigma" (residual std
- *  deviation), "df" (df of t, F and intervals under the model's standard errors),
+ *  deviation), "df" (df of t, F and intervals under the model's standard errors;
+ *  with `term`: that term's df, which differs by term under WEFT_SE_CR2; without a
+ *  term under WEFT_SE_CR2: the smallest of the terms' df),
  *  "df-residual", "f", "f-df1", "f-df2", "f-p" (F on all slopes), "ssr",
  *  "clusters", "rows-dropped", and for random effects "sigma2-idiosyncratic",
  *  "sigma2-unit" and "theta" (the quasi-demeaning weight; NaN when the panel is
@@ -541,6 +545,13 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
  *  term the model does not have (message says whether it was dropped). */
 WEFT_API int weft_model_value(const weft_model *model, const char *what,
                               const char *term, double *value);
+
+/** The df of t, p and the interval of each term, in term order (since 0.3.0): under
+ *  WEFT_SE_CR2 each term's Satterthwaite df (Bell and McCaffrey 2002; Pustejovsky and
+ *  Tipton 2018), otherwise the model's one df repeated. *needed = n_terms. Buffer
+ *  convention as at the top. Errors: WEFT_EINVAL (NULL model), WEFT_EBUFFER. */
+WEFT_API int weft_model_term_df(const weft_model *model, double *buf, size_t capacity,
+                                size_t *needed);
 
 /* --- residuals and fitted values (WEFT.RESIDUALS, WEFT.FITTED) -------------- */
 
@@ -587,7 +598,8 @@ WEFT_API const char *weft_test_warnings(void);
 typedef struct weft_wald_result {
     double f;         /**< W / q */
     double f_df1;     /**< q */
-    double f_df2;     /**< the model's inference df */
+    double f_df2;     /**< the model's inference df; under WEFT_SE_CR2 f is the HTZ
+                           F (Pustejovsky and Tipton 2018), f_df2 its denominator df */
     double f_p;       /**< upper tail of F(q, df2) */
     double chi2;      /**< W */
     double chi2_df;   /**< q */
@@ -764,6 +776,87 @@ typedef struct weft_bootstrap_result {
  *  ints 0. */
 WEFT_API int weft_test_bootstrap(const weft_model *model, const char *term,
                                  const char *settings, weft_bootstrap_result *out);
+
+/* ------------------------------------------------------------------------------
+ * Difference in differences and event studies (0.3.0; WEFT.EVENT, WEFT.DID).
+ * CONVENTIONS.md "Difference in differences and event studies" is the statistical
+ * specification.
+ * --------------------------------------------------------------------------- */
+
+/** An opaque estimated event study: effects by event time, by cohort and overall,
+ *  and the pre-treatment test. */
+typedef struct weft_event weft_event;
+
+/** Estimate an event study. The panel supplies the outcome (weft_panel_set_outcome),
+ *  the units, the periods, and as controls its regressors (none is fine); treatment
+ *  is an array of the panel's n_rows values, 1 from a unit's first treated period
+ *  on and 0 before (and always 0 for never-treated units); treatment_missing (NULL:
+ *  nothing missing) marks blank cells with nonzero bytes. A row is used when its
+ *  outcome, treatment, controls, unit and period are all present.
+ *  design_text: the design words of FUNCTIONS.md ("group-time" (default),
+ *  "imputation" or "twfe"; "never" (default) or "not-yet"; "anticipation=K";
+ *  "before=L", "after=M" (default: every event time in the data); "level=0.95");
+ *  NULL or "" gives the defaults.
+ *  A unit treated in its own first observed period (e.g. a cohort treated in the
+ *  panel's first period) has no untreated period: it is left out and named in a
+ *  warning (weft_event_warning). On success *out receives a new handle the caller
+ *  frees with weft_event_free; it does not refer to the panel or the arrays.
+ *  Errors: WEFT_EINVAL (NULL out, panel or treatment; panel without units, periods
+ *  or outcome); WEFT_EMODEL (an unknown or conflicting design word); WEFT_EDATA (a
+ *  treatment other than 0 or 1, a unit whose treatment goes back to 0, a treatment
+ *  that differs inside a unit-period, a repeated unit-period pair, no unit that
+ *  adopts inside the panel, too few rows): the message names the row, unit or word;
+ *  WEFT_ENOMEM. On failure *out is NULL. */
+WEFT_API int weft_event_new(weft_event **out, const weft_panel *panel, const double *treatment,
+                            const unsigned char *treatment_missing, const char *design_text);
+
+/** Release an event study. NULL does nothing. */
+WEFT_API void weft_event_free(weft_event *event);
+
+/** Columns of the event-time table, in this order. */
+#define WEFT_EVENT_COLUMNS 8
+
+/** The event-time table (WEFT.EVENT without its header row): one row per event time
+ *  from -before to after, row-major, WEFT_EVENT_COLUMNS numbers a row: event time,
+ *  estimate, standard error, t, p-value, interval low, interval high, treated units
+ *  contributing. An effect that cannot be estimated has NaN in columns 1 to 6. Under
+ *  twfe the reference event time has estimate 0 and NaN in columns 2 to 6 (see
+ *  weft_event_reference). *needed = rows * WEFT_EVENT_COLUMNS. Buffer convention as
+ *  at the top. Errors: WEFT_EINVAL, WEFT_EBUFFER. */
+WEFT_API int weft_event_table(const weft_event *event, double *buf, size_t capacity,
+                              size_t *needed);
+
+/** Number of rows of the event-time table into *n_rows. Errors: WEFT_EINVAL. */
+WEFT_API int weft_event_row_count(const weft_event *event, size_t *n_rows);
+
+/** *is_reference = 1 when table row `row` is twfe's reference event time, else 0.
+ *  Errors: WEFT_EINVAL, WEFT_ERANGE (row past the end). */
+WEFT_API int weft_event_reference(const weft_event *event, size_t row, int *is_reference);
+
+/** Number of label/value items of WEFT.DID. Labels, in this order (T text, N number):
+ *  "estimator" T, "comparison group" T, "design" T (the canonical design text),
+ *  "units" N, "treated units" N, "comparison units" N, "cohorts" N, "rows used" N,
+ *  "rows dropped" N, "average effect on the treated" N, "std error" N, "t" N,
+ *  "p-value" N, "interval low" N, "interval high" N, "inference" T, then for every
+ *  cohort "cohort <period>" N (its average effect after adoption) and
+ *  "cohort <period> std error" N, then "pre-treatment test chi-square" N,
+ *  "pre-treatment test df" N, "pre-treatment test p-value" N (when the test is not
+ *  available: the single item "pre-treatment test" T "not available: <reason>"),
+ *  then one "warning" T per warning. A number that cannot be estimated is the text
+ *  "not estimated". Items are looked up by label (ABI.md: the list may grow).
+ *  Errors: WEFT_EINVAL. */
+WEFT_API int weft_event_summary_count(const weft_event *event, size_t *n_items);
+
+/** Item `index` into *out (strings borrowed from the handle, valid until it is
+ *  freed). Errors: WEFT_EINVAL, WEFT_ERANGE. */
+WEFT_API int weft_event_summary_item(const weft_event *event, size_t index,
+                                     weft_summary_item *out);
+
+/** Number of warnings (also the "warning" items of the summary). Errors: WEFT_EINVAL. */
+WEFT_API int weft_event_warning_count(const weft_event *event, size_t *n_warnings);
+
+/** Warning `index` as a borrowed string into *text. Errors: WEFT_EINVAL, WEFT_ERANGE. */
+WEFT_API int weft_event_warning(const weft_event *event, size_t index, const char **text);
 
 #ifdef __cplusplus
 }

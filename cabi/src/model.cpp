@@ -43,7 +43,8 @@ const char* estimator_text(weft::Estimator e) {
 
 bool is_cluster(weft::Covariance c) {
     return c == weft::Covariance::cluster || c == weft::Covariance::cluster0 ||
-           c == weft::Covariance::cluster_period || c == weft::Covariance::cluster_both;
+           c == weft::Covariance::cluster_period || c == weft::Covariance::cluster_both ||
+           c == weft::Covariance::cr2;
 }
 
 // The three fit measures of within and random, by what each number is.
@@ -85,7 +86,13 @@ std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
     number("periods", static_cast<double>(fit.n_periods));
     number("terms", static_cast<double>(fit.n_terms));
     number("residual df", fit.df_residual);
-    text("df of t, F and intervals", weft::format_number(cov.df) + " (" + cov.df_rule + ")");
+    if (cov.term_df.empty()) {
+        text("df of t, F and intervals", weft::format_number(cov.df) + " (" + cov.df_rule + ")");
+    } else {
+        const auto range = std::minmax_element(cov.term_df.begin(), cov.term_df.end());
+        text("df of t, F and intervals", weft::format_number(*range.first) + " to " +
+                                             weft::format_number(*range.second) + " (" + cov.df_rule + ")");
+    }
     if (is_cluster(cov.kind) || cov.kind == weft::Covariance::dk)
         number(cov.kind == weft::Covariance::dk ? "periods in the covariance" : "clusters",
                static_cast<double>(cov.clusters));
@@ -151,6 +158,12 @@ int write_aligned(const weft::Series& series, double* buf, unsigned char* unused
     fail(WEFT_ERANGE, "the model has no term \"" + term + "\"; its terms are: " + known);
 }
 
+// The df of term k's t, p and interval (cr2: its own Satterthwaite df).
+double term_df_of(const weft::Fit& fit, std::size_t k) {
+    const std::vector<double>& per_term = fit.covariance.term_df;
+    return per_term.empty() ? fit.covariance.df : per_term.at(k);
+}
+
 std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
     if (what == "n") return static_cast<double>(fit.nobs);
     if (what == "units") return static_cast<double>(fit.n_units);
@@ -185,7 +198,8 @@ std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
 
 constexpr const char* value_words =
     "estimate, se, t, p, ci-low, ci-high (with a term), n, units, periods, r2, adj-r2, corr2-rows, "
-    "corr2-means, corr2-deviations, sigma, df, df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped, "
+    "corr2-means, corr2-deviations, sigma, df (a term's with a term), df-residual, f, f-df1, f-df2, f-p, ssr, "
+    "clusters, rows-dropped, "
     "sigma2-idiosyncratic, sigma2-unit, theta";
 
 }  // namespace
@@ -424,6 +438,12 @@ int weft_model_value(const weft_model* model, const char* what, const char* term
         // Words are case-insensitive, like the model text; term names are exact.
         std::string word = what;
         for (char& c : word) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+        if (word == "df" && term != nullptr && *term != '\0') {
+            const std::optional<std::size_t> pos = model->fit.term_position(term);
+            if (!pos) unknown_term(model, term);
+            *value = term_df_of(model->fit, *pos);
+            return WEFT_OK;
+        }
         static const char* const term_words[] = {"estimate", "se", "t", "p", "ci-low", "ci-high"};
         for (int column = 0; column < WEFT_COEF_COLUMNS; ++column) {
             if (word != term_words[column]) continue;
@@ -441,6 +461,17 @@ int weft_model_value(const weft_model* model, const char* what, const char* term
         } catch (const std::out_of_range&) {
             fail(WEFT_EMODEL, "\"" + word + "\" is not a value weft knows; use one of: " + value_words);
         }
+        return WEFT_OK;
+    });
+}
+
+int weft_model_term_df(const weft_model* model, double* buf, size_t capacity, size_t* needed) {
+    return guarded(WEFT_EINVAL, [&] {
+        const char* fn = "weft_model_term_df";
+        require_model(model, fn);
+        const std::size_t k = model->fit.equation.n_terms();
+        if (!buffer_ready(fn, buf, capacity, needed, k)) return WEFT_OK;
+        for (std::size_t j = 0; j < k; ++j) buf[j] = term_df_of(model->fit, j);
         return WEFT_OK;
     });
 }

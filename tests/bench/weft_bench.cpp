@@ -149,6 +149,9 @@ Size parse_size(const std::string& word) {
   if (word == "100k" || word == "small") return size_small;
   if (word == "1M" || word == "1m" || word == "large") return size_large;
   if (word == "1Mk5" || word == "1mk5") return size_large_k5;
+  // the cr2 cases: 1,000,000 rows, K=5, in 50,000 clusters of 20 rows or 50 of 20,000
+  if (word == "1Mg50k" || word == "1mg50k") return Size{"1Mg50k", 50000, 20, 5};
+  if (word == "1Mg50" || word == "1mg50") return Size{"1Mg50", 50, 20000, 5};
   // UNITSxPERIODSxK, e.g. 20000x10x5
   Size size{word, 0, 0, 0};
   if (std::sscanf(word.c_str(), "%zux%zux%zu", &size.units, &size.periods, &size.regressors) == 3 &&
@@ -169,7 +172,9 @@ void usage() {
       "                  wild cluster bootstrap of x1, 1,000,000 rows in 50 clusters, K=3\n"
       "sizes: smoke (60x6, K=3), 100k (10,000 units x 10 periods, K=5),\n"
       "       1M (50,000 x 20, K=20), 1Mk5 (100,000 x 10, K=5: the linear-scaling\n"
-      "       partner of 100k), or UNITSxPERIODSxK. Default: 100k,1Mk5,1M\n"
+      "       partner of 100k), 1Mg50k and 1Mg50 (1,000,000 rows, K=5, in 50,000 or\n"
+      "       50 unit clusters: the cr2 cases, --se cluster,cr2), or UNITSxPERIODSxK.\n"
+      "       Default: 100k,1Mk5,1M\n"
       "--copy: copy the columns into the panel (weft_panel_set_*) instead of borrowing\n"
       "       them in place (weft_panel_borrow_*, the default)");
 }
@@ -251,7 +256,7 @@ struct Checker {
 int run_smoke() {
   Checker checker;
   const std::vector<std::string> estimators{"pooled", "fd", "within"};
-  const std::vector<std::string> ses{"classical", "hc1", "cluster", "dk"};
+  const std::vector<std::string> ses{"classical", "hc1", "cluster", "dk", "cr2"};
   const PanelShape balanced_shape{size_smoke.units, size_smoke.periods, size_smoke.regressors,
                                   Layout::balanced, 20261202};
   PanelShape unbalanced_shape = balanced_shape;

@@ -1297,6 +1297,123 @@ static void test_bootstrap(const grunfeld *g)
     weft_panel_free(p);
 }
 
+/* cr2 on Grunfeld within: tests/data/panel/cr2_reference.json "grunfeld_within"
+ * (clubSandwich 0.5.8 coef_test CR2 Satterthwaite and Wald_test HTZ on the plm fit). */
+static void test_cr2(const grunfeld *g)
+{
+    static const double se[] = {0.0206311068339026, 0.0826753020489797};
+    static const double df[] = {1.81256840291113, 1.79953119283768};
+    weft_panel *p = make_panel(g, 0, NULL, NULL);
+    weft_model *m = fit_text(p, "within cr2");
+    weft_wald_result w;
+    weft_summary_item item;
+    double buf[2], small[1];
+    size_t needed = 0, i;
+    double table[2 * WEFT_COEF_COLUMNS];
+    OK(weft_model_coefficients(m, table, 2 * WEFT_COEF_COLUMNS, &needed));
+    OK(weft_model_term_df(m, NULL, 0, &needed));
+    CHECK(needed == 2);
+    EXPECT_ERROR(weft_model_term_df(m, small, 1, &needed), WEFT_EBUFFER, "2");
+    EXPECT_ERROR(weft_model_term_df(NULL, buf, 2, &needed), WEFT_EINVAL, "model");
+    OK(weft_model_term_df(m, buf, 2, &needed));
+    for (i = 0; i < 2; ++i) {
+        NEAR_TOL(table[i * WEFT_COEF_COLUMNS + WEFT_COEF_SE], se[i], 1e-8, "cr2_reference grunfeld_within.se");
+        NEAR_TOL(buf[i], df[i], 1e-8, "cr2_reference grunfeld_within.df");
+    }
+    NEAR_TOL(value_of(m, "df", "capital"), df[1], 1e-8, "cr2_reference grunfeld_within.df[capital]");
+    NEAR_TOL(value_of(m, "p", "value"), 0.0410217892800318, 1e-8, "cr2_reference grunfeld_within.p[value]");
+    CHECK(summary_find(m, "clusters", &item) > 0 && item.number == 10.0);
+    OK(weft_test_joint_list(m, "value, capital", &w));
+    NEAR_TOL(w.f, 6.42900221599661, 1e-8, "cr2_reference grunfeld_within.joint.F (HTZ)");
+    NEAR_TOL(w.f_df2, 0.782981670219427, 1e-8, "cr2_reference grunfeld_within.joint.df2");
+    NEAR_TOL(w.f_p, 0.326680345674805, 1e-8, "cr2_reference grunfeld_within.joint.p");
+    NEAR_TOL(w.chi2, 29.2798504611472, 1e-8, "cr2_reference grunfeld_within.joint.chi2");
+    weft_model_free(m);
+    /* other covariances: the model's one df for every term */
+    m = fit_text(p, "within cluster");
+    OK(weft_model_term_df(m, buf, 2, &needed));
+    CHECK(buf[0] == 9.0 && buf[1] == 9.0);
+    weft_model_free(m);
+    weft_panel_free(p);
+}
+
+/* ---------------------------------------------------------------- event studies */
+
+/* Five units over 2000 and 2001, units 1 and 2 treated in 2001. Expected values by
+ * hand from the 2x2 identity (CONVENTIONS.md, group-time with one cell): changes of
+ * the treated 3 and 5 (mean 4), of the comparison units 1, 2, 0 (mean 1); effect 4 - 1
+ * = 3; standard error sqrt(s_T^2/n_T + s_C^2/n_C) with n denominators =
+ * sqrt(1/2 + (2/3)/3) = sqrt(0.72222...). */
+static void test_event(void)
+{
+    const double unit[10] = {1, 1, 2, 2, 3, 3, 4, 4, 5, 5};
+    const double year[10] = {2000, 2001, 2000, 2001, 2000, 2001, 2000, 2001, 2000, 2001};
+    const double y[10] = {1, 4, 2, 7, 1, 2, 3, 5, 2, 2};
+    double treat[10] = {0, 1, 0, 1, 0, 0, 0, 0, 0, 0};
+    double table[2 * WEFT_EVENT_COLUMNS];
+    size_t needed = 0, rows = 0, n_items = 0, n_warnings = 0, k;
+    int reference = -1, found = 0;
+    weft_summary_item item;
+    const char *text = NULL;
+    weft_event *e = NULL;
+    weft_panel *p = NULL;
+    OK(weft_panel_new(&p, 10, 2));
+    OK(weft_panel_set_units_number(p, unit, NULL));
+    OK(weft_panel_set_periods(p, year, NULL));
+    OK(weft_panel_set_outcome(p, "sales", y, NULL));
+    OK(weft_event_new(&e, p, treat, NULL, "group-time"));
+    OK(weft_event_row_count(e, &rows));
+    CHECK(rows == 2);
+    OK(weft_event_table(e, NULL, 0, &needed));
+    CHECK(needed == 2 * WEFT_EVENT_COLUMNS);
+    EXPECT_ERROR(weft_event_table(e, table, 3, &needed), WEFT_EBUFFER, "buffer holds 3");
+    OK(weft_event_table(e, table, 2 * WEFT_EVENT_COLUMNS, &needed));
+    CHECK(table[0] == -1 && isnan(table[1]));           /* no period before 2000 */
+    CHECK(table[WEFT_EVENT_COLUMNS] == 0);
+    NEAR(table[WEFT_EVENT_COLUMNS + 1], 3.0, "2x2 difference in differences, by hand");
+    NEAR(table[WEFT_EVENT_COLUMNS + 2], sqrt(0.5 + 2.0 / 9.0), "two-sample formula, by hand");
+    CHECK(table[WEFT_EVENT_COLUMNS + 7] == 2);
+    OK(weft_event_summary_count(e, &n_items));
+    for (k = 0; k < n_items; ++k) {
+        OK(weft_event_summary_item(e, k, &item));
+        if (strcmp(item.label, "average effect on the treated") == 0) {
+            NEAR(item.number, 3.0, "2x2 difference in differences, by hand");
+            ++found;
+        }
+        if (strcmp(item.label, "pre-treatment test") == 0)
+            found += strstr(item.text, "not available") != NULL;
+    }
+    CHECK(found == 2);
+    EXPECT_ERROR(weft_event_summary_item(e, n_items, &item), WEFT_ERANGE, "past the last item");
+    OK(weft_event_warning_count(e, &n_warnings));
+    CHECK(n_warnings == 0);
+    EXPECT_ERROR(weft_event_warning(e, 0, &text), WEFT_ERANGE, "past the last warning");
+    OK(weft_event_reference(e, 0, &reference));
+    CHECK(reference == 0);
+    weft_event_free(e);
+    e = NULL;
+    OK(weft_event_new(&e, p, treat, NULL, "twfe"));
+    OK(weft_event_reference(e, 0, &reference));
+    CHECK(reference == 1);
+    EXPECT_ERROR(weft_event_reference(e, 5, &reference), WEFT_ERANGE, "past the last row");
+    weft_event_free(e);
+    e = NULL;
+    EXPECT_ERROR(weft_event_new(&e, p, treat, NULL, "sideways"), WEFT_EMODEL, "unknown word \"sideways\"");
+    CHECK(e == NULL);
+    treat[3] = 2;
+    EXPECT_ERROR(weft_event_new(&e, p, treat, NULL, NULL), WEFT_EDATA, "treatment in row 5 is 2");
+    treat[3] = 1;
+    treat[1] = 1;
+    treat[0] = 1;
+    treat[1] = 0;
+    EXPECT_ERROR(weft_event_new(&e, p, treat, NULL, NULL), WEFT_EDATA, "untreated again");
+    EXPECT_ERROR(weft_event_new(&e, p, NULL, NULL, NULL), WEFT_EINVAL, "treatment is NULL");
+    EXPECT_ERROR(weft_event_new(NULL, p, treat, NULL, NULL), WEFT_EINVAL, "out is NULL");
+    EXPECT_ERROR(weft_event_row_count(NULL, &rows), WEFT_EINVAL, "event is NULL");
+    weft_event_free(NULL);
+    weft_panel_free(p);
+}
+
 int main(int argc, char **argv)
 {
     static grunfeld g;
@@ -1317,6 +1434,8 @@ int main(int argc, char **argv)
     test_model_misuse(&g);
     test_borrowed(&g);
     test_bootstrap(&g);
+    test_cr2(&g);
+    test_event();
     printf("c_consumer: %d checks, %d failed\n", checks, failures);
     return failures == 0 ? 0 : 1;
 }

@@ -56,12 +56,16 @@ CONTRACT = {
     # FUNCTIONS.md "Few-cluster inference"
     "WEFT.BOOTSTRAP": PANEL + ["term", "settings"],
     "WEFT.FIT.BOOTSTRAP": ["fit", "term", "settings"],
+    # Policy evaluation (FUNCTIONS.md)
+    "WEFT.EVENT": ["outcome", "treatment", "units", "periods", "controls", "design"],
+    "WEFT.DID": ["outcome", "treatment", "units", "periods", "controls", "design"],
 }
 # Calc marks every argument of type `any` optional: FUNCTIONS.md's [optional] ones,
 # and VALUE's what, an `any` so that a missing one gets a weft: message.
 # The fit argument is an `any` too (a cell's text), so Calc marks it optional; a
 # missing one gets a weft: message.
-OPTIONAL = {"model", "term", "terms", "form", "k", "omit_first", "what", "fit", "settings"}
+OPTIONAL = {"model", "term", "terms", "form", "k", "omit_first", "what", "fit", "controls", "design",
+            "settings"}
 ADDIN_CATEGORY = 11  # Calc's ID_FUNCTION_GRP_ADDINS ("Add-In")
 
 

@@ -65,24 +65,33 @@ inline nlohmann::json read_json(const std::string& relative) {
     return nlohmann::json::parse(in);
 }
 
+// A panel from a CSV of tests/data with numeric unit ids: the named outcome,
+// regressors, units and periods columns (header in row 1, data from row 2).
+inline weft::PanelData read_panel(const std::string& relative, const std::string& outcome,
+                                  const std::vector<std::string>& regressors, const std::string& units,
+                                  const std::string& periods) {
+    const Table t = read_csv(relative);
+    weft::PanelData d;
+    d.outcome.name = outcome;
+    d.outcome.values = t.column(outcome);
+    for (const std::string& name : regressors) {
+        weft::Column c;
+        c.name = name;
+        c.values = t.column(name);
+        d.regressors.push_back(c);
+    }
+    d.units.name = units;
+    d.units.numbers = t.column(units);
+    d.periods.name = periods;
+    d.periods.values = t.column(periods);
+    d.first_row_number = 2;
+    return d;
+}
+
 // tests/data/panel/grunfeld.csv (R plm's Grunfeld, see tests/data/panel/SOURCES.md):
 // firm, year, inv, value, capital.
 inline weft::PanelData grunfeld() {
-    const Table t = read_csv("panel/grunfeld.csv");
-    weft::PanelData d;
-    d.outcome.name = "inv";
-    d.outcome.values = t.column("inv");
-    d.regressors.resize(2);
-    d.regressors[0].name = "value";
-    d.regressors[0].values = t.column("value");
-    d.regressors[1].name = "capital";
-    d.regressors[1].values = t.column("capital");
-    d.units.name = "firm";
-    d.units.numbers = t.column("firm");
-    d.periods.name = "year";
-    d.periods.values = t.column("year");
-    d.first_row_number = 2;
-    return d;
+    return read_panel("panel/grunfeld.csv", "inv", {"value", "capital"}, "firm", "year");
 }
 
 inline double rel_diff(double actual, double expected) {

@@ -25,22 +25,9 @@ namespace {
 using nlohmann::json;
 constexpr double kTol = 1e-8;  // relative, as the issue asks (the JSON keeps 15 digits)
 
+// tests/data/panel/few_clusters.csv: 6 units, 4 to 9 periods (cr2_reference.R).
 weft::PanelData few_clusters() {
-    const core_test::Table t = core_test::read_csv("panel/few_clusters.csv");
-    weft::PanelData d;
-    d.outcome.name = "y";
-    d.outcome.values = t.column("y");
-    d.regressors.resize(2);
-    d.regressors[0].name = "x1";
-    d.regressors[0].values = t.column("x1");
-    d.regressors[1].name = "x2";
-    d.regressors[1].values = t.column("x2");
-    d.units.name = "unit";
-    d.units.numbers = t.column("unit");
-    d.periods.name = "period";
-    d.periods.values = t.column("period");
-    d.first_row_number = 2;
-    return d;
+    return core_test::read_panel("panel/few_clusters.csv", "y", {"x1", "x2"}, "unit", "period");
 }
 
 std::string weft_term(const std::string& r_name) { return r_name == "(Intercept)" ? "intercept" : r_name; }
@@ -218,4 +205,31 @@ TEST_CASE("cr2: errors name the problem", "[cr2]") {
     CHECK(msg.find("at least 2") != std::string::npos);
     const std::string conflict = core_test::message_of([] { weft::parse_model_text("cr2 cluster"); });
     CHECK(conflict.find("conflict") != std::string::npos);
+}
+
+TEST_CASE("cr2: an exact fit gives standard errors 0 and undefined t, without failing", "[cr2]") {
+    weft::PanelData d = few_clusters();
+    for (std::size_t i = 0; i < d.outcome.values.size(); ++i)
+        d.outcome.values[i] = 1.0 + 2.0 * d.regressors[0].values[i] - d.regressors[1].values[i];
+    const weft::Fit fit = weft::fit_model(d, weft::parse_model_text("pooled cr2"));
+    CHECK(fit.exact_fit);
+    for (Eigen::Index k = 0; k < fit.se.size(); ++k) {
+        CHECK(fit.se[k] == 0.0);
+        CHECK(std::isnan(fit.t[k]));
+    }
+    // the joint test has no variance to work with: a weft error, not a crash
+    CHECK(core_test::message_of([&] { weft::wald_test_terms(fit, {"x1", "x2"}); }).find("singular") !=
+          std::string::npos);
+}
+
+TEST_CASE("cr2: a direction of leverage 1 is left out (pseudo-inverse), as clubSandwich does", "[cr2]") {
+    // cr2_leverage.csv: period 6 appears in unit 3 only; reference leverage_pooled_periods
+    const json ref = core_test::read_json("panel/cr2_reference.json")["leverage_pooled_periods"];
+    const weft::PanelData d = core_test::read_panel("panel/cr2_leverage.csv", "y", {"x1", "x2"}, "unit", "period");
+    const weft::Fit fit = weft::fit_model(d, weft::parse_model_text("pooled periods cr2"));
+    check_terms(fit, ref, true);
+    check_joint(fit, ref["joint"]);
+    bool warned = false;
+    for (const std::string& w : fit.warnings) warned = warned || w.find("leverage 1") != std::string::npos;
+    CHECK(warned);
 }

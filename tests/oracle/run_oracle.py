@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""weft's live oracle test: weft against R (plm, sandwich, lmtest) on random panels.
+"""weft's live oracle test: weft against R (plm, sandwich, lmtest, clubSandwich) on random panels.
 
 Usage: run_oracle.py --cli PATH/weft_oracle_cli --workdir DIR [--rscript Rscript]
                      [--seed 20261202] [--tolerance 1e-8]
@@ -11,6 +11,8 @@ Usage: run_oracle.py --cli PATH/weft_oracle_cli --workdir DIR [--rscript Rscript
 2. Fits every case (pooled, fd, within, between, random; with and without period
    indicators) with weft, through the small C++ program weft_oracle_cli, and with R
    (oracle_reference.R), in the same run.
+   cr2 (standard errors, Satterthwaite df per term, HTZ and chi-square joint tests) is
+   checked against R clubSandwich through cr2_oracle.R (route "clubSandwich").
 3. Compares every number R produced with weft's at a relative tolerance of 1e-8 and
    prints a table of the largest relative differences.
 
@@ -167,7 +169,7 @@ def rel_diff(a, b):
 def group_of(path):
     """Row label of the summary table: case family and quantity."""
     head = path[1]
-    if head in ("se", "wald"):
+    if head in ("se", "wald", "df"):
         if path[2].startswith("dk="):
             return "%s dk=L" % head
         return "%s %s" % (head, path[2])
@@ -220,16 +222,26 @@ def main():
         if p.returncode != 0:
             print("FAIL: R oracle on %s:\n%s%s" % (name, p.stdout, p.stderr))
             return 2
+        # cr2 against clubSandwich (cr2_oracle.R), compared as a third route
+        cr2_path = os.path.join(args.workdir, name + ".cr2.json")
+        p = subprocess.run([args.rscript, os.path.join(here, "cr2_oracle.R"),
+                            csv_path, cases_path, cr2_path], capture_output=True, text=True)
+        if p.returncode != 0:
+            print("FAIL: R cr2 oracle on %s (needs r-cran-clubsandwich):\n%s%s"
+                  % (name, p.stdout, p.stderr))
+            return 2
         with open(weft_path) as f:
             weft = json.load(f)
         with open(r_path) as f:
             ref = json.load(f)
+        with open(cr2_path) as f:
+            ref["clubSandwich"] = json.load(f)["clubSandwich"]
         software = ref.get("software")
         for case, msg in (ref.get("plm_errors") or {}).items():
             print("note: plm itself failed on %s / %s (explicit route still compared): %s"
                   % (name, case, msg))
 
-        for route in ("explicit", "plm"):
+        for route in ("explicit", "plm", "clubSandwich"):
             if route == "plm" and not ref["plm"]:
                 continue
             for case, res in ref[route].items():

@@ -160,7 +160,7 @@ void write_wald(Json& j, const weft::WaldResult& w) {
 
 const char* const kFamilies[] = {"classical", "hc0", "hc1", "hc2", "hc3", "cluster",
                                  "cluster0", "cluster-period", "cluster-both", "dk",
-                                 "dk=0", "dk=3"};
+                                 "dk=0", "dk=3", "cr2"};
 
 void run_case(Json& j, const weft::PanelData& data, const std::vector<std::string>& x_names,
               const std::string& text) {
@@ -197,6 +197,16 @@ void run_case(Json& j, const weft::PanelData& data, const std::vector<std::strin
         j.key(family).open();
         for (std::size_t k = 0; k < fit.equation.terms.size(); ++k)
             j.field(fit.equation.terms[k], fit.se(static_cast<Eigen::Index>(k)));
+        j.close();
+    }
+    j.close();
+    // per-term df where a family has its own (cr2: Satterthwaite)
+    j.key("df").open();
+    for (auto& [family, fit] : fits) {
+        if (fit.covariance.term_df.empty()) continue;
+        j.key(family).open();
+        for (std::size_t k = 0; k < fit.equation.terms.size(); ++k)
+            j.field(fit.equation.terms[k], fit.covariance.term_df[k]);
         j.close();
     }
     j.close();

@@ -3,7 +3,9 @@
 add-in installed and recalculated, must show no error value and no "weft:" message in
 any cell, and its first-difference estimates must recover the true parameters that
 sample-sheets/generate.py used to make the data (the truth lies inside the 95%
-interval of each slope).
+interval of each slope). The staggered-adoption workbook (event_workbook.py) is checked
+by check_event_workbook: true effects inside the group-time intervals, group-time
+estimates equal to mean changes computed here, the two-way regression's bias.
 
     /usr/bin/python3 tests/sample/check_samples.py WORKBOOK.fods [--dump]
 
@@ -24,6 +26,7 @@ sys.path.insert(0, os.path.join(REPO, "sample-sheets"))
 
 from office import Office  # noqa: E402  (tests/calc/office.py)
 import generate  # noqa: E402  (sample-sheets/generate.py: the true parameters)
+import event_workbook  # noqa: E402  (sample-sheets/event_workbook.py: the true effects)
 
 FORMULA_RESULT_STRING = 2   # com.sun.star.sheet.FormulaResult
 FORMULA_RESULT_ERROR = 4
@@ -88,6 +91,90 @@ def independent_fd(sc, rows):
     return dict(zip(sc["regressors"], b[1:1 + len(ix)])), len(y)
 
 
+def independent_group_time(sc, rows):
+    """Group-time effects by event time e >= 0 from mean changes (Callaway and
+    Sant'Anna 2021 with never-treated comparison units and base year g - 1): for each
+    cohort observed at g + e, the treated branches' mean change from g - 1 to g + e minus
+    the never-treated branches' mean change, averaged over cohorts by cohort size.
+    Computed here in plain Python, not by weft."""
+    y = {(r[0], r[1]): r[2] for r in rows}
+    first = {}
+    for r in rows:
+        if r[3] == 1:
+            first[r[0]] = min(first.get(r[0], 9999), r[1])
+    units = sorted({r[0] for r in rows})
+    never = [u for u in units if u not in first]
+    out = {}
+    for e in range(0, sc["after"] + 1):
+        total, weight = 0.0, 0
+        for c in sc["cohorts"]:
+            t, b = c + e, c - 1
+            if t > sc["last_year"]:
+                continue
+            treated = [u for u in units if first.get(u) == c]
+            att = (sum(y[(u, t)] - y[(u, b)] for u in treated) / len(treated)
+                   - sum(y[(u, t)] - y[(u, b)] for u in never) / len(never))
+            total += len(treated) * att
+            weight += len(treated)
+        out[e] = total / weight
+    return out
+
+
+def check_event_workbook(doc, key):
+    """The staggered-adoption workbook (sample-sheets/event_workbook.py): true effects
+    (the generator's) inside the group-time intervals, group-time point estimates equal
+    to the mean-change computation above, the two-way regression further from the true
+    overall effect than group-time (what the reading says), and the chart."""
+    sc = event_workbook.EVENT
+    rows, _ = event_workbook.event_panel(sc)
+    truth = event_workbook.true_event_effects(sc)
+    gt = named_block(doc, "event_group_time")
+    check(list(gt[0][:3]) == ["event time", "estimate", "std error"], f"{key}: WEFT.EVENT header")
+    check(len(gt) == 2 + sc["before"] + sc["after"], f"{key}: one row per event time")
+    reference = independent_group_time(sc, rows)
+    for row in gt[1:]:
+        e = int(row[0])
+        if e < 0:
+            continue
+        lo, hi = row[5], row[6]
+        check(isinstance(lo, float) and lo <= truth[e] <= hi,
+              f"{key}: true effect {truth[e]:.3f} at e={e} lies in the group-time interval [{lo}, {hi}]")
+        check(abs(row[1] - reference[e]) <= 1e-9 * max(1.0, abs(reference[e])),
+              f"{key}: group-time estimate at e={e} {row[1]} equals the mean-change computation {reference[e]}")
+    for name in ("event_imputation", "event_twfe"):
+        block = named_block(doc, name)
+        check(len(block) == 2 + sc["before"] + sc["after"] and block[0][0] == "event time",
+              f"{key}: {name} fills its block")
+    twfe = named_block(doc, "event_twfe")
+    check(any(r[2] == "reference" for r in twfe), f"{key}: twfe shows its reference event time")
+    true_overall = named_block(doc, "true_overall")[0][1]
+    did = {w: {r[0]: r[1] for r in named_block(doc, f"did_{w}")} for w in ("group_time", "imputation", "twfe")}
+    for w, d in did.items():
+        check(isinstance(d.get("pre-treatment test p-value"), float), f"{key}: {w} shows the pre-treatment test")
+        last = named_block(doc, f"did_{w}")[-1][0]
+        check(last in ("pre-treatment test p-value", "warning"), f"{key}: did_{w} ends where its result ends ({last!r})")
+    err = {w: abs(d["average effect on the treated"] - true_overall) for w, d in did.items()}
+    check(err["twfe"] > 2 * err["group_time"] and err["twfe"] > 2 * did["group_time"]["std error"],
+          f"{key}: the two-way regression is far from the true overall effect {true_overall} "
+          f"(errors: {err})")
+    analysis = doc.Sheets.getByName("Analysis")
+    check(analysis.Charts.getCount() >= 1, f"{key}: the Analysis sheet holds the event-study chart")
+    if analysis.Charts.getCount():
+        chart = analysis.Charts.getByIndex(0).EmbeddedObject
+        series = chart.getFirstDiagram().getCoordinateSystems()[0].getChartTypes()[0].getDataSeries()
+        with_bars = [s for s in series if s.ErrorBarY is not None and s.ErrorBarY.ShowPositiveError]
+        check(len(series) == 4 and len(with_bars) == 3,
+              f"{key}: the chart shows three estimators with interval bars and the true effects")
+        axis = chart.getDiagram().getYAxis()
+        ends = [v for name in ("event_group_time", "event_imputation", "event_twfe")
+                for r in named_block(doc, name)[1:] for v in (r[5], r[6]) if isinstance(v, float)]
+        check(all(axis.Min <= v <= axis.Max for v in ends),
+              f"{key}: the chart's value axis [{axis.Min}, {axis.Max}] holds every interval")
+    reading = [r[0] for r in named_block(doc, "reading")]
+    check(all(isinstance(t, str) and len(t) > 20 for t in reading), f"{key}: the reading is written out in words")
+    check(any("Why the two-way regression differs" in t for t in reading), f"{key}: the reading explains the two-way result")
+
+
 def independent_within_fit(sc, rows):
     """The three squared correlations of outcome and slope prediction of the within fit
     with period effects, from their definitions: OLS of the unit-demeaned outcome on
@@ -124,6 +211,22 @@ def independent_within_fit(sc, rows):
             "deviations from unit means": corr2(y - unit_means(y), xb - unit_means(xb))}
 
 
+def open_recalculated(office, path, key, dump):
+    """The workbook loaded and recalculated, its named blocks printed with dump, and
+    the check that no cell shows an error value or a weft: message."""
+    doc = office.load_copy(path)
+    doc.calculateAll()
+    if dump:
+        for name in doc.NamedRanges.getElementNames():
+            print(f"--- {name}")
+            for row in named_block(doc, name):
+                print("   ", row)
+    bad = error_cells(doc)
+    check(not bad, f"{key}: no cell shows an error value or a weft: message"
+                   + ("" if not bad else "\n      " + "\n      ".join(bad[:20])))
+    return doc
+
+
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("workbook")
@@ -133,23 +236,20 @@ def main():
     if not args.oxt or not os.path.isfile(args.oxt):
         sys.exit("check_samples: give --oxt or set WEFT_OXT to the built weft.oxt")
     key = os.path.splitext(os.path.basename(args.workbook))[0]
+    if key == event_workbook.EVENT["key"]:
+        with Office(extensions=[args.oxt], timeout=240) as office:
+            doc = open_recalculated(office, args.workbook, key, args.dump)
+            check_event_workbook(doc, key)
+            doc.close(True)
+        print(f"{len(failures)} failed" if failures else "all checks passed")
+        return 1 if failures else 0
     if key not in generate.SCENARIOS:
         sys.exit(f"check_samples: {key} is not a scenario of sample-sheets/generate.py")
     sc = generate.SCENARIOS[key]
     rows = sc["make"](sc["seed"])
 
     with Office(extensions=[args.oxt], timeout=240) as office:
-        doc = office.load_copy(args.workbook)
-        doc.calculateAll()
-        if args.dump:
-            for name in doc.NamedRanges.getElementNames():
-                print(f"--- {name}")
-                for row in named_block(doc, name):
-                    print("   ", row)
-
-        bad = error_cells(doc)
-        check(not bad, f"{key}: no cell shows an error value or a weft: message"
-                       + ("" if not bad else "\n      " + "\n      ".join(bad[:20])))
+        doc = open_recalculated(office, args.workbook, key, args.dump)
 
         est = named_block(doc, "fd_estimates")
         check(list(est[0]) == ["term", "coefficient", "standard error", "t ratio",

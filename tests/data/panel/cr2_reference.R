@@ -4,7 +4,8 @@
 # Wald_test(..., test = c("HTZ", "chi-sq"))), estimatr (lm_robust, se_type = "CR2"),
 # plm for the within and first-difference fits. Run by hand from the repository root:
 #   Rscript tests/data/panel/cr2_reference.R
-# (the build never runs R). Data: grunfeld.csv (Grunfeld panel, 10 firms) and
+# (the build never runs R). Data: grunfeld.csv (Grunfeld panel, 10 firms),
+# cr2_leverage.csv (random numbers, made once by hand for the leverage-1 case) and
 # few_clusters.csv, written here from a fixed seed (random data for the oracle
 # comparison: both sides fit the same numbers).
 suppressMessages({
@@ -77,6 +78,14 @@ make_cases <- function(d, y, xs, unit, period, prefix) {
 }
 cases <- c(make_cases(gr, "inv", c("value", "capital"), "firm", "year", "grunfeld"),
            make_cases(few, "y", c("x1", "x2"), "unit", "period", "few"))
+# A period present in one unit only (cr2_leverage.csv: 7 units, periods 1-5, and period
+# 6 for unit 3 alone): its indicator has leverage 1 within that cluster, so the CR2
+# adjustment takes the pseudo-inverse (clubSandwich: eigenvalues below 1e-12 set to 0).
+lev <- read.csv(file.path(dir, "cr2_leverage.csv"))
+lev_fit <- lm(y ~ x1 + x2 + factor(period), data = lev)
+lev_case <- one_case(lev_fit, lev$unit, names(coef(lev_fit)), c("x1", "x2"))
+lev_case$terms <- sub("factor\\(period\\)", "period ", sub("\\(Intercept\\)", "intercept", lev_case$terms))
+cases$leverage_pooled_periods <- lev_case
 cases$software <- list(R = R.version.string,
                        clubSandwich = as.character(packageVersion("clubSandwich")),
                        estimatr = as.character(packageVersion("estimatr")),
