@@ -155,7 +155,7 @@ Design build_fd(const Context& ctx) {
     std::vector<Index> invariant;
     for (std::size_t j = 0; j < ctx.k_reg; ++j, ++col) {
         const Column& x = ctx.data.regressors[j];
-        // (double sums suffice: they only feed the 1e-13 "no variation" threshold)
+        // (double sums suffice: they only feed the kConstantTolerance "no variation" threshold)
         double levels = 0, diffs = 0;
         for (Index i = 0; i < N; ++i) {
             const double a = value(x, later[static_cast<std::size_t>(i)]);
@@ -174,9 +174,9 @@ Design build_fd(const Context& ctx) {
                 dd += (a - b) * (a - b);
             }
             levels = (dd == 0) ? 1.0 : 0.0;
-            diffs = (dd == 0 || std::sqrt(dd) <= 1e-13L * std::sqrt(l)) ? 0.0 : 1.0;
+            diffs = (dd == 0 || std::sqrt(dd) <= static_cast<long double>(kConstantTolerance) * std::sqrt(l)) ? 0.0 : 1.0;
         }
-        if (N > 0 && (diffs == 0 || std::sqrt(diffs) <= 1e-13 * std::sqrt(levels))) invariant.push_back(col);
+        if (N > 0 && (diffs == 0 || std::sqrt(diffs) <= kConstantTolerance * std::sqrt(levels))) invariant.push_back(col);
         in.terms.push_back(ctx.regressor_names[j]);
     }
     for (std::int32_t p : pcols) {
@@ -224,7 +224,7 @@ Design build_within(const Context& ctx, const std::vector<std::size_t>& rows, co
     for (std::size_t j = 0; j < ctx.k_reg; ++j, ++col) {
         const Column& x = ctx.data.regressors[j];
         const std::vector<double> means = run_means(runs, [&](std::size_t k) { return value(x, rows[k]); });
-        double levels = 0, within = 0;  // only for the 1e-13 threshold: double suffices
+        double levels = 0, within = 0;  // only for the kConstantTolerance threshold: double suffices
         for (std::size_t r = 0; r < runs.begin.size(); ++r)
             for (std::size_t k = runs.begin[r]; k < runs.end[r]; ++k) {
                 const double v = value(x, rows[k]);
@@ -243,9 +243,9 @@ Design build_within(const Context& ctx, const std::vector<std::size_t>& rows, co
                 w += dm * dm;
             }
             levels = 1.0;
-            within = (w == 0 || std::sqrt(w) <= 1e-13L * std::sqrt(l)) ? 0.0 : 1.0;
+            within = (w == 0 || std::sqrt(w) <= static_cast<long double>(kConstantTolerance) * std::sqrt(l)) ? 0.0 : 1.0;
         }
-        if (within == 0 || std::sqrt(within) <= 1e-13 * std::sqrt(levels)) invariant.push_back(col);
+        if (within == 0 || std::sqrt(within) <= kConstantTolerance * std::sqrt(levels)) invariant.push_back(col);
         in.terms.push_back(ctx.regressor_names[j]);
     }
     for (std::int32_t p : pcols) {

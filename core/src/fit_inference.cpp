@@ -78,7 +78,7 @@ void term_inference(Fit& fit, const OutcomeSums& ysums) {
     // must not be shown as tiny SEs with huge t, so they are set to 0, and t and p are
     // undefined (NaN here; hosts show them as not available), with a warning.
     {
-        if (static_cast<long double>(eq.ssr) <= 1e-28L * ysums.raw) {
+        if (static_cast<long double>(eq.ssr) <= kExactFitTolerance * ysums.raw) {
             fit.exact_fit = true;
             fit.covariance.matrix.setZero();
             for (Index k = 0; k < static_cast<Index>(K); ++k) {

@@ -96,6 +96,8 @@ LeanRows lean_rows(const Context& ctx);
 void term_inference(Fit& fit, const OutcomeSums& ysums);
 // tss, R-squared, adjusted R-squared, the classical F on all slopes.
 void fit_statistics(Fit& fit, const OutcomeSums& ysums);
+// The model's joint test of all regressors under its own covariance (spec_joint.cpp).
+void joint_statistics(Fit& fit);
 // within, random: R-squared variants from the slopes at levels; within: unit effects.
 void level_statistics(const Context& ctx, const std::vector<std::size_t>& rows, const UnitRuns& runs, Fit& fit);
 // Residuals and fitted values aligned to the input rows (between: every used row of a

@@ -143,6 +143,7 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     // fitted equation and fit.covariance only)
     detail::term_inference(fit, ysums);
     detail::fit_statistics(fit, ysums);
+    detail::joint_statistics(fit);
     if (spec.estimator == Estimator::within || spec.estimator == Estimator::random)
         detail::level_statistics(ctx, rows, runs, fit);
     // aligned residuals and fitted values (a lean fit has them already)

@@ -166,12 +166,23 @@ meat_cluster <- function(X, u, g) {
   crossprod(S)
 }
 
-clip_psd <- function(V) {
-  e <- eigen((V + t(V)) / 2, symmetric = TRUE)
-  lam <- pmax(e$values, 0)
-  W <- e$vectors %*% (lam * t(e$vectors))
+# Cameron, Gelbach & Miller (2011, section 2.3): negative eigenvalues set to 0, taken in
+# the scaled basis S = D V D, D = diag(ref)^-1/2 with ref = V_unit + V_period, and only
+# when S's smallest eigenvalue is below -1e-10 of its largest (weft's CONVENTIONS.md
+# "Decisions that must not depend on units of measure", core/include/weft/tolerances.hpp)
+clip_psd <- function(V, ref) {
+  D <- 1 / sqrt(abs(diag(ref)))
+  S <- D * t(D * V)
+  e <- eigen((S + t(S)) / 2, symmetric = TRUE)
+  rel <- min(e$values) / max(abs(e$values))
+  W <- V
+  if (rel < -1e-10) {
+    C <- e$vectors %*% (pmax(e$values, 0) * t(e$vectors))
+    W <- C / outer(D, D)
+  }
   dimnames(W) <- dimnames(V)
-  list(V = W, min_eig = min(e$values))
+  list(V = W, min_eig = min(eigen((V + t(V)) / 2, symmetric = TRUE, only.values = TRUE)$values),
+       clipped = rel < -1e-10, min_scaled = rel)
 }
 
 covariances <- function(eq, fit) {
@@ -207,7 +218,8 @@ covariances <- function(eq, fit) {
     both0 <- A %*% (meat_cluster(X, u, eq$unit) + meat_cluster(X, u, eq$gi) -
                       meat_cluster(X, u, cell)) %*% A
     Gmin <- min(G, Gp)
-    cl <- clip_psd(both0 * Gmin / (Gmin - 1) * (N - 1) / (N - K))
+    cl <- clip_psd(both0 * Gmin / (Gmin - 1) * (N - 1) / (N - K),
+                   A %*% (meat_cluster(X, u, eq$unit) + meat_cluster(X, u, eq$gi)) %*% A)
     out[["cluster-both"]] <- cl$V; df[["cluster-both"]] <- Gmin - 1
     # Driscoll & Kraay (1998): period sums of the scores, Bartlett weights 1 - j/(L+1),
     # lags counted in grid steps, L = floor(T^(1/4)), T = periods in the equation
@@ -227,7 +239,7 @@ covariances <- function(eq, fit) {
       out[[key]] <- A %*% S %*% A; df[[key]] <- Tn - 1
     }
   }
-  list(V = out, df = df)
+  list(V = out, df = df, both_clipped = if (exists("cl")) cl$clipped else NULL)
 }
 
 # ---- tests ----------------------------------------------------------------------------
@@ -237,8 +249,12 @@ wald <- function(b, V, terms, df2) {
   rb <- R %*% b
   # a clipped two-way covariance can leave no variance in a tested direction: weft must
   # then refuse the test (the driver checks that it does)
-  ev <- eigen(R %*% V %*% t(R), symmetric = TRUE, only.values = TRUE)$values
-  if (min(ev) <= 1e-12 * max(abs(ev))) return(list(singular = TRUE))
+  # judged in the scaled basis D (R V R') D, D = diag(R V R')^-1/2, relative 1e-12, as
+  # weft's CONVENTIONS.md "Decisions that must not depend on units of measure" asks
+  M <- R %*% V %*% t(R)
+  dg <- abs(diag(M)); D <- ifelse(dg > 0, 1 / sqrt(dg), 1)
+  ev <- eigen(D * t(D * M), symmetric = TRUE, only.values = TRUE)$values
+  if (max(abs(ev)) <= 0 || min(ev) <= 1e-12 * max(abs(ev))) return(list(singular = TRUE))
   W <- as.numeric(t(rb) %*% solve(R %*% V %*% t(R), rb))
   q <- length(terms)
   list(chi2 = W, q = q, p_chi2 = pchisq(W, q, lower.tail = FALSE),
@@ -368,6 +384,9 @@ run_case <- function(text) {
     res$se[[fam]] <- as.list(sqrt(diag(V)))
     res$wald[[fam]] <- wald(b, V, intersect(x_names, names(b)), cv$df[[fam]])
   }
+  # the model's joint test of all regressors (issue 15) is this same Wald test
+  res$joint <- res$wald
+  if (!is.null(cv$both_clipped)) res$cluster_both_clipped <- cv$both_clipped
   # a general restriction R b = r under the classical covariance: x1 - x2 = 0.25
   if (length(x_names) >= 2) {
     R <- matrix(0, 1, length(b)); R[match(x_names[1], names(b))] <- 1

@@ -169,7 +169,7 @@ def rel_diff(a, b):
 def group_of(path):
     """Row label of the summary table: case family and quantity."""
     head = path[1]
-    if head in ("se", "wald", "df"):
+    if head in ("se", "wald", "joint", "df"):
         if path[2].startswith("dk="):
             return "%s dk=L" % head
         return "%s %s" % (head, path[2])

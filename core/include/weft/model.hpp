@@ -52,18 +52,12 @@
 
 #include "weft/options.hpp"
 #include "weft/panel.hpp"
+#include "weft/tolerances.hpp"
 #include "weft/transforms.hpp"
 
 namespace weft {
 
-// Rank tolerance: after centring and scaling every working column to unit length, a
-// column whose distance from the span of the kept columns before it (|R_kk| when the
-// small R of the tall-skinny QR is re-triangularised in term order) is at most
-// kRankTolerance times its length is treated as collinear and dropped. 1e-10 keeps
-// NIST Filip (all 11 terms) while exact collinearity in double (distances of order
-// 1e-15) is caught. A column that centring reduces to below 1e-13 of its raw length is
-// a multiple of the intercept column and dropped as well.
-inline constexpr double kRankTolerance = 1e-10;
+// kRankTolerance and the other decision tolerances: weft/tolerances.hpp.
 
 enum class DropReason { collinear, no_within_variation };
 
@@ -152,7 +146,10 @@ struct CovarianceResult {
     std::size_t clusters = 0;           // G (unit), G_period, G_min (both), T (dk)
     int dk_lag = -1;                    // lag used (dk only)
     bool clipped = false;               // cluster_both: negative eigenvalues set to 0
+                                        // (decided by kClipTolerance)
     double min_eigenvalue = 0;          // cluster_both: smallest eigenvalue before clipping
+    double min_scaled_eigenvalue = 0;   // cluster_both: the same in the scaled basis, relative
+                                        // to the largest (tolerances.hpp); it decides clipping
     std::vector<std::string> warnings;
     std::string label;                  // readable, e.g. "cluster by unit (CR1)"
     std::vector<double> term_df;        // cr2: Satterthwaite df per term (term order; df is
@@ -169,6 +166,19 @@ struct RandomEffectsInfo {
     double sigma2_unit = 0;             // Swamy-Arora, negative set to 0 (with a warning)
     std::vector<double> theta_by_unit;  // per unit number (0 for units not in the equation)
     bool balanced = true;
+};
+
+// The model's joint test of all regressors (CONVENTIONS.md "The model's joint test of all
+// regressors"): the Wald test that every regressor's coefficient is 0 (not the intercept,
+// not period indicators) under the fit's own covariance, F on (q, the covariance's df);
+// under cr2 the HTZ F. Computed by spec_joint.cpp.
+struct JointTest {
+    std::vector<std::string> terms;     // the regressors tested
+    bool available = false;
+    std::string reason;                 // why not, when not available (a sentence)
+    double f = 0, df1 = 0, df2 = 0, p = 1;      // F form (cr2: HTZ)
+    double chi2 = 0, chi2_p = 1;                // W on q df
+    std::string df_rule;                // e.g. "G-1"
 };
 
 struct Fit {
@@ -197,7 +207,9 @@ struct Fit {
     std::optional<double> r2_within;    // within, random (random: corr^2 of demeaned y and demeaned X b)
     std::optional<double> r2_between;   // within, random: corr^2(ybar_i, xbar_i' b) over units
     std::optional<double> r2_overall;   // within, random: corr^2(y_it, x_it' b) over rows
-    std::optional<double> f, f_df1, f_df2, f_p;  // classical F on all slopes (all terms but the intercept)
+    std::optional<double> f, f_df1, f_df2, f_p;  // classical F of all terms but the intercept
+                                                 // (period indicators included)
+    std::optional<JointTest> joint;     // the model's joint test (empty: no regressor term)
     std::string f_rule;
     std::optional<RandomEffectsInfo> random_effects;
     std::vector<double> unit_effects;   // within: ybar_i - xbar_i' b per unit number (empty otherwise)
