@@ -862,7 +862,8 @@ OutCell value_of(const ModelRef& ref, const Arg& what_arg, const Arg& term_arg) 
         fail("WEFT.VALUE needs what: one of estimate, se, t, p, ci-low, ci-high (with a term), "
              "n, units, periods, r2, adj-r2, corr2-rows, corr2-means, corr2-deviations, sigma, "
              "df (a term's with a term), "
-             "df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped");
+             "df-residual, f, f-df1, f-df2, f-p (the joint test of all regressors), classical-f, "
+             "classical-f-df1, classical-f-df2, classical-f-p, ssr, clusters, rows-dropped");
     std::string term;
     if (term_arg.given && !term_arg.is_scalar())
         fail("term is a range of several cells; give one term name, e.g. \"intercept\"");

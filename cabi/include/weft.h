@@ -511,8 +511,17 @@ typedef struct weft_summary_item {
  *    of each per unit) and
  *    "squared correlation of outcome and slope prediction, deviations from unit means"
  *    N (for within the same number as "R-squared"), then
- *    "residual std deviation" N, "F on all slopes" N, "F df1" N, "F df2" N,
- *    "F p-value" N, "idiosyncratic variance" N and "unit effect variance" N
+ *    "residual std deviation" N, then the joint test of all regressors (the Wald
+ *    test that every regressor's coefficient is 0, not the intercept nor period
+ *    indicators, under the model's own standard errors and on their df, e.g. G-1
+ *    under cluster; under WEFT_SE_CR2 the HTZ F): "joint test of all regressors, F"
+ *    N, "joint test of all regressors, df1" N, "joint test of all regressors, df2"
+ *    N, "joint test of all regressors, p-value" N, or, when it cannot be computed
+ *    (e.g. fewer clusters than regressors), "joint test of all regressors" T
+ *    saying "not available: " and why; then the classical F of all terms but the
+ *    intercept (period indicators included, classical covariance, N-K df):
+ *    "classical F of all terms" N, "classical F df1" N, "classical F df2" N,
+ *    "classical F p-value" N; then "idiosyncratic variance" N and "unit effect variance" N
  *    (random), then one "term dropped" T per dropped term and one "warning" T per
  *    warning.
  *  Items that do not apply are left out, so the count depends on the model; look
@@ -534,7 +543,10 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
  *  deviation), "df" (df of t, F and intervals under the model's standard errors;
  *  with `term`: that term's df, which differs by term under WEFT_SE_CR2; without a
  *  term under WEFT_SE_CR2: the smallest of the terms' df),
- *  "df-residual", "f", "f-df1", "f-df2", "f-p" (F on all slopes), "ssr",
+ *  "df-residual", "f", "f-df1", "f-df2", "f-p" (the joint test of all regressors
+ *  under the model's standard errors, as the summary; NaN when it is not available;
+ *  since 0.3.0, before it was the classical F), "classical-f", "classical-f-df1",
+ *  "classical-f-df2", "classical-f-p" (the classical F of all terms), "ssr",
  *  "clusters", "rows-dropped", and for random effects "sigma2-idiosyncratic",
  *  "sigma2-unit" and "theta" (the quasi-demeaning weight; NaN when the panel is
  *  unbalanced, where theta differs between units).
@@ -688,10 +700,17 @@ WEFT_API int weft_test_serial(const weft_model *model, weft_serial_result *out);
 typedef struct weft_hausman_result {
     double statistic;          /**< H as computed (negative or too small when
                                     positive_definite is 0: read the robust form) */
-    double df;                 /**< number of slopes compared */
+    double df;                 /**< the rank of the covariance difference (equal
+                                    to the number of slopes compared when that
+                                    difference has full rank; since 0.3.0 the rank
+                                    is judged in the difference's scaled basis,
+                                    so it does not depend on units) */
     double p;                  /**< upper tail of chi-square(df) at H (1 if H <= 0) */
     double rank;               /**< rank of the covariance difference, within
-                                    minus random */
+                                    minus random: its eigenvalues in the basis of
+                                    the within variances (D (V_W - V_R) D, D =
+                                    diag(V_W)^-1/2) larger than 1e-10 of the
+                                    largest in absolute value */
     int positive_definite;     /**< 1 if the within covariance exceeds the random
                                     one in every direction (the difference is
                                     positive definite); 0: read the robust form */

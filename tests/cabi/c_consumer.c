@@ -585,10 +585,15 @@ static void test_pooled(const grunfeld *g)
     NEAR(value_of(m, "sigma", NULL), 94.408403332255, "P results.sigma");
     NEAR(value_of(m, "df", NULL), 197, "P results.inference.classical.df");
     NEAR(value_of(m, "df-residual", NULL), 197, "P results.df_residual");
-    NEAR(value_of(m, "f", NULL), 426.575731304813, "P results.f_all_terms.F");
-    NEAR(value_of(m, "f-df1", NULL), 2, "P results.f_all_terms.df1");
-    NEAR(value_of(m, "f-df2", NULL), 197, "P results.f_all_terms.df2");
-    NEAR(value_of(m, "f-p", NULL), 2.57992470719433e-72, "P results.f_all_terms.p");
+    /* the joint test of all regressors under the model's (classical) covariance */
+    NEAR(value_of(m, "f", NULL), 426.575731304814, "P results.wald_subset.classical.F");
+    NEAR(value_of(m, "f-df1", NULL), 2, "P results.wald_subset.classical.F_df_resid.df1");
+    NEAR(value_of(m, "f-df2", NULL), 197, "P results.wald_subset.classical.F_df_resid.df2");
+    NEAR(value_of(m, "f-p", NULL), 2.57992470719404e-72, "P results.wald_subset.classical.F_df_resid.p");
+    NEAR(value_of(m, "classical-f", NULL), 426.575731304813, "P results.f_all_terms.F");
+    NEAR(value_of(m, "classical-f-df1", NULL), 2, "P results.f_all_terms.df1");
+    NEAR(value_of(m, "classical-f-df2", NULL), 197, "P results.f_all_terms.df2");
+    NEAR(value_of(m, "classical-f-p", NULL), 2.57992470719433e-72, "P results.f_all_terms.p");
     NEAR(value_of(m, "n", NULL), 200, "P sample.nobs");
     NEAR(value_of(m, "units", NULL), 10, "P sample.n_units");
     NEAR(value_of(m, "periods", NULL), 20, "P sample.n_periods");
@@ -617,8 +622,10 @@ static void test_pooled(const grunfeld *g)
     NEAR(item.number, 0.812408012544728, "P results.r_squared");
     CHECK(summary_find(m, "residual std deviation", &item) > 0);
     NEAR(item.number, 94.408403332255, "P results.sigma");
-    CHECK(summary_find(m, "F on all slopes", &item) > 0);
+    CHECK(summary_find(m, "classical F of all terms", &item) > 0);
     NEAR(item.number, 426.575731304813, "P results.f_all_terms.F");
+    CHECK(summary_find(m, "joint test of all regressors, F", &item) > 0);
+    NEAR(item.number, 426.575731304814, "P results.wald_subset.classical.F");
     CHECK(summary_find(m, "squared correlation of outcome and slope prediction, unit means", &item) ==
           -1); /* pooled: left out */
     CHECK(summary_find(m, "clusters", &item) == -1);
@@ -805,6 +812,16 @@ static void test_pooled_robust(const grunfeld *g)
 
     m = fit_text(p, "pooled hc1");
     check_table(m, terms, coef, hc1, 3, "P results.se.HC1");
+    weft_model_free(m);
+    /* The joint test of all regressors under the model's covariance and df:
+       P results.wald_subset.CR1 (R sandwich + lmtest), F on (2, G-1 = 9). */
+    m = fit_text(p, "pooled cluster");
+    NEAR(value_of(m, "f", NULL), 51.5906047816128, "P results.wald_subset.CR1.F");
+    NEAR(value_of(m, "f-df2", NULL), 9, "P results.wald_subset.CR1.F_df_G_minus_1.df2");
+    NEAR(value_of(m, "f-p", NULL), 1.17341263386786e-05, "P results.wald_subset.CR1.F_df_G_minus_1.p");
+    CHECK(summary_find(m, "joint test of all regressors, df2", &item) > 0);
+    CHECK(item.kind == WEFT_ITEM_NUMBER && item.number == 9.0);
+    NEAR(value_of(m, "classical-f", NULL), 426.575731304813, "P results.f_all_terms.F (classical)");
     weft_model_free(m);
     m = fit_text(p, "hc3");
     check_table(m, terms, coef, hc3, 3, "P results.se.HC3");

@@ -239,7 +239,7 @@ covariances <- function(eq, fit) {
       out[[key]] <- A %*% S %*% A; df[[key]] <- Tn - 1
     }
   }
-  list(V = out, df = df, both_clipped = if (exists("cl")) cl$clipped else NULL)
+  list(V = out, df = df, both_clipped = if (exists("cl", inherits = FALSE)) cl$clipped else NULL)
 }
 
 # ---- tests ----------------------------------------------------------------------------
@@ -386,7 +386,7 @@ run_case <- function(text) {
   }
   # the model's joint test of all regressors (issue 15) is this same Wald test
   res$joint <- res$wald
-  if (!is.null(cv$both_clipped)) res$cluster_both_clipped <- cv$both_clipped
+  if (!is.null(cv$both_clipped)) res$cluster_both_clipped <- as.numeric(cv$both_clipped)
   # a general restriction R b = r under the classical covariance: x1 - x2 = 0.25
   if (length(x_names) >= 2) {
     R <- matrix(0, 1, length(b)); R[match(x_names[1], names(b))] <- 1
