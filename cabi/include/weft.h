@@ -294,6 +294,25 @@ WEFT_API int weft_panel_borrow_outcome(weft_panel *panel, const char *name,
 WEFT_API int weft_panel_borrow_regressor(weft_panel *panel, const char *name,
                                          const double *values, const unsigned char *missing);
 
+/** Observation weights (since 0.3.0; CONVENTIONS "Observation weights"): one weight
+ *  per row (n_rows values). Weighted least squares in every estimator but random;
+ *  every standard-error family but cr2 follows the weights. A row whose missing entry
+ *  is nonzero (a blank weight) is dropped and counted with the missing rows; a weight
+ *  of 0 leaves the row out of the estimated equation and out of N (the summary says
+ *  how many); a negative, NaN or infinite weight not marked missing is WEFT_EDATA
+ *  naming the row when a model is fitted. name labels the column in messages (NULL
+ *  or "" gives "weights"). The model word weights=NAME, which takes a regressor
+ *  column as the weights instead, must then not be used (WEFT_EDATA if both are).
+ *  weft_panel_set_weights copies values and missing. weft_panel_borrow_weights reads
+ *  them in place: ownership stays with the caller, who keeps both arrays valid and
+ *  unchanged until weft_panel_free() of this panel and weft_model_free() of every
+ *  model made from it (as the other borrow functions).
+ *  Errors: WEFT_EINVAL if panel or values is NULL, or the weights were already set. */
+WEFT_API int weft_panel_set_weights(weft_panel *panel, const char *name,
+                                    const double *values, const unsigned char *missing);
+WEFT_API int weft_panel_borrow_weights(weft_panel *panel, const char *name,
+                                       const double *values, const unsigned char *missing);
+
 /* ------------------------------------------------------------------------------
  * Panel structure report (WEFT.PANEL)
  * --------------------------------------------------------------------------- */

@@ -79,6 +79,11 @@ std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
     if (cov.kind == weft::Covariance::dk && cov.dk_lag >= 0 && se.find("lag") == std::string::npos)
         se += ", lag " + std::to_string(cov.dk_lag);
     text("standard errors", se);
+    if (fit.equation.weights.size() != 0) {
+        text("weights", fit.spec.weights.empty() ? std::string("the panel's weight column")
+                                                 : "regressor column " + fit.spec.weights);
+        number("rows with weight 0", static_cast<double>(fit.rows_zero_weight));
+    }
     number("observations used", static_cast<double>(fit.nobs));
     number("rows used", static_cast<double>(fit.rows_used));
     number("rows dropped", static_cast<double>(fit.rows_dropped));
