@@ -201,7 +201,10 @@ WEFT_API int weft_options_init(weft_options *options);
  *  applied, so a group the text does not mention has its default whatever *options
  *  held before. NULL or an empty text gives the defaults.
  *  Errors: WEFT_EINVAL if options is NULL; WEFT_EMODEL for an unknown or conflicting
- *  word, with a message naming the word and listing the accepted words. On failure
+ *  word, with a message naming the word and listing the accepted words. The word
+ *  weights=NAME (0.3.0) names a column, which the struct cannot hold: it is
+ *  WEFT_EMODEL here (so that no host drops it without noticing); pass such a text to
+ *  weft_model_new_text, or set the weights with weft_panel_set_weights. On failure
  *  *options holds the defaults. */
 WEFT_API int weft_options_parse(weft_options *options, const char *model_text);
 
@@ -554,7 +557,8 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
  *  with `term`: that term's df, which differs by term under WEFT_SE_CR2; without a
  *  term under WEFT_SE_CR2: the smallest of the terms' df),
  *  "df-residual", "f", "f-df1", "f-df2", "f-p" (F on all slopes), "ssr",
- *  "clusters", "rows-dropped", and for random effects "sigma2-idiosyncratic",
+ *  "clusters", "rows-dropped", "weighted" (1 for a weighted fit, else 0; 0.3.0),
+ *  "rows-zero-weight" (rows left out for weight 0; 0.3.0), and for random effects "sigma2-idiosyncratic",
  *  "sigma2-unit" and "theta" (the quasi-demeaning weight; NaN when the panel is
  *  unbalanced, where theta differs between units).
  *  *value receives the number (NaN on failure or when it does not apply to this
