@@ -160,7 +160,10 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
 Fit fit_model(const PanelData& data, const ModelSpec& spec) { return *fit_model_impl(data, spec, false); }
 
 Fit fit_model_lean(const PanelData& data, const ModelSpec& spec) {
-    if (detail::lean_applies(spec)) {
+    // weighted fits take the full route (the streaming route has no weights yet): go
+    // there directly rather than index the panel twice
+    const bool weighted = !spec.weights.empty() || data.weights.size() != 0;
+    if (detail::lean_applies(spec) && !weighted) {
         try {
             if (std::optional<Fit> fit = fit_model_impl(data, spec, true)) return std::move(*fit);
         } catch (const Error&) {
