@@ -26,7 +26,8 @@ const ArgumentText model_arg{
     "model",
     "Optional model words, e.g. \"within cluster\": pooled, fd, within, random, between; "
     "classical, hc0-hc3, cluster, cluster0, cluster-period, cluster-both, dk or dk=L, cr2 "
-    "(few clusters: bias-reduced, each term on its own df); periods; level=0.90; no-intercept."};
+    "(few clusters: bias-reduced, each term on its own df); periods; level=0.90; no-intercept; "
+    "weights=NAME (the regressor column headed NAME holds observation weights)."};
 
 const ArgumentText what_arg{
     "what",

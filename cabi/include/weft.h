@@ -201,7 +201,10 @@ WEFT_API int weft_options_init(weft_options *options);
  *  applied, so a group the text does not mention has its default whatever *options
  *  held before. NULL or an empty text gives the defaults.
  *  Errors: WEFT_EINVAL if options is NULL; WEFT_EMODEL for an unknown or conflicting
- *  word, with a message naming the word and listing the accepted words. On failure
+ *  word, with a message naming the word and listing the accepted words. The word
+ *  weights=NAME (0.3.0) names a column, which the struct cannot hold: it is
+ *  WEFT_EMODEL here (so that no host drops it without noticing); pass such a text to
+ *  weft_model_new_text, or set the weights with weft_panel_set_weights. On failure
  *  *options holds the defaults. */
 WEFT_API int weft_options_parse(weft_options *options, const char *model_text);
 
@@ -293,6 +296,25 @@ WEFT_API int weft_panel_borrow_outcome(weft_panel *panel, const char *name,
                                        const double *values, const unsigned char *missing);
 WEFT_API int weft_panel_borrow_regressor(weft_panel *panel, const char *name,
                                          const double *values, const unsigned char *missing);
+
+/** Observation weights (since 0.3.0; CONVENTIONS "Observation weights"): one weight
+ *  per row (n_rows values). Weighted least squares in every estimator but random;
+ *  every standard-error family but cr2 follows the weights. A row whose missing entry
+ *  is nonzero (a blank weight) is dropped and counted with the missing rows; a weight
+ *  of 0 leaves the row out of the estimated equation and out of N (the summary says
+ *  how many); a negative, NaN or infinite weight not marked missing is WEFT_EDATA
+ *  naming the row when a model is fitted. name labels the column in messages (NULL
+ *  or "" gives "weights"). The model word weights=NAME, which takes a regressor
+ *  column as the weights instead, must then not be used (WEFT_EDATA if both are).
+ *  weft_panel_set_weights copies values and missing. weft_panel_borrow_weights reads
+ *  them in place: ownership stays with the caller, who keeps both arrays valid and
+ *  unchanged until weft_panel_free() of this panel and weft_model_free() of every
+ *  model made from it (as the other borrow functions).
+ *  Errors: WEFT_EINVAL if panel or values is NULL, or the weights were already set. */
+WEFT_API int weft_panel_set_weights(weft_panel *panel, const char *name,
+                                    const double *values, const unsigned char *missing);
+WEFT_API int weft_panel_borrow_weights(weft_panel *panel, const char *name,
+                                       const double *values, const unsigned char *missing);
 
 /* ------------------------------------------------------------------------------
  * Panel structure report (WEFT.PANEL)
@@ -547,7 +569,8 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
  *  under the model's standard errors, as the summary; NaN when it is not available;
  *  since 0.3.0, before it was the classical F), "classical-f", "classical-f-df1",
  *  "classical-f-df2", "classical-f-p" (the classical F of all terms), "ssr",
- *  "clusters", "rows-dropped", and for random effects "sigma2-idiosyncratic",
+ *  "clusters", "rows-dropped", "weighted" (1 for a weighted fit, else 0; 0.3.0),
+ *  "rows-zero-weight" (rows left out for weight 0; 0.3.0), and for random effects "sigma2-idiosyncratic",
  *  "sigma2-unit" and "theta" (the quasi-demeaning weight; NaN when the panel is
  *  unbalanced, where theta differs between units).
  *  *value receives the number (NaN on failure or when it does not apply to this

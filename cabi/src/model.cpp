@@ -79,6 +79,11 @@ std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
     if (cov.kind == weft::Covariance::dk && cov.dk_lag >= 0 && se.find("lag") == std::string::npos)
         se += ", lag " + std::to_string(cov.dk_lag);
     text("standard errors", se);
+    if (fit.equation.weights.size() != 0) {
+        text("weights", fit.spec.weights.empty() ? std::string("the panel's weight column")
+                                                 : "regressor column " + fit.spec.weights);
+        number("rows with weight 0", static_cast<double>(fit.rows_zero_weight));
+    }
     number("observations used", static_cast<double>(fit.nobs));
     number("rows used", static_cast<double>(fit.rows_used));
     number("rows dropped", static_cast<double>(fit.rows_dropped));
@@ -200,6 +205,8 @@ std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
         return is_cluster(fit.covariance.kind) ? std::optional<double>(static_cast<double>(fit.covariance.clusters))
                                                : std::nullopt;
     if (what == "rows-dropped") return static_cast<double>(fit.rows_dropped);
+    if (what == "weighted") return fit.equation.weights.size() != 0 ? 1.0 : 0.0;
+    if (what == "rows-zero-weight") return static_cast<double>(fit.rows_zero_weight);
     if (what == "sigma2-idiosyncratic" || what == "sigma2-unit" || what == "theta") {
         if (!fit.random_effects) return std::nullopt;
         const weft::RandomEffectsInfo& re = *fit.random_effects;
@@ -215,7 +222,7 @@ constexpr const char* value_words =
     "estimate, se, t, p, ci-low, ci-high (with a term), n, units, periods, r2, adj-r2, corr2-rows, "
     "corr2-means, corr2-deviations, sigma, df (a term's with a term), df-residual, f, f-df1, f-df2, f-p, "
     "classical-f, classical-f-df1, classical-f-df2, classical-f-p, ssr, "
-    "clusters, rows-dropped, "
+    "clusters, rows-dropped, weighted, rows-zero-weight, "
     "sigma2-idiosyncratic, sigma2-unit, theta";
 
 }  // namespace

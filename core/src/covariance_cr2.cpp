@@ -153,6 +153,7 @@ MatrixXd contrast_map(const Equation& eq, const MatrixXd& r_inv) { return workin
 
 CovarianceResult cr2_covariance(const Equation& eq) {
     require_rows(eq, "cr2");
+    refuse_weighted(eq, "cr2", "use cluster (CR1) with weights");
     const Index K = eq.X.cols();
     const Clusters clusters = unit_clusters(eq);
     const MatrixXd r_inv = r_inverse(eq);

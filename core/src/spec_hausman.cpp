@@ -46,6 +46,8 @@ CovarianceResult classical_of(const Fit& fit) {
 }  // namespace
 
 HausmanResult hausman_test(const Fit& within, const Fit& random) {
+    detail::refuse_weighted(within.equation, "Hausman test",
+                            "random effects take no weights; use within with weights and cluster standard errors");
     if (within.spec.estimator != Estimator::within || random.spec.estimator != Estimator::random)
         throw Error(std::string("Hausman test: needs a within fit and a random fit of the same "
                                 "rows, got ") + to_word(within.spec.estimator) + " and " +
@@ -212,12 +214,19 @@ Fit fit_side(const PanelData& data, ModelSpec spec, Estimator estimator, const c
 }  // namespace
 
 HausmanResult hausman_test(const PanelData& data, const ModelSpec& spec) {
+    if (!spec.weights.empty() || data.weights.size() != 0)
+        throw Error("Hausman test: it compares within with random effects, and random effects take no "
+                    "weights in weft; remove weights= from the model, or use within with weights and "
+                    "cluster standard errors");
     const Fit within = fit_side(data, spec, Estimator::within, "Hausman test");
     const Fit random = fit_side(data, spec, Estimator::random, "Hausman test");
     return hausman_test(within, random);
 }
 
 EffectsResult effects_test(const Fit& within, const Fit& pooled) {
+    detail::refuse_weighted(within.equation, "unit-effects test",
+                            "remove weights= from the model for this test, or judge the unit effects from the "
+                            "weighted within fit's cluster standard errors");
     if (within.spec.estimator != Estimator::within || pooled.spec.estimator != Estimator::pooled ||
         pooled.equation.intercept_column < 0)
         throw Error(std::string("unit-effects test: needs a within fit and a pooled fit with "

@@ -30,8 +30,16 @@
 //   the same equation without refitting; solve_equation() runs an auxiliary OLS through
 //   the same solver (with units/periods so that cluster covariances work on it too).
 //
+// - Weights (ModelSpec::weights or PanelData::weights; CONVENTIONS.md "Observation
+//   weights"): the estimated equation is weighted least squares held as OLS on the rows
+//   sqrt(w_i) [x_i, y_i]: Equation::X, y, residual and fitted are those scaled rows and
+//   Equation::weights holds w_i, so compute_covariance on it is the weighted covariance.
+//   Fit::residuals and Fit::fitted are in the outcome's units (y - x'b, x'b).
+//
 // Stability: fields may be added; existing names and meanings do not change. Changes
 // are announced here:
+//   2026-12-05: observation weights: ModelSpec::weights, PanelData::weights,
+//   Equation::weights, Fit::rows_zero_weight.
 //   2026-12-04: Covariance::cr2 and CovarianceResult::term_df (per-term df: t, p and
 //   intervals of term k use term_df[k] when it is not empty).
 //   2026-12-02: fit_model_lean and Equation::lean_rows / rows_held() added (lean fits for
@@ -98,6 +106,8 @@ struct Equation {
     std::size_t n_units = 0;            // distinct units among the equation rows
     std::size_t n_periods = 0;          // distinct periods among the equation rows
     std::size_t absorbed = 0;           // effects absorbed by the transform, counted in df (within: n_units)
+    Eigen::VectorXd weights;            // N equation-row weights of a weighted fit (X, y, residual,
+                                        // fitted are then scaled by sqrt(w)); empty: unweighted
 
     // A lean equation (fit_model_lean) holds no per-row arrays: X has 0 rows (but its K
     // columns), y, residual, fitted, input_row, unit and period are empty, and
@@ -193,7 +203,8 @@ struct Fit {
     // summary facts
     std::size_t rows_input = 0;         // input rows
     std::size_t rows_used = 0;          // input rows used (levels rows)
-    std::size_t rows_dropped = 0;       // rows dropped for a missing value (listwise)
+    std::size_t rows_dropped = 0;       // rows dropped for a missing value (listwise; a blank weight too)
+    std::size_t rows_zero_weight = 0;   // rows left out because their weight is 0 (not in rows_used)
     std::size_t nobs = 0;               // equation rows N (fd: differences; between: units)
     std::size_t n_units = 0;
     std::size_t n_periods = 0;
@@ -205,14 +216,15 @@ struct Fit {
     std::optional<double> r2;           // 1 - ssr/tss (within: = r2_within)
     std::optional<double> adj_r2;
     std::optional<double> r2_within;    // within, random (random: corr^2 of demeaned y and demeaned X b)
-    std::optional<double> r2_between;   // within, random: corr^2(ybar_i, xbar_i' b) over units
-    std::optional<double> r2_overall;   // within, random: corr^2(y_it, x_it' b) over rows
+    std::optional<double> r2_between;   // within, random: corr^2(ybar_i, xbar_i' b) over units (empty when weighted)
+    std::optional<double> r2_overall;   // within, random: corr^2(y_it, x_it' b) over rows (empty when weighted)
     std::optional<double> f, f_df1, f_df2, f_p;  // classical F of all terms but the intercept
                                                  // (period indicators included)
     std::optional<JointTest> joint;     // the model's joint test (empty: no regressor term)
     std::string f_rule;
     std::optional<RandomEffectsInfo> random_effects;
-    std::vector<double> unit_effects;   // within: ybar_i - xbar_i' b per unit number (empty otherwise)
+    std::vector<double> unit_effects;   // within: ybar_i - xbar_i' b per unit number, weighted unit means
+                                        // when weighted (empty otherwise)
     bool exact_fit = false;             // every residual 0 to rounding (SSR <= 1e-28 y'y): se = 0,
                                         // t and p NaN (not defined), F empty, and a warning
     std::vector<std::string> warnings;
