@@ -146,7 +146,17 @@ struct Block {
     std::size_t input_row(Index i) const { return input != nullptr ? input[i] : first + static_cast<std::size_t>(i); }
 };
 
+// The regressor columns the equation reads (LeanInput::regressors, else all).
+std::vector<const Column*> regressor_columns(const LeanInput& in) {
+    std::vector<const Column*> out;
+    if (in.regressors != nullptr) return *in.regressors;
+    for (const Column& x : in.data.regressors) out.push_back(&x);
+    return out;
+}
+
 // Reads [X, y] of the estimated equation (original scale; fd: differences) in blocks.
+// Weighted (LeanInput::weights): every row times sqrt(w), the block's keep then holding
+// sqrt(w) (0 for a row to skip).
 // Sorted input (LeanInput::is_row): a block is a range of input rows, read by
 // whole-column vector operations; rows that are not equation rows (a unit's first row,
 // a row with a missing value) are written as 0 and have weight 0. Otherwise the
@@ -174,10 +184,11 @@ public:
             }
             keep_.assign(static_cast<std::size_t>(block), 1.0);
         }
-        for (const Column& x : in.data.regressors) {
-            columns_.push_back(x.data());
-            masks_.push_back(x.mask());
+        for (const Column* x : regressor_columns(in)) {
+            columns_.push_back(x->data());
+            masks_.push_back(x->mask());
         }
+        if (in.weights != nullptr) weights_ = in.weights->data();
         columns_.push_back(in.data.outcome.data());
         masks_.push_back(in.data.outcome.mask());
     }
@@ -211,6 +222,7 @@ public:
             // the block's weights from the row marks (0 or 1)
             for (Index i = 0; i < b; ++i) keep_[static_cast<std::size_t>(i)] = marks_[a + static_cast<std::size_t>(i)] != 0 ? 1.0 : 0.0;
             blk.keep = keep_.data();
+            if (weights_ != nullptr) root_weights(blk);
             for (Index c = 0; c < width(); ++c) {
                 const double* x = columns_[static_cast<std::size_t>(c)];
                 // a column without a mask is checked in the same loop that reads it
@@ -225,6 +237,7 @@ public:
                 if (levels != nullptr) (*levels)[c] += squares;
                 if (!finite) finite_ = false;
             }
+            if (weights_ != nullptr) weigh_block(out, col0, b);
             return blk;
         }
         const std::vector<std::size_t>& later = *in_.later;
@@ -233,6 +246,7 @@ public:
         blk.rows = end - first;
         blk.keep = keep_.data();
         blk.input = later.data() + first;
+        if (weights_ != nullptr) root_weights(blk);
         while (cursor_ < pieces_.size() && pieces_[cursor_].at + pieces_[cursor_].length <= first) ++cursor_;
         for (std::size_t q_i = cursor_; q_i < pieces_.size() && pieces_[q_i].at < end; ++q_i) {
             const Piece& q = pieces_[q_i];
@@ -250,11 +264,32 @@ public:
                 }
             }
         }
+        if (weights_ != nullptr) weigh_block(out, col0, blk.rows);
         return blk;
     }
 
+    // Weighted: the largest sqrt(w) read so far (the fd threshold test's bound).
+    double max_root_weight() const { return max_root_; }
+
 private:
     bool sorted() const { return in_.is_row != nullptr; }
+
+    // Weighted: the block's keep becomes sqrt(w) of each equation row's input row (fd:
+    // the later row), 0 elsewhere as before.
+    void root_weights(const Block& blk) {
+        for (Index i = 0; i < blk.rows; ++i) {
+            double& k = keep_[static_cast<std::size_t>(i)];
+            if (k == 0.0) continue;
+            k = std::sqrt(weights_[blk.input_row(i)]);
+            max_root_ = std::max(max_root_, k);
+        }
+    }
+
+    // Weighted: the block's rows times sqrt(w), after the select (rows not read are 0).
+    void weigh_block(MatrixXd& out, Index col0, Index b) const {
+        const Eigen::Map<const Eigen::ArrayXd> root(keep_.data(), b);
+        for (Index c = 0; c < width(); ++c) out.col(col0 + c).head(b).array() *= root;
+    }
 
     // Ask for the start of the next block of a column ahead of time, every
     // kPrefetchStride values: hardware prefetchers stop at each 4 KiB page of a host's
@@ -357,6 +392,8 @@ private:
     std::vector<const std::uint8_t*> masks_;
     bool finite_ = true;
     std::size_t cursor_ = 0;
+    const double* weights_ = nullptr;      // weighted: the weight column
+    double max_root_ = 0;
 };
 
 }  // namespace
@@ -371,8 +408,9 @@ struct LeanShape {
     Index c0 = 0;        // working column of the first regressor
     Index N = 0;         // equation rows
     Index block = kLeanBlockRows;
-    bool intercept = false, fd = false;
-    double n_d = 0;
+    bool intercept = false, fd = false, weighted = false;
+    double n_d = 0;       // N; weighted: sum w (the intercept's scale and the means' divisor)
+    double max_w = 0;     // weighted: the largest w
 };
 
 // What the accumulating pass gathers: SE, the Gram matrix of B = [w, v - s0, e, 0...]
@@ -451,8 +489,12 @@ FirstPass accumulate_gram(BlockReader& reader, const LeanShape& sh, MatrixXd& B)
             const double count = keep.sum();
             if (count > 0) {
                 fp.s0 = B.block(0, 1, b, m).colwise().sum().transpose() / count;
-                B.block(0, 1, b, m).rowwise() -= fp.s0.transpose();
-                B.block(0, 1, b, m).array().colwise() *= keep.array();
+                if (sh.weighted) {
+                    B.block(0, 1, b, m).noalias() -= keep * fp.s0.transpose();   // sqrt(w) (v - s0)
+                } else {
+                    B.block(0, 1, b, m).rowwise() -= fp.s0.transpose();
+                    B.block(0, 1, b, m).array().colwise() *= keep.array();
+                }
                 shifted = true;
             }
         }
@@ -466,6 +508,14 @@ FirstPass accumulate_gram(BlockReader& reader, const LeanShape& sh, MatrixXd& B)
     }
     fp.h += fp.SE.row(m + 1).head(m + 1).transpose();
     return fp;
+}
+
+// Weighted: the intercept's scale and the means' divisor become sum w (the Gram
+// matrix's count, the sum of the squared weight column sqrt(w)), and the largest w is
+// kept for the fd threshold test.
+void weighted_count(const BlockReader& reader, const FirstPass& fp, LeanShape& sh) {
+    sh.n_d = fp.SE(0, 0);
+    sh.max_w = reader.max_root_weight() * reader.max_root_weight();
 }
 
 // The working system of the accumulated sums, or empty when the full route must
@@ -486,7 +536,8 @@ std::optional<WorkingSystem> lean_system(const LeanShape& sh, const FirstPass& f
     if (!sys.usable) return std::nullopt;
     for (Index j = 0; j < k_reg; ++j) {
         // fd: a column whose differences vanish (no variation within units)
-        if (sh.fd && !(std::sqrt(raw[j]) > kLeanDropMargin * kConstantTolerance * std::sqrt(fp.levels[j]))) return std::nullopt;
+        // (weighted: raw / max w bounds the unweighted sum the full route tests)
+        if (sh.fd && !(std::sqrt(sh.weighted ? raw[j] / sh.max_w : raw[j]) > kLeanDropMargin * kConstantTolerance * std::sqrt(fp.levels[j]))) return std::nullopt;
         // a column that centring reduces to noise (a multiple of the intercept)
         if (!(sys.scale[j] > kLeanDropMargin * kConstantTolerance * std::sqrt(raw[j]))) return std::nullopt;
     }
@@ -560,6 +611,7 @@ public:
         g_ = VectorXd::Zero(p);
         no_unit_ = VectorXd::Zero(p);
         u_.resize(block);
+        if (sh.weighted) ru_.resize(block);
     }
 
     // The whole pass; false when the full route must take over (units out of order).
@@ -570,14 +622,20 @@ public:
             const Block blk = reader.read(k, B, 0, shift_, mult);
             const Index b = blk.rows;
             residual(blk, B);
+            if (sh_.weighted) root_residual(blk);
             // by unit, the gradient is the sum of the unit score sums (taken below)
             if (!by_unit_) add_gradient(b, B);
             // per block in double (vectorised; a block's sum of 512 squares loses at most
             // a few units in the 14th digit), across blocks in long double
             ssr += static_cast<long double>(u_.head(b).squaredNorm());
-            y_sum += static_cast<long double>(B.col(sh_.k_reg).head(b).sum());
+            y_sum += static_cast<long double>(sh_.weighted ? B.col(sh_.k_reg).head(b).dot(
+                                                                  Eigen::Map<const VectorXd>(blk.keep, b))
+                                                            : B.col(sh_.k_reg).head(b).sum());
             y_squares += static_cast<long double>(B.col(sh_.k_reg).head(b).squaredNorm());
-            write_series(blk, B, out);
+            if (sh_.weighted)
+                write_weighted_series(blk, B, out);
+            else
+                write_series(blk, B, out);
             if (kind_ == Covariance::classical) continue;
             if (per_row_)
                 add_row_scores(b, B);
@@ -620,7 +678,7 @@ public:
         return meat_;
     }
 
-    long double ssr = 0, y_sum = 0, y_squares = 0;   // y here is y - t_y
+    long double ssr = 0, y_sum = 0, y_squares = 0;   // y here is y - t_y (weighted: sums of w y, w y^2)
 
 private:
     void prepare_series(LeanResult& out) const {
@@ -641,15 +699,43 @@ private:
 
     // u = y - t_y - Z c, the residual of working solution c (0 in rows that are not
     // equation rows)
+    // weighted: the intercept's column is sqrt(w) / sqrt(sum w) and the rows of B are
+    // already times sqrt(w) (0 in rows that are not equation rows)
     void residual(const Block& blk, const MatrixXd& B) {
         const Index b = blk.rows, k_reg = sh_.k_reg;
-        u_.head(b) = B.col(k_reg).head(b).array() - (sh_.intercept ? c_[0] / scale_c_ : 0.0);
+        const Eigen::Map<const Eigen::ArrayXd> keep(blk.keep, b);
+        const double constant = sh_.intercept ? c_[0] / scale_c_ : 0.0;
+        if (sh_.weighted)
+            u_.head(b) = B.col(k_reg).head(b).array() - constant * keep;
+        else
+            u_.head(b) = B.col(k_reg).head(b).array() - constant;
         u_.head(b).noalias() -= B.topLeftCorner(b, k_reg) * c_.tail(k_reg);
-        u_.head(b).array() *= Eigen::Map<const Eigen::ArrayXd>(blk.keep, b);
+        if (!sh_.weighted) u_.head(b).array() *= keep;
+    }
+
+    // weighted: ru_ = sqrt(w) u, what the intercept's column takes of each residual
+    void root_residual(const Block& blk) {
+        const Index b = blk.rows;
+        ru_.head(b) = u_.head(b).cwiseProduct(Eigen::Map<const VectorXd>(blk.keep, b));
+    }
+    const double* intercept_u() const { return sh_.weighted ? ru_.data() : u_.data(); }
+
+    // weighted: residuals in the outcome's units, u / sqrt(w), fitted y - u / sqrt(w)
+    // (as unweigh_series does on the full route)
+    void write_weighted_series(const Block& blk, const MatrixXd& B, LeanResult& out) const {
+        const Index k_reg = sh_.k_reg;
+        for (Index i = 0; i < blk.rows; ++i) {
+            const double root = blk.keep[i];
+            if (root == 0.0) continue;   // not an equation row: stays 0 and undefined
+            const std::size_t row = blk.input_row(i);
+            out.residuals.value[row] = u_[i] / root;
+            out.fitted.value[row] = (B(i, k_reg) - u_[i]) / root + shift_y_;
+            if (blk.input != nullptr) out.residuals.defined[row] = out.fitted.defined[row] = 1;
+        }
     }
 
     void add_gradient(Index b, const MatrixXd& B) {
-        if (sh_.intercept) g_[0] += u_.head(b).sum() / scale_c_;
+        if (sh_.intercept) g_[0] += Eigen::Map<const VectorXd>(intercept_u(), b).sum() / scale_c_;
         g_.tail(sh_.k_reg).noalias() += B.topLeftCorner(b, sh_.k_reg).transpose() * u_.head(b);
     }
 
@@ -674,7 +760,7 @@ private:
 
     // hc0/hc1: scores z_i u_i in the working basis (0 in rows of weight 0)
     void add_row_scores(Index b, const MatrixXd& B) {
-        if (sh_.intercept) W_.col(0).head(b) = u_.head(b) / scale_c_;
+        if (sh_.intercept) W_.col(0).head(b) = Eigen::Map<const VectorXd>(intercept_u(), b) / scale_c_;
         W_.block(0, sh_.c0, b, sh_.k_reg) = B.topLeftCorner(b, sh_.k_reg).array().colwise() * u_.head(b).array();
         meat_.selfadjointView<Eigen::Lower>().rankUpdate(W_.topRows(b).transpose());
     }
@@ -684,6 +770,7 @@ private:
     void add_period_scores(const Block& blk, const MatrixXd& B) {
         const Index b = blk.rows, c0 = sh_.c0, k_reg = sh_.k_reg;
         double* sums_t = period_sums_.data();
+        const double* iu = intercept_u();
         for (Index i = 0; i < b; ++i) ids_[static_cast<std::size_t>(i)] = id_of_row_[blk.input_row(i)];
         for (Index col = -c0; col < k_reg; ++col) {
             double* target = sums_t + (col + c0) * static_cast<Index>(periods_);
@@ -691,7 +778,7 @@ private:
             for (Index i = 0; i < b; ++i) {
                 const std::int32_t id = ids_[static_cast<std::size_t>(i)];
                 if (id < 0) continue;
-                target[id] += (z != nullptr ? z[i] : 1.0 / scale_c_) * u_[i];
+                target[id] += z != nullptr ? z[i] * u_[i] : (1.0 / scale_c_) * iu[i];
             }
         }
     }
@@ -731,8 +818,9 @@ private:
         const Index c0 = sh_.c0, k_reg = sh_.k_reg;
         const double* ui = u_.data() + i;
         if (sh_.intercept) {
+            const double* iu = intercept_u() + i;
             double t = 0;
-            for (Index r = 0; r < len; ++r) t += ui[r];
+            for (Index r = 0; r < len; ++r) t += iu[r];
             sum[0] += t / scale_c_;
         }
         // four columns at a time: four independent sums keep the adder busy
@@ -792,6 +880,7 @@ private:
     VectorXd g_;
     VectorXd no_unit_;      // by unit: score sums of rows without a unit
     VectorXd u_;
+    VectorXd ru_;           // weighted: sqrt(w) u
     bool units_in_order_ = true;
 };
 
@@ -805,7 +894,8 @@ private:
 std::optional<LeanResult> lean_equation(const LeanInput& in) {
     LeanShape sh;
     sh.fd = in.spec.estimator == Estimator::fd;
-    sh.k_reg = static_cast<Index>(in.data.regressors.size());
+    sh.k_reg = static_cast<Index>(in.regressor_names.size());
+    sh.weighted = in.weights != nullptr;
     if (sh.k_reg == 0) return std::nullopt;
     sh.N = static_cast<Index>(in.count);
     sh.m = sh.k_reg + 1;
@@ -820,6 +910,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     const FirstPass fp = accumulate_gram(reader, sh, B);
     // a NaN or infinity outside the masks: the full route words the message
     if (!reader.values_finite()) return std::nullopt;
+    if (sh.weighted) weighted_count(reader, fp, sh);
     MatrixXd R;
     const std::optional<WorkingSystem> sys = lean_system(sh, fp, R);
     if (!sys) return std::nullopt;
@@ -849,7 +940,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     eq.n_units = in.units;
     eq.n_periods = in.periods;
     {
-        const long double n_l = static_cast<long double>(sh.N);
+        const long double n_l = static_cast<long double>(sh.n_d);   // N exactly; weighted: sum w
         const long double shift_y_l = shift_y;
         const long double mean = pass.y_sum / n_l;           // of y - t_y
         out.outcome.sum = pass.y_sum + n_l * shift_y_l;

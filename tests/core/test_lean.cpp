@@ -157,6 +157,31 @@ void compare(const weft::PanelData& data, const std::string& text, bool expect_l
 
 const char* const kLeanWords[] = {"classical", "hc0", "hc1", "cluster", "cluster0", "cluster-period", "dk", "dk=2"};
 
+// Random observation weights (uniform on 0.2..5, every 17th row 0, every 19th blank),
+// as the panel's weight column or, named "w", as one more regressor for weights=w
+// (inserted first, so that the equation's regressors are not its neighbours).
+void add_weights(weft::PanelData& d, unsigned seed, bool as_regressor) {
+    std::mt19937_64 rng(seed);
+    std::uniform_real_distribution<double> uniform(0.2, 5.0);
+    const std::size_t n = d.outcome.size();
+    weft::Column w;
+    w.name = "w";
+    w.missing.assign(n, 0);
+    for (std::size_t i = 0; i < n; ++i) {
+        double v = uniform(rng);
+        if (i % 17 == 4) v = 0.0;
+        if (i % 19 == 6) {
+            w.missing[i] = 1;
+            v = std::nan("");
+        }
+        w.values.push_back(v);
+    }
+    if (as_regressor)
+        d.regressors.insert(d.regressors.begin(), w);
+    else
+        d.weights = w;
+}
+
 }  // namespace
 
 TEST_CASE("lean fit equals the full fit: pooled and fd, every covariance it computes", "[lean]") {
@@ -284,4 +309,74 @@ TEST_CASE("lean fit gives the full fit's message for bad input", "[lean]") {
             CHECK(full != "(no error)");
             CHECK(message(bad[b], text, true) == full);
         }
+}
+
+TEST_CASE("lean fit equals the full fit with observation weights: pooled and fd, every covariance it computes",
+          "[lean][weights]") {
+    // the weighted full route is checked against R elsewhere (test_weights.cpp, the
+    // oracle); here the streaming route must give its numbers, residuals and fitted
+    // values (in the outcome's units) to rounding
+    Shape sorted;
+    sorted.seed = 51;
+    Shape all;
+    all.shuffle = all.gaps = all.missing = true;
+    all.seed = 53;
+    all.units = 60;
+    all.periods = 9;
+    all.k = 4;
+    for (const Shape& s : {sorted, all})
+        for (bool as_regressor : {false, true}) {
+            weft::PanelData d = make_data(s);
+            add_weights(d, s.seed + 1, as_regressor);
+            INFO("shuffle " << s.shuffle << ", weights as regressor " << as_regressor);
+            const std::string word = as_regressor ? " weights=w" : "";
+            for (const char* estimator : {"pooled", "fd"})
+                for (const char* cov : kLeanWords)
+                    for (const char* intercept : {"", " no-intercept"})
+                        compare(d, std::string(estimator) + " " + cov + intercept + word, true);
+        }
+}
+
+TEST_CASE("lean fit equals the full fit with observation weights on a panel larger than its starting sample",
+          "[lean][weights]") {
+    Shape big;
+    big.units = 5000;
+    big.periods = 10;
+    big.k = 4;
+    big.seed = 61;
+    Shape big_shuffled = big;
+    big_shuffled.shuffle = true;
+    big_shuffled.missing = true;
+    big_shuffled.seed = 63;
+    for (const Shape& s : {big, big_shuffled}) {
+        weft::PanelData d = make_data(s);
+        add_weights(d, s.seed + 1, s.shuffle);
+        INFO("shuffle " << s.shuffle);
+        const std::string word = s.shuffle ? " weights=w" : "";
+        for (const char* text : {"pooled cluster", "fd cluster", "fd classical no-intercept", "pooled dk", "fd hc1"})
+            compare(d, text + word, true);
+    }
+}
+
+TEST_CASE("lean fit with weights all 1 equals the unweighted lean fit", "[lean][weights]") {
+    // identity: w = 1 everywhere is the unweighted fit (CONVENTIONS.md "Observation weights")
+    Shape s;
+    s.shuffle = s.missing = true;
+    s.seed = 71;
+    weft::PanelData d = make_data(s);
+    const weft::PanelData plain = d;
+    d.weights.name = "w";
+    d.weights.values.assign(d.outcome.size(), 1.0);
+    for (const char* text : {"pooled cluster", "fd hc1", "pooled dk"}) {
+        INFO(text);
+        const weft::ModelSpec spec = weft::parse_model_text(text);
+        const weft::Fit a = weft::fit_model_lean(d, spec);
+        const weft::Fit b = weft::fit_model_lean(plain, spec);
+        CHECK(!a.equation.rows_held());
+        for (Eigen::Index k = 0; k < b.coef.size(); ++k) {
+            close(a.coef[k], b.coef[k], 1e-12, "estimate");
+            close(a.se[k], b.se[k], 1e-12, "se");
+        }
+        close(a.ssr, b.ssr, 1e-12, "ssr");
+    }
 }

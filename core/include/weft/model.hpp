@@ -107,7 +107,8 @@ struct Equation {
     std::size_t n_periods = 0;          // distinct periods among the equation rows
     std::size_t absorbed = 0;           // effects absorbed by the transform, counted in df (within: n_units)
     Eigen::VectorXd weights;            // N equation-row weights of a weighted fit (X, y, residual,
-                                        // fitted are then scaled by sqrt(w)); empty: unweighted
+                                        // fitted are then scaled by sqrt(w)); empty: unweighted,
+                                        // or a lean equation (which holds no rows)
 
     // A lean equation (fit_model_lean) holds no per-row arrays: X has 0 rows (but its K
     // columns), y, residual, fitted, input_row, unit and period are empty, and
@@ -243,7 +244,8 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec);
 // The same Fit as fit_model, computed where possible in streaming passes over the
 // columns that never hold the estimated equation's rows: pooled and fd without period
 // indicators, covariance classical, hc0, hc1, cluster, cluster0, cluster-period or dk,
-// a well-conditioned design (the solver's Gram route) with no term to drop. Its
+// a well-conditioned design (the solver's Gram route) with no term to drop, weighted
+// or not (a weighted lean equation leaves Equation::weights empty: it holds no rows). Its
 // Fit::equation is then lean (Equation::rows_held() is false); Fit::residuals and
 // Fit::fitted are filled as always. Anywhere else it is fit_model(data, spec). The tests
 // that need the equation's rows (heteroskedasticity, serial correlation, unit effects,
