@@ -86,16 +86,16 @@ void check_column(const Column& column, std::size_t n_rows, const char* expected
 namespace {
 
 void check_units(const UnitColumn& units, std::size_t first_row_number) {
-    if (units.is_text() && !units.numbers.empty())
+    if (!units.borrowed() && !units.text.empty() && !units.numbers.empty())
         throw Error("units: give the unit ids either as text or as numbers, not both");
     const std::size_t n = units.size();
-    if (!units.missing.empty() && units.missing.size() != n)
-        throw Error("units: the missing-value mask has " + std::to_string(units.missing.size()) +
+    if (units.mask_size() != 0 && units.mask_size() != n)
+        throw Error("units: the missing-value mask has " + std::to_string(units.mask_size()) +
                     " entries for " + std::to_string(n) + " rows");
     if (!units.is_text()) {
         for (std::size_t i = 0; i < n; ++i) {
             if (units.is_missing(i)) continue;
-            if (!std::isfinite(units.numbers[i]))
+            if (!std::isfinite(units.number_data()[i]))
                 throw Error("units, row " + std::to_string(first_row_number + i) +
                             ": the unit id is not a finite number; leave the cell blank or "
                             "enter an id");
@@ -113,11 +113,12 @@ void label_sorted(const UnitColumn& units, const std::vector<std::size_t>& rows,
     std::int32_t id = -1;
     for (std::size_t k = 0; k < rows.size(); ++k) {
         const std::size_t i = rows[k];
-        const bool first = units.is_text() ? k == 0 || units.text[rows[k - 1]] != units.text[i]
-                                           : k == 0 || units.numbers[rows[k - 1]] != units.numbers[i];
+        const bool first = units.is_text() ? k == 0 || units.id_text(rows[k - 1]) != units.id_text(i)
+                                           : k == 0 || units.number_data()[rows[k - 1]] != units.number_data()[i];
         if (first) {
             index.unit_start.push_back(k);
-            index.unit_labels.push_back(units.is_text() ? units.text[i] : format_number(units.numbers[i]));
+            index.unit_labels.push_back(units.is_text() ? std::string(units.id_text(i))
+                                                        : format_number(units.number_data()[i]));
             ++id;
         }
         index.unit_of_row[i] = id;
@@ -132,7 +133,7 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
     const std::size_t n = units.size();
     std::vector<std::size_t> rows;
     reserve_large(rows, n);
-    const bool none_missing = !units.is_text() && units.missing.empty() &&
+    const bool none_missing = !units.is_text() && units.mask() == nullptr &&
                               (periods == nullptr || periods->mask() == nullptr);
     if (none_missing) {
         rows.resize(n);
@@ -148,7 +149,7 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
     bool sorted = false;   // the rows came in (unit, period) order
     if (!units.is_text() && periods != nullptr) {
         // numeric ids with periods: input usually comes sorted, tested pair by pair
-        const double* u = units.numbers.data();
+        const double* u = units.number_data();
         const double* p = periods->data();
         sorted = true;
         for (std::size_t k = 1; k < rows.size() && sorted; ++k) {
@@ -159,11 +160,10 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
     if (units.is_text() && periods != nullptr) {
         // text ids already in (unit, period) order: the same test, stopping at the first
         // row out of place (at once for a sheet sorted by period)
-        const std::vector<std::string>& t = units.text;
         sorted = true;
         for (std::size_t k = 1; k < rows.size() && sorted; ++k) {
             const std::size_t a = rows[k - 1], b = rows[k];
-            const int c = t[a].compare(t[b]);
+            const int c = units.id_text(a).compare(units.id_text(b));
             const double pa = periods->value(a), pb = periods->value(b);
             sorted = c < 0 || (c == 0 && (pa < pb || (pa == pb && a < b)));
         }
@@ -199,9 +199,9 @@ Error duplicate_pair(const std::string& unit, double period, std::size_t first_r
 bool index_sorted_numbers(const UnitColumn& units, const Column& periods, PanelIndex& index,
                           bool reject_duplicates, std::size_t& duplicates) {
     const std::size_t n = units.size();
-    if (units.is_text() || !units.missing.empty() || periods.mask() != nullptr || periods.size() != n || n == 0)
+    if (units.is_text() || units.mask() != nullptr || periods.mask() != nullptr || periods.size() != n || n == 0)
         return false;
-    const double* u = units.numbers.data();
+    const double* u = units.number_data();
     const double* p = periods.data();
     index.n_rows = n;
     assign_large(index.unit_of_row, n, std::int32_t{0});

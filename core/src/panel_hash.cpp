@@ -96,11 +96,10 @@ std::vector<std::size_t> group_rows_hashed(const UnitColumn& units, const Column
     assign_large(key_of_row, n, std::int32_t{-1});
     FirstSeen keys(std::min<std::size_t>(valid.size(), 1u << 16));
     if (text) {
-        const std::vector<std::string>& t = units.text;
-        auto same = [&](std::size_t a, std::size_t b) { return t[a] == t[b]; };
-        for (const std::size_t r : valid) key_of_row[r] = keys.find_or_add(hash_bytes(t[r]), r, same);
+        auto same = [&](std::size_t a, std::size_t b) { return units.id_text(a) == units.id_text(b); };
+        for (const std::size_t r : valid) key_of_row[r] = keys.find_or_add(hash_bytes(units.id_text(r)), r, same);
     } else {
-        const double* u = units.numbers.data();
+        const double* u = units.number_data();
         auto same = [&](std::size_t a, std::size_t b) { return u[a] == u[b]; };
         for (const std::size_t r : valid) key_of_row[r] = keys.find_or_add(hash_number(u[r]), r, same);
     }
@@ -110,13 +109,13 @@ std::vector<std::size_t> group_rows_hashed(const UnitColumn& units, const Column
     for (std::size_t k = 0; k < n_units; ++k) by_value[k] = static_cast<std::int32_t>(k);
     if (text) {
         std::sort(by_value.begin(), by_value.end(), [&](std::int32_t a, std::int32_t b) {
-            return units.text[keys.first_row[static_cast<std::size_t>(a)]].compare(
-                       units.text[keys.first_row[static_cast<std::size_t>(b)]]) < 0;
+            return units.id_text(keys.first_row[static_cast<std::size_t>(a)])
+                       .compare(units.id_text(keys.first_row[static_cast<std::size_t>(b)])) < 0;
         });
     } else {
         std::sort(by_value.begin(), by_value.end(), [&](std::int32_t a, std::int32_t b) {
-            return units.numbers[keys.first_row[static_cast<std::size_t>(a)]] <
-                   units.numbers[keys.first_row[static_cast<std::size_t>(b)]];
+            return units.number_data()[keys.first_row[static_cast<std::size_t>(a)]] <
+                   units.number_data()[keys.first_row[static_cast<std::size_t>(b)]];
         });
     }
     std::vector<std::int32_t> unit_of_key(n_units);
@@ -126,7 +125,7 @@ std::vector<std::size_t> group_rows_hashed(const UnitColumn& units, const Column
         const std::size_t key = static_cast<std::size_t>(by_value[v]);
         unit_of_key[key] = static_cast<std::int32_t>(v);
         const std::size_t first = keys.first_row[key];
-        index.unit_labels.push_back(text ? units.text[first] : format_number(units.numbers[first]));
+        index.unit_labels.push_back(text ? std::string(units.id_text(first)) : format_number(units.number_data()[first]));
     }
     // 3. counting sort of the rows by unit (input order kept within a unit)
     assign_large(index.unit_of_row, n, std::int32_t{-1});
