@@ -1,6 +1,8 @@
 #include "functions.hpp"
 
 #include "cache.hpp"
+#include "sheet_checks.hpp"
+#include "warnings_view.hpp"
 #include "trace.hpp"
 
 #include <weft.h>
@@ -87,7 +89,10 @@ struct UnitColumn {
 };
 
 // Rows start..end-1 of column c; anything but a number (blank, text) is missing.
-NumericColumn read_numbers(const CellGrid& t, std::size_t c, std::size_t start, std::size_t end) {
+// With `scan`, an error value or a number stored as text is refused and other
+// text is counted (sheet_checks.hpp).
+NumericColumn read_numbers(const CellGrid& t, std::size_t c, std::size_t start, std::size_t end,
+                           TextCells* scan = nullptr, const char* name = "") {
     NumericColumn col;
     const std::size_t n = end - start;
     col.values.assign(n, 0.0);
@@ -97,6 +102,8 @@ NumericColumn read_numbers(const CellGrid& t, std::size_t c, std::size_t start, 
         if (cell.is_number()) {
             col.values[i] = cell.number;
             col.missing[i] = 0;
+        } else if (scan != nullptr && !cell.is_blank()) {
+            scan->note({name, &t}, start + i, c, cell);
         }
     }
     return col;
@@ -114,6 +121,7 @@ UnitColumn read_units(const CellGrid& t, std::size_t start, std::size_t end) {
         col.ids.assign(n, std::string());
         for (std::size_t i = 0; i < n; ++i) {
             Cell cell = t.cell(start + i, 0);
+            TextCells::note_error({"units", &t}, start + i, 0, cell);
             if (cell.is_text()) {
                 col.ids[i] = std::move(cell.text);
                 col.missing[i] = 0;
@@ -126,6 +134,7 @@ UnitColumn read_units(const CellGrid& t, std::size_t start, std::size_t end) {
         col.numbers.assign(n, 0.0);
         for (std::size_t i = 0; i < n; ++i) {
             const Cell cell = t.cell(start + i, 0);
+            TextCells::note_error({"units", &t}, start + i, 0, cell);
             if (cell.is_number()) {
                 col.numbers[i] = cell.number;
                 col.missing[i] = 0;
@@ -201,6 +210,7 @@ struct PanelInput {
     UnitColumn units;
     NumericColumn periods;
     Hash128 hash;
+    std::vector<std::string> warnings;  // about the cells (sheet_checks.hpp)
 };
 
 bool all_missing(const std::vector<unsigned char>& missing) {
@@ -228,6 +238,22 @@ void require_some_values(const PanelInput& p) {
              "; periods must be numbers or dates (a text period is read as missing)");
 }
 
+// A regressor column equal to the outcome in every row (the outcome's range
+// selected among the regressors too) gives a coefficient of 1 and nothing else.
+std::vector<std::string> same_as_outcome_warnings(const PanelInput& p) {
+    std::vector<std::string> out;
+    for (std::size_t k = 0; k < p.regressors.size(); ++k) {
+        const NumericColumn& x = p.regressors[k];
+        if (x.missing != p.outcome.missing || x.values != p.outcome.values) continue;
+        const std::string name =
+            p.regressor_names[k].empty() ? "x" + std::to_string(k + 1) : p.regressor_names[k];
+        out.push_back("regressor " + quoted(name) + " (column " + std::to_string(k + 1) +
+                      " of regressors) equals the outcome in every row; leave the outcome's "
+                      "column out of regressors");
+    }
+    return out;
+}
+
 // regressors_optional: a grid of no columns means no regressors (the controls of the
 // event functions); otherwise it is refused.
 PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
@@ -236,6 +262,11 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     require_one_column(in.periods, "periods", "the period of each row");
     const bool no_regressors = in.regressors.col_count() == 0;
     if (no_regressors && !regressors_optional) fail("regressors is empty; give one column per regressor");
+    if (no_regressors)
+        require_same_start({{"outcome", &in.outcome}, {"units", &in.units}, {"periods", &in.periods}});
+    else
+        require_same_start({{"outcome", &in.outcome}, {"regressors", &in.regressors},
+                            {"units", &in.units}, {"periods", &in.periods}});
     if (!no_regressors) require_same_rows(in.regressors, "regressors", in.outcome, "outcome");
     require_same_rows(in.units, "units", in.outcome, "outcome");
     require_same_rows(in.periods, "periods", in.outcome, "outcome");
@@ -253,6 +284,8 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     const CellGrid &outcome = in.outcome, &regressors = in.regressors, &units = in.units,
                    &periods = in.periods;
     const std::size_t n_regressors = regressors.col_count();
+    require_consistent_headers({"outcome", &outcome}, p.header,
+                               {{"regressors", &regressors}, {"periods", &periods}});
 
     if (p.header) {
         p.outcome_name = header_text(outcome.cell(0, 0));
@@ -261,7 +294,8 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     } else {
         p.regressor_names.assign(n_regressors, std::string());
     }
-    p.outcome = read_numbers(outcome, 0, start, rows);
+    TextCells scan;
+    p.outcome = read_numbers(outcome, 0, start, rows, &scan, "outcome");
     // One pass over the rows for all regressors: the table is row-major, so a pass
     // per column would touch every row once per column.
     p.regressors.resize(n_regressors);
@@ -272,14 +306,21 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     for (std::size_t i = 0; i < p.n; ++i) {
         for (std::size_t c = 0; c < n_regressors; ++c) {
             const Cell cell = regressors.cell(start + i, c);
-            if (!cell.is_number()) continue;
+            if (!cell.is_number()) {
+                if (!cell.is_blank()) scan.note({"regressors", &regressors}, start + i, c, cell);
+                continue;
+            }
             p.regressors[c].values[i] = cell.number;
             p.regressors[c].missing[i] = 0;
         }
     }
     p.units = read_units(units, start, rows);
-    p.periods = read_numbers(periods, 0, start, rows);
+    p.periods = read_numbers(periods, 0, start, rows, &scan, "periods");
     require_some_values(p);
+    p.warnings = scan.warnings();
+    for (std::string& w : hidden_row_warnings({{"outcome", &outcome}, {"units", &units}}, start, rows))
+        p.warnings.push_back(std::move(w));
+    for (std::string& w : same_as_outcome_warnings(p)) p.warnings.push_back(std::move(w));
 
     Hasher h;
     h.add_u64(p.first_row);
@@ -375,6 +416,7 @@ struct FitEntry {
     std::shared_ptr<PanelEntry> panel;  // for the tests that fit other estimators
     bool header = false;
     std::size_t n = 0;
+    std::vector<std::string> warnings;  // about the cells the fit read
 };
 constexpr std::size_t kFitsKept = 32;
 constexpr std::size_t kFitCellBudget = std::size_t{64} << 20;
@@ -439,6 +481,7 @@ struct CallEntry {
     Hash128 panel_key;  // PanelInput::hash, the key of panel_cache
     bool header = false;
     std::size_t n = 0;
+    std::vector<std::string> warnings;  // PanelInput::warnings
 };
 LruCache<CallEntry> call_cache(16);
 
@@ -534,7 +577,8 @@ struct Fitted {
             CallTrace::mark("model");
             if (cells != nullptr)
                 call_cache.put(call_key, std::make_shared<CallEntry>(CallEntry{
-                                             model_key, input.hash, input.header, input.n}));
+                                             model_key, input.hash, input.header, input.n,
+                                             input.warnings}));
         }
         if (!entry->error.empty()) throw UserError(UserError::FullText{}, entry->error);
         model = entry->model.get();
@@ -567,6 +611,7 @@ struct Fitted {
         panel = kept->panel;
         input.header = kept->header;
         input.n = kept->n;
+        input.warnings = kept->warnings;
         model = entry->model.get();
     }
 
@@ -586,6 +631,7 @@ private:
         input.hash = call->panel_key;
         input.header = call->header;
         input.n = call->n;
+        input.warnings = call->warnings;
         return found;
     }
 };
@@ -601,6 +647,20 @@ struct ModelRef {
 Fitted fitted_of(const ModelRef& r) {
     if (r.fit != nullptr) return Fitted(*r.fit);
     return Fitted(*r.source, *r.model);
+}
+
+// The warnings about the cells, then the fit's own (for the layouts that do not
+// list the fit's warnings themselves).
+std::vector<std::string> all_warnings(const Fitted& f) {
+    std::vector<std::string> out = f.input.warnings;
+    size_t n = 0;
+    check(weft_model_warning_count(f.model, &n));
+    for (size_t i = 0; i < n; ++i) {
+        const char* w = nullptr;
+        check(weft_model_warning(f.model, i, &w));
+        if (w != nullptr && *w != '\0') out.emplace_back(w);
+    }
+    return out;
 }
 
 // ----------------------------------------------------------- result layouts
@@ -663,7 +723,7 @@ OutTable model_column(const ModelRef& ref, RowValues get, const char* label) {
     std::vector<unsigned char> none(f.input.n, 1);
     size_t needed = 0;
     check(get(f.model, v.data(), none.data(), v.size(), &needed));
-    return aligned_column(f.input.header, label, v, none);
+    return in_view(aligned_column(f.input.header, label, v, none), all_warnings(f));
 }
 
 // Optional text argument: omitted, blank or a blank reference (0) give "".
@@ -736,13 +796,13 @@ std::size_t common_rows(std::initializer_list<const Table*> tables) {
 }
 
 PanelPtr transform_panel(std::size_t start, std::size_t end, const Table* units,
-                         const Table* periods) {
+                         const Table* periods, TextCells* scan) {
     weft_panel* raw = nullptr;
     check(weft_panel_new(&raw, end - start, start + 1));
     PanelPtr p(raw);
     if (units != nullptr) set_units(p.get(), read_units(*units, start, end));
     if (periods != nullptr) {
-        NumericColumn t = read_numbers(*periods, 0, start, end);
+        NumericColumn t = read_numbers(*periods, 0, start, end, scan, "periods");
         check(weft_panel_set_periods(p.get(), t.values.data(), t.missing.data()));
     }
     return p;
@@ -764,14 +824,20 @@ OutTable run_transform(const Table& values_in, const Table& units_in, const Tabl
                                  ? common_rows({&values_in, &units_in, periods_in})
                                  : common_rows({&values_in, &units_in});
     const Table &values = values_in, &units = units_in;
+    if (periods_in != nullptr)
+        require_same_start({{"values", &values}, {"units", &units}, {"periods", periods_in}});
+    else
+        require_same_start({{"values", &values}, {"units", &units}});
     const bool header = rows > 0 && values.at(0, 0).is_text();
+    if (periods_in != nullptr) require_consistent_headers({"values", &values}, header, {{"periods", periods_in}});
     require_data_rows(rows, header);
     const std::size_t start = header ? 1 : 0;
     const std::size_t n = rows - start;
 
     std::unique_lock<std::mutex> lock(cache_mutex);
-    PanelPtr p = transform_panel(start, rows, &units, periods_in);
-    NumericColumn v = read_numbers(values, 0, start, rows);
+    TextCells scan;
+    PanelPtr p = transform_panel(start, rows, &units, periods_in, &scan);
+    NumericColumn v = read_numbers(values, 0, start, rows, &scan, "values");
     std::vector<double> out(n);
     std::vector<unsigned char> none(n, 1);
     if (use_k) {
@@ -782,7 +848,7 @@ OutTable run_transform(const Table& values_in, const Table& units_in, const Tabl
                                 none.data(), n));
     }
     const std::string name = header ? header_text(values.at(0, 0)) : std::string();
-    return aligned_column(header, label_prefix + " " + name, out, none);
+    return in_view(aligned_column(header, label_prefix + " " + name, out, none), scan.warnings());
 }
 
 }  // namespace
@@ -836,7 +902,7 @@ OutTable estimates_of(const ModelRef& ref) {
         t.set(1 + n_terms + d, 0, std::string(term ? term : ""));
         t.set(1 + n_terms + d, 1, std::string("dropped: ") + (reason ? reason : ""));
     }
-    return t;
+    return in_view(std::move(t), all_warnings(f));
 }
 
 OutTable summary_of(const ModelRef& ref) {
@@ -853,7 +919,7 @@ OutTable summary_of(const ModelRef& ref) {
         else
             lv.text(label, item.text ? item.text : "");
     }
-    return lv.table();
+    return in_view(lv.table(), f.input.warnings);
 }
 
 OutCell value_of(const ModelRef& ref, const Arg& what_arg, const Arg& term_arg) {
@@ -932,7 +998,7 @@ OutTable joint_of(const ModelRef& ref, const Arg& terms) {
     lv.number("chi-square df", r.chi2_df);
     lv.number("chi-square p-value", r.chi2_p);
     add_test_warnings(lv);
-    return lv.table();
+    return in_view(lv.table(), f.input.warnings);
 }
 
 OutTable hetero_of(const ModelRef& ref, const Arg& form_arg) {
@@ -951,7 +1017,7 @@ OutTable hetero_of(const ModelRef& ref, const Arg& form_arg) {
     lv.number("F df2", r.f_df2);
     lv.number("F p-value", r.f_p);
     add_test_warnings(lv);
-    return lv.table();
+    return in_view(lv.table(), f.input.warnings);
 }
 
 OutTable serial_of(const ModelRef& ref) {
@@ -972,7 +1038,7 @@ OutTable serial_of(const ModelRef& ref) {
     lv.number("level errors: F df2", r.level_df2);
     lv.number("level errors: F p-value", r.level_p);
     add_test_warnings(lv);
-    return lv.table();
+    return in_view(lv.table(), f.input.warnings);
 }
 
 // WEFT.BOOTSTRAP: label and value rows (FUNCTIONS.md). settings: one cell of words,
@@ -1011,7 +1077,7 @@ OutTable bootstrap_of(const ModelRef& ref, const Arg& term_arg, const Arg& setti
     lv.text("every sign pattern used", r.enumerated ? "yes" : "no");
     lv.number(r.by_period ? "clusters (periods)" : "clusters (units)", r.clusters);
     add_test_warnings(lv);
-    return lv.table();
+    return in_view(lv.table(), f.input.warnings);
 }
 
 }  // namespace
@@ -1023,7 +1089,8 @@ OutCell fn_fit(const PanelSource& in, const Arg& model) {
         check(weft_model_term_count(f.model, &terms));
         fit_cache.put(f.model_key,
                       std::make_shared<FitEntry>(
-                          FitEntry{f.entry, f.panel_entry(in), f.input.header, f.input.n}),
+                          FitEntry{f.entry, f.panel_entry(in), f.input.header, f.input.n,
+                                   f.input.warnings}),
                       f.input.n * (terms + 3));
     }
     weft_options o = WEFT_OPTIONS_INIT;
@@ -1125,7 +1192,7 @@ OutTable on_fit_panel(const Arg& fit, Table table) {
     Fitted f(fit);
     weft_options o = WEFT_OPTIONS_INIT;
     check(weft_model_options(f.model, &o));
-    return table(panel_or_throw(*f.panel), o);
+    return in_view(table(panel_or_throw(*f.panel), o), f.input.warnings);
 }
 
 }  // namespace
@@ -1134,14 +1201,14 @@ OutTable fn_hausman(const PanelSource& in, const Arg& model) {
     std::unique_lock<std::mutex> lock(cache_mutex);
     const PanelInput input = read_panel(in.ranges());
     const weft_options o = parse_options(model_text(model));
-    return hausman_table(panel_or_throw(*cached_panel(input)), o);
+    return in_view(hausman_table(panel_or_throw(*cached_panel(input)), o), input.warnings);
 }
 
 OutTable fn_effects(const PanelSource& in, const Arg& model) {
     std::unique_lock<std::mutex> lock(cache_mutex);
     const PanelInput input = read_panel(in.ranges());
     const weft_options o = parse_options(model_text(model));
-    return effects_table(panel_or_throw(*cached_panel(input)), o);
+    return in_view(effects_table(panel_or_throw(*cached_panel(input)), o), input.warnings);
 }
 
 OutTable fn_fit_hausman(const Arg& fit) { return on_fit_panel(fit, hausman_table); }
@@ -1168,7 +1235,9 @@ OutTable fn_effects(const PanelRanges& in, const Arg& model) { return fn_effects
 
 OutTable fn_diff(const Table& values, const Table& units, const Table& periods, const Arg& k) {
     const int steps = integer_arg(k, "k", 1);
-    return run_transform(values, units, &periods, steps, true, "diff");
+    // The header says k (x(t) - x(t-k)); k = 1 keeps the 0.3 header "diff <name>".
+    return run_transform(values, units, &periods, steps, true,
+                         steps == 1 ? std::string("diff") : "diff over " + std::to_string(steps) + " periods");
 }
 
 OutTable fn_lag(const Table& values, const Table& units, const Table& periods, const Arg& k) {
@@ -1202,7 +1271,8 @@ OutTable fn_dummies(const Table& periods_in, const Arg& omit_first) {
     const std::size_t n = rows - start;
 
     std::unique_lock<std::mutex> lock(cache_mutex);
-    PanelPtr p = transform_panel(start, rows, nullptr, &periods_in);
+    TextCells scan;
+    PanelPtr p = transform_panel(start, rows, nullptr, &periods_in, &scan);
     size_t cols = 0;
     check(weft_panel_dummy_periods(p.get(), omit, nullptr, 0, &cols));
     std::vector<double> labels(cols);
@@ -1220,12 +1290,13 @@ OutTable fn_dummies(const Table& periods_in, const Arg& omit_first) {
         t.set(0, j, "period " + format_number(labels[j]));
     for (std::size_t i = 0; i < n; ++i)
         for (std::size_t j = 0; j < cols; ++j) t.set_number_or_blank(1 + i, j, block[i * cols + j]);
-    return t;
+    return in_view(std::move(t), scan.warnings());
 }
 
 OutTable fn_panel(const Table& units_in, const Table& periods_in) {
     require_one_column(units_in, "units", "the unit id of each row");
     require_one_column(periods_in, "periods", "the period of each row");
+    require_same_start({{"units", &units_in}, {"periods", &periods_in}});
     require_same_rows(periods_in, "periods", units_in, "units");
     const std::size_t rows = common_rows({&units_in, &periods_in});
     const Table &units = units_in, &periods = periods_in;
@@ -1234,7 +1305,8 @@ OutTable fn_panel(const Table& units_in, const Table& periods_in) {
     const std::size_t start = header ? 1 : 0;
 
     std::unique_lock<std::mutex> lock(cache_mutex);
-    PanelPtr p = transform_panel(start, rows, &units, &periods);
+    TextCells scan;
+    PanelPtr p = transform_panel(start, rows, &units, &periods, &scan);
     weft_structure s;
     check(weft_panel_structure(p.get(), &s));
     LabelValue lv;
@@ -1249,7 +1321,7 @@ OutTable fn_panel(const Table& units_in, const Table& periods_in) {
     lv.number("duplicate unit-period pairs", static_cast<double>(s.duplicates));
     lv.number("single-row units", static_cast<double>(s.single_row_units));
     lv.number("rows without unit or period", static_cast<double>(s.rows_missing));
-    return lv.table();
+    return in_view(lv.table(), scan.warnings());
 }
 
 std::string fn_version() {
