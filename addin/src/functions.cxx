@@ -211,6 +211,9 @@ struct PanelInput {
     NumericColumn periods;
     Hash128 hash;
     std::vector<std::string> warnings;  // about the cells (sheet_checks.hpp)
+    // The ranges came as cells (the sheet* methods): results show warnings in view
+    // (warnings_view.hpp). The value-array methods of 0.3 workbooks keep their layout.
+    bool placed = false;
 };
 
 bool all_missing(const std::vector<unsigned char>& missing) {
@@ -318,6 +321,7 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     p.periods = read_numbers(periods, 0, start, rows, &scan, "periods");
     require_some_values(p);
     p.warnings = scan.warnings();
+    p.placed = in.outcome.place() != nullptr;
     for (std::string& w : hidden_row_warnings({{"outcome", &outcome}, {"units", &units}}, start, rows))
         p.warnings.push_back(std::move(w));
     for (std::string& w : same_as_outcome_warnings(p)) p.warnings.push_back(std::move(w));
@@ -417,6 +421,7 @@ struct FitEntry {
     bool header = false;
     std::size_t n = 0;
     std::vector<std::string> warnings;  // about the cells the fit read
+    bool placed = false;
 };
 constexpr std::size_t kFitsKept = 32;
 constexpr std::size_t kFitCellBudget = std::size_t{64} << 20;
@@ -482,6 +487,7 @@ struct CallEntry {
     bool header = false;
     std::size_t n = 0;
     std::vector<std::string> warnings;  // PanelInput::warnings
+    bool placed = false;
 };
 LruCache<CallEntry> call_cache(16);
 
@@ -578,7 +584,7 @@ struct Fitted {
             if (cells != nullptr)
                 call_cache.put(call_key, std::make_shared<CallEntry>(CallEntry{
                                              model_key, input.hash, input.header, input.n,
-                                             input.warnings}));
+                                             input.warnings, input.placed}));
         }
         if (!entry->error.empty()) throw UserError(UserError::FullText{}, entry->error);
         model = entry->model.get();
@@ -612,6 +618,7 @@ struct Fitted {
         input.header = kept->header;
         input.n = kept->n;
         input.warnings = kept->warnings;
+        input.placed = kept->placed;
         model = entry->model.get();
     }
 
@@ -632,6 +639,7 @@ private:
         input.header = call->header;
         input.n = call->n;
         input.warnings = call->warnings;
+        input.placed = call->placed;
         return found;
     }
 };
@@ -661,6 +669,11 @@ std::vector<std::string> all_warnings(const Fitted& f) {
         if (w != nullptr && *w != '\0') out.emplace_back(w);
     }
     return out;
+}
+
+// Warnings in view for the ranges passed as cells; a 0.3 layout otherwise.
+OutTable shown(bool placed, OutTable t, const std::vector<std::string>& warnings) {
+    return placed ? in_view(std::move(t), warnings) : t;
 }
 
 // ----------------------------------------------------------- result layouts
@@ -723,7 +736,7 @@ OutTable model_column(const ModelRef& ref, RowValues get, const char* label) {
     std::vector<unsigned char> none(f.input.n, 1);
     size_t needed = 0;
     check(get(f.model, v.data(), none.data(), v.size(), &needed));
-    return in_view(aligned_column(f.input.header, label, v, none), all_warnings(f));
+    return shown(f.input.placed, aligned_column(f.input.header, label, v, none), all_warnings(f));
 }
 
 // Optional text argument: omitted, blank or a blank reference (0) give "".
@@ -848,7 +861,8 @@ OutTable run_transform(const Table& values_in, const Table& units_in, const Tabl
                                 none.data(), n));
     }
     const std::string name = header ? header_text(values.at(0, 0)) : std::string();
-    return in_view(aligned_column(header, label_prefix + " " + name, out, none), scan.warnings());
+    return shown(values.place() != nullptr, aligned_column(header, label_prefix + " " + name, out, none),
+                 scan.warnings());
 }
 
 }  // namespace
@@ -902,7 +916,7 @@ OutTable estimates_of(const ModelRef& ref) {
         t.set(1 + n_terms + d, 0, std::string(term ? term : ""));
         t.set(1 + n_terms + d, 1, std::string("dropped: ") + (reason ? reason : ""));
     }
-    return in_view(std::move(t), all_warnings(f));
+    return shown(f.input.placed, std::move(t), all_warnings(f));
 }
 
 OutTable summary_of(const ModelRef& ref) {
@@ -919,7 +933,7 @@ OutTable summary_of(const ModelRef& ref) {
         else
             lv.text(label, item.text ? item.text : "");
     }
-    return in_view(lv.table(), f.input.warnings);
+    return shown(f.input.placed, lv.table(), f.input.warnings);
 }
 
 OutCell value_of(const ModelRef& ref, const Arg& what_arg, const Arg& term_arg) {
@@ -998,7 +1012,7 @@ OutTable joint_of(const ModelRef& ref, const Arg& terms) {
     lv.number("chi-square df", r.chi2_df);
     lv.number("chi-square p-value", r.chi2_p);
     add_test_warnings(lv);
-    return in_view(lv.table(), f.input.warnings);
+    return shown(f.input.placed, lv.table(), f.input.warnings);
 }
 
 OutTable hetero_of(const ModelRef& ref, const Arg& form_arg) {
@@ -1017,7 +1031,7 @@ OutTable hetero_of(const ModelRef& ref, const Arg& form_arg) {
     lv.number("F df2", r.f_df2);
     lv.number("F p-value", r.f_p);
     add_test_warnings(lv);
-    return in_view(lv.table(), f.input.warnings);
+    return shown(f.input.placed, lv.table(), f.input.warnings);
 }
 
 OutTable serial_of(const ModelRef& ref) {
@@ -1038,7 +1052,7 @@ OutTable serial_of(const ModelRef& ref) {
     lv.number("level errors: F df2", r.level_df2);
     lv.number("level errors: F p-value", r.level_p);
     add_test_warnings(lv);
-    return in_view(lv.table(), f.input.warnings);
+    return shown(f.input.placed, lv.table(), f.input.warnings);
 }
 
 // WEFT.BOOTSTRAP: label and value rows (FUNCTIONS.md). settings: one cell of words,
@@ -1077,7 +1091,7 @@ OutTable bootstrap_of(const ModelRef& ref, const Arg& term_arg, const Arg& setti
     lv.text("every sign pattern used", r.enumerated ? "yes" : "no");
     lv.number(r.by_period ? "clusters (periods)" : "clusters (units)", r.clusters);
     add_test_warnings(lv);
-    return in_view(lv.table(), f.input.warnings);
+    return shown(f.input.placed, lv.table(), f.input.warnings);
 }
 
 }  // namespace
@@ -1090,7 +1104,7 @@ OutCell fn_fit(const PanelSource& in, const Arg& model) {
         fit_cache.put(f.model_key,
                       std::make_shared<FitEntry>(
                           FitEntry{f.entry, f.panel_entry(in), f.input.header, f.input.n,
-                                   f.input.warnings}),
+                                   f.input.warnings, f.input.placed}),
                       f.input.n * (terms + 3));
     }
     weft_options o = WEFT_OPTIONS_INIT;
@@ -1192,7 +1206,7 @@ OutTable on_fit_panel(const Arg& fit, Table table) {
     Fitted f(fit);
     weft_options o = WEFT_OPTIONS_INIT;
     check(weft_model_options(f.model, &o));
-    return in_view(table(panel_or_throw(*f.panel), o), f.input.warnings);
+    return shown(f.input.placed, table(panel_or_throw(*f.panel), o), f.input.warnings);
 }
 
 }  // namespace
@@ -1201,14 +1215,14 @@ OutTable fn_hausman(const PanelSource& in, const Arg& model) {
     std::unique_lock<std::mutex> lock(cache_mutex);
     const PanelInput input = read_panel(in.ranges());
     const weft_options o = parse_options(model_text(model));
-    return in_view(hausman_table(panel_or_throw(*cached_panel(input)), o), input.warnings);
+    return shown(input.placed, hausman_table(panel_or_throw(*cached_panel(input)), o), input.warnings);
 }
 
 OutTable fn_effects(const PanelSource& in, const Arg& model) {
     std::unique_lock<std::mutex> lock(cache_mutex);
     const PanelInput input = read_panel(in.ranges());
     const weft_options o = parse_options(model_text(model));
-    return in_view(effects_table(panel_or_throw(*cached_panel(input)), o), input.warnings);
+    return shown(input.placed, effects_table(panel_or_throw(*cached_panel(input)), o), input.warnings);
 }
 
 OutTable fn_fit_hausman(const Arg& fit) { return on_fit_panel(fit, hausman_table); }
@@ -1290,7 +1304,7 @@ OutTable fn_dummies(const Table& periods_in, const Arg& omit_first) {
         t.set(0, j, "period " + format_number(labels[j]));
     for (std::size_t i = 0; i < n; ++i)
         for (std::size_t j = 0; j < cols; ++j) t.set_number_or_blank(1 + i, j, block[i * cols + j]);
-    return in_view(std::move(t), scan.warnings());
+    return shown(periods_in.place() != nullptr, std::move(t), scan.warnings());
 }
 
 OutTable fn_panel(const Table& units_in, const Table& periods_in) {
@@ -1321,7 +1335,7 @@ OutTable fn_panel(const Table& units_in, const Table& periods_in) {
     lv.number("duplicate unit-period pairs", static_cast<double>(s.duplicates));
     lv.number("single-row units", static_cast<double>(s.single_row_units));
     lv.number("rows without unit or period", static_cast<double>(s.rows_missing));
-    return in_view(lv.table(), scan.warnings());
+    return shown(periods.place() != nullptr, lv.table(), scan.warnings());
 }
 
 std::string fn_version() {
