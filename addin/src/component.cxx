@@ -4,6 +4,7 @@
 // functions.cxx and converts back, and catches everything: nothing may escape
 // into the office, and only a returned text reaches the user.
 
+#include "block_sizer.hpp"
 #include "cells.hpp"
 #include "event_cells.hpp"
 #include "functions.hpp"
@@ -521,11 +522,13 @@ AnyRows table_result(F&& compute) {
     const std::string error = guarded([&] {
         OutTable out = compute();
         CallTrace::mark("compute");
+        note_result_shape(out.rows, out.cols, "");
         result = to_rows(out);
         CallTrace::mark("out");
     });
     if (!error.empty()) {
         try {
+            note_result_shape(1, 1, error);
             return to_rows(error_table(error));
         } catch (...) {
             return AnyRows();
@@ -541,9 +544,11 @@ Any cell_result(F&& compute) {
     const std::string error = guarded([&] {
         result = to_any(compute());
         CallTrace::mark("out");
+        note_result_shape(1, 1, "");
     });
     if (!error.empty()) {
         try {
+            note_result_shape(1, 1, error);
             return Any(to_ou(error));
         } catch (...) {
             return Any();
