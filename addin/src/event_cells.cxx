@@ -49,7 +49,7 @@ void read_treatment(const CellGrid& t, const PanelRead& p, std::vector<double>& 
             values[i] = c.number;
             missing[i] = 0;
         } else if (c.is_text()) {
-            throw UserError("treatment in row " + std::to_string(p.first_row + i) + " of the range holds the text \"" +
+            throw UserError(located({"treatment", &t}, start + i, 0) + " holds the text \"" +
                             c.text + "\"; give 0 (untreated) or 1 (treated)");
         }
     }

@@ -281,7 +281,9 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     require_data_rows(rows, p.header);
     const std::size_t start = p.header ? 1 : 0;
     p.n = rows - start;
-    p.first_row = start + 1;
+    // weft's own messages name rows as first_row + i: sheet rows when the place is
+    // known (the ranges start on one sheet row), else rows of the ranges.
+    p.first_row = start + 1 + (in.outcome.place() != nullptr ? in.outcome.place()->row : 0);
 
     // Trimming made the four row counts equal; `rows` guards the rest.
     const CellGrid &outcome = in.outcome, &regressors = in.regressors, &units = in.units,

@@ -46,6 +46,11 @@ std::string cell_name(const NamedGrid& g, std::size_t r, std::size_t c) {
     return s + " of " + g.name;
 }
 
+std::string located(const NamedGrid& g, std::size_t r, std::size_t c) {
+    if (g.grid->place() != nullptr) return cell_name(g, r, c) + " (in " + g.name + ")";
+    return cell_name(g, r, c);
+}
+
 void require_same_start(std::initializer_list<NamedGrid> ranges) {
     const NamedGrid* lead = nullptr;
     for (const NamedGrid& g : ranges) {
@@ -110,7 +115,7 @@ bool reads_as_date(const std::string& text) {
 
 void TextCells::note_error(const NamedGrid& g, std::size_t r, std::size_t c, const Cell& cell) {
     if (!cell.is_error()) return;
-    fail(cell_name(g, r, c) + " (in " + g.name + ") holds the error value " + cell.text +
+    fail(located(g, r, c) + " holds the error value " + cell.text +
          "; correct the formula in that cell, or leave its row out of the ranges");
 }
 
@@ -118,11 +123,11 @@ void TextCells::note(const NamedGrid& g, std::size_t r, std::size_t c, const Cel
     note_error(g, r, c, cell);
     if (!cell.is_text()) return;
     if (reads_as_date(cell.text))
-        fail(cell_name(g, r, c) + " (in " + g.name + ") holds " + shown_text(cell.text) +
+        fail(located(g, r, c) + " holds " + shown_text(cell.text) +
              ", a date stored as text; enter it as a date or a number (retype it, or convert the "
              "column with Data > Text to Columns)");
     if (reads_as_number(cell.text))
-        fail(cell_name(g, r, c) + " (in " + g.name + ") holds " + shown_text(cell.text) +
+        fail(located(g, r, c) + " holds " + shown_text(cell.text) +
              ", a number stored as text; enter it as a number (retype it, or convert the column "
              "with Data > Text to Columns and the file's decimal separator)");
     for (Seen& s : seen_)

@@ -24,6 +24,9 @@ struct NamedGrid {
 // "Data!D57", or "row 57, column 2 of regressors" when the place is unknown
 // (r and c zero-based within the range).
 std::string cell_name(const NamedGrid& g, std::size_t r, std::size_t c);
+// The start of a message about that cell: "Data!D57 (in regressors)", or
+// "row 57, column 2 of regressors".
+std::string located(const NamedGrid& g, std::size_t r, std::size_t c);
 
 // Rows are paired by sheet row: every range whose place is known must start on
 // the same sheet row as the first one. The message names both starts and the
