@@ -37,6 +37,10 @@ FORMULAS = {
     "panel": "=WEFT.PANEL($Data.A$1:A$13;$Data.B$1:B$13)",
     "bootstrap": f'=WEFT.BOOTSTRAP({R};"cluster";"x1";"draws=99")',
     "fit estimates": '=WEFT.FIT.ESTIMATES($Out.$A$1)',
+    "fit": f'=WEFT.FIT({R};"fd")',
+    "event": ('=WEFT.EVENT($Data.C$1:C$13;$Data.F$1:F$13;$Data.A$1:A$13;$Data.B$1:B$13;;'
+              '"before=1 after=1")'),
+    "did": "=WEFT.DID($Data.C$1:C$13;$Data.F$1:F$13;$Data.A$1:A$13;$Data.B$1:B$13)",
 }
 
 
@@ -57,7 +61,11 @@ class BlockSizerTests(unittest.TestCase):
         cls.doc = OFFICE.new_calc()
         sheets = cls.doc.Sheets
         sheets.getByIndex(0).Name = "Data"
-        put_rows(sheets.getByName("Data"), 0, 0, invented_panel())
+        rows = invented_panel()
+        rows[0].append("treated")  # F: Depot B treated from 2003 on, the others never
+        for r in rows[1:]:
+            r.append(1.0 if (r[0] == "Depot B" and r[1] >= 2003) else 0.0)
+        put_rows(sheets.getByName("Data"), 0, 0, rows)
         sheets.insertNewByName("Out", 1)
         sheets.insertNewByName("Probe", 2)
         cls.out = sheets.getByName("Out")
@@ -95,7 +103,7 @@ class BlockSizerTests(unittest.TestCase):
     def test_each_function_is_sized_to_its_result(self):
         failures = []
         for i, (name, formula) in enumerate(FORMULAS.items()):
-            cell = self.out.getCellByPosition(2 + 10 * i, 2)
+            cell = self.out.getCellByPosition(2 + 10 * i, 100)
             cell.setFormula(formula)
             self.doc.calculateAll()
             want = self.expected(formula)
@@ -117,6 +125,13 @@ class BlockSizerTests(unittest.TestCase):
         self.assertEqual(self.out.getCellByPosition(4, 62).getString(), "keep me")
         self.assertEqual(self.array_block(cell), (1, 1))
         self.assertTrue(cell.getString().startswith("term"), cell.getString())
+        # a formula that gives a message has no block to size: nothing changes
+        bad = self.out.getCellByPosition(12, 60)
+        bad.setFormula("=WEFT.PANEL($Data.A1:A13;$Data.B2:B14)")
+        self.doc.calculateAll()
+        self.size(bad)
+        self.assertEqual(self.array_block(bad), (1, 1))
+        self.assertIn("periods starts at Data!B2", bad.getString())
 
     def test_resizes_a_block_that_is_too_small_and_edits_recalculate(self):
         block = self.out.getCellRangeByName("C80:D81")
