@@ -924,8 +924,16 @@ public:
     }
     OUString SAL_CALL getFunctionDescription(const OUString& method) override {
         return safe_text([&] {
-            const FunctionText* f = find_by_method(to_utf8(method));
-            return f ? to_ou(f->description) : OUString();
+            const std::string name = to_utf8(method);
+            const FunctionText* f = find_by_method(name);
+            if (f == nullptr) return OUString();
+            // The wizard lists a value-array method beside its cell-range twin under
+            // one name; say which is which (a typed name always gets the twin).
+            if (has_twin(name))
+                return to_ou("(As stored by weft 0.3 workbooks: reads values only, cannot name "
+                             "cells. Typed formulas use the other " + std::string(f->display) +
+                             ".) " + f->description);
+            return to_ou(f->description);
         });
     }
     OUString SAL_CALL getDisplayArgumentName(const OUString& method, sal_Int32 index) override {
@@ -965,6 +973,17 @@ public:
     }
 
 private:
+    // A value-array method with a cell-range twin (sheetEstimates for estimates).
+    static bool has_twin(const std::string& method) {
+        static const char* const twinned[] = {
+            "estimates", "summary", "value", "residuals", "fitted", "joint", "hetero", "serial",
+            "hausman", "effects", "fit", "bootstrap", "event", "did", "diff", "lag", "demean",
+            "dummies", "panel"};
+        for (const char* t : twinned)
+            if (method == t) return true;
+        return false;
+    }
+
     static const ArgumentText* argument(const OUString& method, sal_Int32 index) {
         const FunctionText* f = find_by_method(to_utf8(method));
         if (f == nullptr || index < 0 || static_cast<std::size_t>(index) >= f->arguments.size())

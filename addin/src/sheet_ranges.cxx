@@ -12,7 +12,6 @@
 #include <com/sun/star/table/CellRangeAddress.hpp>
 #include <com/sun/star/table/XCell.hpp>
 #include <com/sun/star/table/XCellRange.hpp>
-#include <com/sun/star/text/XText.hpp>
 #include <com/sun/star/sheet/XCellRangeAddressable.hpp>
 #include <cppu/unotype.hxx>
 #include <rtl/ustring.hxx>

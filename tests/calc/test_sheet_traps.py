@@ -286,6 +286,18 @@ class SheetRangeTests(unittest.TestCase):
         self.assertEqual(old.getError(), 0, old.getString())
         self.assertEqual(old.getValue(), new.getValue())
 
+    def test_wizard_tells_the_two_methods_apart(self):
+        """The function wizard lists the value-array method beside its twin under one
+        name; the old one's description says what it is."""
+        fd = OFFICE.service("com.sun.star.sheet.FunctionDescriptions")
+        found = []
+        for i in range(fd.getCount()):
+            props = {p.Name: p.Value for p in fd.getByIndex(i)}
+            if props.get("Name") == "WEFT.ESTIMATES":
+                found.append(props["Description"])
+        self.assertEqual(len(found), 2, found)
+        self.assertEqual(sum(d.startswith("(As stored by weft 0.3") for d in found), 1, found)
+
     def test_typed_name_resolves_to_the_range_method(self):
         """A typed WEFT.* name calls the range method (it refuses shifted ranges); the
         stored value-array name does not know where ranges are (it cannot refuse)."""
