@@ -1,5 +1,9 @@
 // Lean fits: the estimated equation of pooled or fd in streaming passes over the
 // caller's columns, never holding its N x K design (see fit_model_lean in model.hpp).
+// A weighted fit (CONVENTIONS.md "Observation weights") reads every equation row times
+// sqrt(w) (fd: the later row's w), as fit_weights.cpp scales the full route's rows: the
+// row weight below is then sqrt(w), the count N becomes sum w, and every step is the
+// unweighted one on the scaled rows.
 //
 // The steps are the solver's Gram route (solver.cpp), in the same working basis
 // (columns centred against the intercept and scaled to unit length):
@@ -141,7 +145,7 @@ struct Piece {
 struct Block {
     Index rows = 0;                    // block rows
     std::size_t first = 0;             // sorted input: the input row of block row 0 (rows are consecutive)
-    const double* keep = nullptr;      // per block row: 1 for an equation row, 0 for a row to skip
+    const double* keep = nullptr;      // per block row: 1 (weighted: sqrt(w)) for an equation row, 0 for a row to skip
     const std::size_t* input = nullptr;  // unsorted input: the input row of each block row
     std::size_t input_row(Index i) const { return input != nullptr ? input[i] : first + static_cast<std::size_t>(i); }
 };
@@ -386,7 +390,7 @@ private:
     Index block_;
     std::size_t lo_ = 0, hi_ = 0;          // sorted: the input rows [lo_, hi_) hold every equation row
     const std::uint8_t* marks_ = nullptr;  // sorted: LeanInput::is_row
-    std::vector<double> keep_;             // sorted: weights of the block's rows; unsorted: ones
+    std::vector<double> keep_;             // row weights of the block (sorted: 0 or 1, unsorted: 1; weighted: sqrt(w) for 1)
     std::vector<Piece> pieces_;
     std::vector<const double*> columns_;
     std::vector<const std::uint8_t*> masks_;
@@ -414,7 +418,7 @@ struct LeanShape {
 };
 
 // What the accumulating pass gathers: SE, the Gram matrix of B = [w, v - s0, e, 0...]
-// (w the row weight: 1, or 0 for a row that is not an equation row; e the start's
+// (w the row weight: 1 or sqrt(w), 0 for a row that is not an equation row; e the start's
 // residual), s0, the fd levels' sums of squares, and the start y ~ start_constant +
 // x' start_slopes with the sums h = sum [w, v - s0] e of its refinement step.
 struct FirstPass {
@@ -561,6 +565,7 @@ Equation lean_shell(const LeanInput& in, const LeanShape& sh, const WorkingSyste
     eq.scale.tail(k_reg) = sys.scale.head(k_reg);
     eq.r_factor = R;
     eq.lean_rows = static_cast<std::size_t>(sh.N);
+    eq.lean_weighted = sh.weighted;
     return eq;
 }
 

@@ -38,6 +38,8 @@
 //
 // Stability: fields may be added; existing names and meanings do not change. Changes
 // are announced here:
+//   2026-12-05: Equation::lean_weighted and Equation::weighted(): fit_model_lean takes
+//   weighted pooled and fd fits on its streaming route (their equation holds no weights).
 //   2026-12-05: observation weights: ModelSpec::weights, PanelData::weights,
 //   Equation::weights, Fit::rows_zero_weight.
 //   2026-12-04: Covariance::cr2 and CovarianceResult::term_df (per-term df: t, p and
@@ -109,6 +111,7 @@ struct Equation {
     Eigen::VectorXd weights;            // N equation-row weights of a weighted fit (X, y, residual,
                                         // fitted are then scaled by sqrt(w)); empty: unweighted,
                                         // or a lean equation (which holds no rows)
+    bool lean_weighted = false;         // a lean equation of a weighted fit
 
     // A lean equation (fit_model_lean) holds no per-row arrays: X has 0 rows (but its K
     // columns), y, residual, fitted, input_row, unit and period are empty, and
@@ -118,6 +121,9 @@ struct Equation {
     bool rows_held() const { return lean_rows == 0; }
 
     std::size_t nobs() const { return rows_held() ? static_cast<std::size_t>(X.rows()) : lean_rows; }
+    // A weighted fit, on either route (ask this, not weights.size(): a lean equation holds
+    // no weights).
+    bool weighted() const { return weights.size() != 0 || lean_weighted; }
     std::size_t n_terms() const { return static_cast<std::size_t>(X.cols()); }
     // N - K - absorbed
     double df_residual() const {
@@ -245,7 +251,7 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec);
 // columns that never hold the estimated equation's rows: pooled and fd without period
 // indicators, covariance classical, hc0, hc1, cluster, cluster0, cluster-period or dk,
 // a well-conditioned design (the solver's Gram route) with no term to drop, weighted
-// or not (a weighted lean equation leaves Equation::weights empty: it holds no rows). Its
+// or not (a weighted lean equation holds no weights: Equation::weighted() says so). Its
 // Fit::equation is then lean (Equation::rows_held() is false); Fit::residuals and
 // Fit::fitted are filled as always. Anywhere else it is fit_model(data, spec). The tests
 // that need the equation's rows (heteroskedasticity, serial correlation, unit effects,
