@@ -236,12 +236,12 @@ public:
                 // a > 0 for fd: the first equation row has its earlier row before it
                 double squares = 0;
                 bool finite = true;
-                kept_column(x + a, fd_ ? x + a - 1 : nullptr, blk.keep, shift[c], mult[c], out.col(col0 + c).data(), b,
-                            levels != nullptr ? &squares : nullptr, check_values && finite_ && unmasked ? &finite : nullptr);
+                kept_column(x + a, fd_ ? x + a - 1 : nullptr, blk.keep, weights_ != nullptr, shift[c], mult[c],
+                            out.col(col0 + c).data(), b, levels != nullptr ? &squares : nullptr,
+                            check_values && finite_ && unmasked ? &finite : nullptr);
                 if (levels != nullptr) (*levels)[c] += squares;
                 if (!finite) finite_ = false;
             }
-            if (weights_ != nullptr) weigh_block(out, col0, b);
             return blk;
         }
         const std::vector<std::size_t>& later = *in_.later;
@@ -279,17 +279,20 @@ private:
     bool sorted() const { return in_.is_row != nullptr; }
 
     // Weighted: the block's keep becomes sqrt(w) of each equation row's input row (fd:
-    // the later row), 0 elsewhere as before.
+    // the later row), 0 elsewhere as before (a select: a row that is not an equation row
+    // may hold any weight, NaN or negative included).
     void root_weights(const Block& blk) {
-        for (Index i = 0; i < blk.rows; ++i) {
-            double& k = keep_[static_cast<std::size_t>(i)];
-            if (k == 0.0) continue;
-            k = std::sqrt(weights_[blk.input_row(i)]);
-            max_root_ = std::max(max_root_, k);
+        Eigen::Map<Eigen::ArrayXd> keep(keep_.data(), blk.rows);
+        if (blk.input == nullptr) {
+            const Eigen::Map<const Eigen::ArrayXd> w(weights_ + blk.first, blk.rows);
+            keep = (keep != 0.0).select(w.sqrt(), 0.0);
+        } else {
+            for (Index i = 0; i < blk.rows; ++i) keep[i] = std::sqrt(weights_[blk.input[i]]);
         }
+        if (blk.rows > 0) max_root_ = std::max(max_root_, keep.maxCoeff());
     }
 
-    // Weighted: the block's rows times sqrt(w), after the select (rows not read are 0).
+    // Weighted, unsorted input: the block's rows times sqrt(w).
     void weigh_block(MatrixXd& out, Index col0, Index b) const {
         const Eigen::Map<const Eigen::ArrayXd> root(keep_.data(), b);
         for (Index c = 0; c < width(); ++c) out.col(col0 + c).head(b).array() *= root;
@@ -306,27 +309,32 @@ private:
 
     // dest[i] = ((now[i] - before[i]) - shift) * mult where keep[i] != 0, else 0 (a
     // select, not a product: a missing cell may hold any value, NaN included); before
-    // null: no difference. squares (optional) gets the sum of now[i]^2 over kept rows
-    // (a threshold test only: partial sums, in any order); finite (optional) is set to
-    // false if some now[i] is not a finite number (inf * 0 and NaN * 0 are NaN). One
-    // loop does all three, so that each value is loaded once.
+    // null: no difference; weigh: the kept value times keep[i] (sqrt(w)). squares
+    // (optional) gets the sum of now[i]^2 over kept rows (a threshold test only: partial
+    // sums, in any order); finite (optional) is set to false if some now[i] is not a
+    // finite number (inf * 0 and NaN * 0 are NaN). One loop does all of it, so that each
+    // value is loaded once.
     static void kept_column(const double* __restrict now, const double* __restrict before,
-                            const double* __restrict keep, double shift, double mult, double* __restrict dest,
-                            Index b, double* squares, bool* finite) {
-        const bool diff = before != nullptr, sq = squares != nullptr, check = finite != nullptr;
+                            const double* __restrict keep, bool weigh, double shift, double mult,
+                            double* __restrict dest, Index b, double* squares, bool* finite) {
         using Loop = void (*)(const double*, const double*, const double*, double, double, double*, Index, double*,
                               bool*);
-        static constexpr Loop loops[8] = {
-            kept_loop<false, false, false>, kept_loop<false, false, true>, kept_loop<false, true, false>,
-            kept_loop<false, true, true>,   kept_loop<true, false, false>,  kept_loop<true, false, true>,
-            kept_loop<true, true, false>,   kept_loop<true, true, true>};
-        loops[(diff ? 4 : 0) + (sq ? 2 : 0) + (check ? 1 : 0)](now, before, keep, shift, mult, dest, b, squares, finite);
+        static constexpr Loop loops[16] = {kept_loop<0>, kept_loop<1>, kept_loop<2>,  kept_loop<3>,
+                                           kept_loop<4>, kept_loop<5>, kept_loop<6>,  kept_loop<7>,
+                                           kept_loop<8>, kept_loop<9>, kept_loop<10>, kept_loop<11>,
+                                           kept_loop<12>, kept_loop<13>, kept_loop<14>, kept_loop<15>};
+        const int flags = (weigh ? kWeigh : 0) | (before != nullptr ? kDiff : 0) | (squares != nullptr ? kSquares : 0) |
+                          (finite != nullptr ? kCheck : 0);
+        loops[flags](now, before, keep, shift, mult, dest, b, squares, finite);
     }
+    static constexpr int kCheck = 1, kSquares = 2, kDiff = 4, kWeigh = 8;
 
-    template <bool Diff, bool Squares, bool Check>
+    template <int Flags>
     static void kept_loop(const double* __restrict now, const double* __restrict before,
                           const double* __restrict keep, double shift, double mult, double* __restrict dest, Index b,
                           double* squares, bool* finite) {
+        constexpr bool Check = (Flags & kCheck) != 0, Squares = (Flags & kSquares) != 0, Diff = (Flags & kDiff) != 0,
+                       Weigh = (Flags & kWeigh) != 0;
         Index i = 0;
         double sq = 0, probe = 0;
 #if defined(__SSE2__)
@@ -335,10 +343,12 @@ private:
         __m128d sq2 = zero, probe2 = zero;
         for (; i + 2 <= b; i += 2) {
             const __m128d x = _mm_loadu_pd(now + i);
-            const __m128d kept = _mm_cmpneq_pd(_mm_loadu_pd(keep + i), zero);
+            const __m128d k = _mm_loadu_pd(keep + i);
+            const __m128d kept = _mm_cmpneq_pd(k, zero);
             __m128d v = x;
             if constexpr (Diff) v = _mm_sub_pd(v, _mm_loadu_pd(before + i));
             v = _mm_mul_pd(_mm_sub_pd(v, s), m);
+            if constexpr (Weigh) v = _mm_mul_pd(v, k);
             _mm_storeu_pd(dest + i, _mm_and_pd(v, kept));
             if constexpr (Squares) {
                 const __m128d xk = _mm_and_pd(x, kept);
@@ -354,7 +364,7 @@ private:
 #endif
         for (; i < b; ++i) {
             const double v = ((Diff ? now[i] - before[i] : now[i]) - shift) * mult;
-            dest[i] = keep[i] != 0.0 ? v : 0.0;
+            dest[i] = keep[i] != 0.0 ? (Weigh ? v * keep[i] : v) : 0.0;
             if constexpr (Squares) {
                 const double xk = keep[i] != 0.0 ? now[i] : 0.0;
                 sq += xk * xk;
@@ -730,14 +740,22 @@ private:
     // weighted: residuals in the outcome's units, u / sqrt(w), fitted y - u / sqrt(w)
     // (as unweigh_series does on the full route)
     void write_weighted_series(const Block& blk, const MatrixXd& B, LeanResult& out) const {
-        const Index k_reg = sh_.k_reg;
-        for (Index i = 0; i < blk.rows; ++i) {
+        const Index b = blk.rows, k_reg = sh_.k_reg;
+        if (blk.input == nullptr) {
+            // consecutive input rows (a select: 0 / 0 in a row of weight 0 is dropped)
+            const Eigen::Map<const Eigen::ArrayXd> root(blk.keep, b);
+            const auto u = u_.head(b).array();
+            Eigen::Map<Eigen::ArrayXd>(out.residuals.value.data() + blk.first, b) = (root != 0.0).select(u / root, 0.0);
+            Eigen::Map<Eigen::ArrayXd>(out.fitted.value.data() + blk.first, b) =
+                (root != 0.0).select((B.col(k_reg).head(b).array() - u) / root + shift_y_, 0.0);
+            return;
+        }
+        for (Index i = 0; i < b; ++i) {   // every listed row is an equation row
             const double root = blk.keep[i];
-            if (root == 0.0) continue;   // not an equation row: stays 0 and undefined
-            const std::size_t row = blk.input_row(i);
+            const std::size_t row = blk.input[i];
             out.residuals.value[row] = u_[i] / root;
             out.fitted.value[row] = (B(i, k_reg) - u_[i]) / root + shift_y_;
-            if (blk.input != nullptr) out.residuals.defined[row] = out.fitted.defined[row] = 1;
+            out.residuals.defined[row] = out.fitted.defined[row] = 1;
         }
     }
 
