@@ -5,6 +5,7 @@
 #include <cstddef>
 #include <stdexcept>
 #include <string>
+#include <utility>
 #include <vector>
 
 namespace weft_addin {
@@ -54,6 +55,19 @@ public:
     virtual Cell cell(std::size_t r, std::size_t c) const = 0;
     // Where the range is; nullptr when only its values were passed.
     virtual const Place* place() const { return nullptr; }
+
+    // A shortcut for reading numbers, where a grid has one: rows [start, end) of the
+    // columns first_col .. first_col + n_cols - 1 in one pass over the rows. A cell that
+    // holds a plain number goes to values[k][i] with missing[k][i] = 0 (i = r - start,
+    // k = c - first_col); every other cell gets values 0 and missing 1 and its (i, c)
+    // is appended to `others`, in row-major order, for the caller to read with cell().
+    // false (nothing written) when the grid has no shortcut.
+    virtual bool read_number_block(std::size_t /*first_col*/, std::size_t /*n_cols*/, std::size_t /*start*/,
+                                   std::size_t /*end*/, double* const* /*values*/,
+                                   unsigned char* const* /*missing*/,
+                                   std::vector<std::pair<std::size_t, std::size_t>>& /*others*/) const {
+        return false;
+    }
 };
 
 // A rectangular range, row-major.

@@ -199,11 +199,14 @@ class AnyGrid : public CellGrid {
 public:
     AnyGrid(const AnyRows& rows, std::size_t keep, const SheetRange* sheet = nullptr)
         : rows_(rows), keep_(keep), sheet_(sheet) {
+        if (sheet != nullptr) {  // its width is known: no pass over the rows
+            cols_ = sheet->cols;
+            return;
+        }
         const std::size_t have = std::min(keep, static_cast<std::size_t>(rows.getLength()));
         for (std::size_t r = 0; r < have; ++r)
             cols_ = std::max(cols_, static_cast<std::size_t>(rows[static_cast<sal_Int32>(r)].getLength()));
         if (keep == 0 && rows.getLength() > 0) cols_ = static_cast<std::size_t>(rows[0].getLength());
-        if (sheet != nullptr) cols_ = sheet->cols;
     }
     std::size_t row_count() const override { return keep_; }
     std::size_t col_count() const override { return cols_; }
@@ -221,6 +224,31 @@ public:
         return to_cell(a);
     }
     const Place* place() const override { return sheet_ != nullptr ? &sheet_->place : nullptr; }
+
+    // Numbers straight from the anys: no Cell per cell, no virtual call per cell.
+    bool read_number_block(std::size_t first_col, std::size_t n_cols, std::size_t start, std::size_t end,
+                           double* const* values, unsigned char* const* missing,
+                           std::vector<std::pair<std::size_t, std::size_t>>& others) const override {
+        const std::size_t have = static_cast<std::size_t>(rows_.getLength());
+        const Sequence<Any>* rows = rows_.getConstArray();
+        for (std::size_t r = start; r < end; ++r) {
+            const std::size_t i = r - start;
+            const std::size_t width = r < have ? static_cast<std::size_t>(rows[r].getLength()) : 0;
+            const Any* cells = r < have ? rows[r].getConstArray() : nullptr;
+            for (std::size_t k = 0; k < n_cols; ++k) {
+                const std::size_t c = first_col + k;
+                if (c < width && cells[c].getValueTypeClass() == css::uno::TypeClass_DOUBLE) {
+                    values[k][i] = *static_cast<const double*>(cells[c].getValue());
+                    missing[k][i] = 0;
+                } else {
+                    values[k][i] = 0.0;
+                    missing[k][i] = 1;
+                    others.emplace_back(i, c);
+                }
+            }
+        }
+        return true;
+    }
 
 private:
     Cell error_cell(std::size_t r, std::size_t c) const {
@@ -336,7 +364,9 @@ void hash_payload(Hasher& h, const Any& a, CellTag tag) {
 // its length only, as the conversion sees it. The tags of up to 16 cells share
 // one word that comes before their values, so the words still decode to exactly
 // one sequence of cells (equal keys mean equal cells) at about one word per number.
-void hash_range(Hasher& h, const AnyRows& rows) {
+// saw_void, when given, is set when a cell is void (an error value, as read_sheet_range
+// leaves it before its errors are named).
+void hash_range(Hasher& h, const AnyRows& rows, bool* saw_void = nullptr) {
     constexpr sal_Int32 group = 16;  // 4 bits per tag
     h.add_u64(static_cast<std::uint64_t>(rows.getLength()));
     const std::size_t keep = used_rows(rows);
@@ -354,6 +384,7 @@ void hash_range(Hasher& h, const AnyRows& rows) {
             for (sal_Int32 i = 0; i < m; ++i) {
                 tags[i] = cell_tag(cells[g + i]);
                 word |= static_cast<std::uint64_t>(tags[i]) << (4 * i);
+                if (tags[i] == CellTag::none && saw_void != nullptr) *saw_void = true;
             }
             h.add_u64(word);
             for (sal_Int32 i = 0; i < m; ++i) hash_payload(h, cells[g + i], tags[i]);
@@ -368,6 +399,7 @@ public:
     UnoPanelSource(const AnyRows& y, const AnyRows& x, const AnyRows& u, const AnyRows& t)
         : y_(y), x_(x), u_(u), t_(t) {
         Hasher h;
+        h.add_u64(1);  // kept apart from SheetPanelSource's keys
         for (const AnyRows* r : {&y, &x, &u, &t}) hash_range(h, *r);
         key_ = h.digest();
         CallTrace::mark("key");
@@ -401,14 +433,27 @@ public:
     using RangeRef = css::uno::Reference<css::table::XCellRange>;
     SheetPanelSource(const RangeRef& y, const RangeRef& x, const RangeRef& u, const RangeRef& t,
                      const char* x_name = "regressors")
-        : y_(read_sheet_range(y, "outcome")), x_(read_sheet_range(x, x_name)),
-          u_(read_sheet_range(u, "units")), t_(read_sheet_range(t, "periods")) {
-        CallTrace::mark("read");
+        : y_(read_sheet_range(y, "outcome", true)), x_(read_sheet_range(x, x_name, true)),
+          u_(read_sheet_range(u, "units", true)), t_(read_sheet_range(t, "periods", true)) {
+        CallTrace::mark("sheet");
+        // Error values are named only when the pass over the cells meets one (a void
+        // cell); then the key is made again over the marked cells.
+        if (!make_key(true)) {
+            for (SheetRange* r : {&y_, &x_, &u_, &t_}) mark_error_cells(*r);
+            make_key(false);
+        }
+        CallTrace::mark("key");
+    }
+    // The key of every cell, place and error value (a tag first keeps it apart from
+    // UnoPanelSource's keys); false when check_voids and a cell is void.
+    bool make_key(bool check_voids) {
+        bool saw_void = false;
         Hasher h;
+        h.add_u64(2);
         for (const SheetRange* r : {&y_, &x_, &u_, &t_}) {
             h.add_u64(r->given_rows);
             h.add_u64(r->cols);
-            hash_range(h, r->rows);
+            hash_range(h, r->rows, check_voids ? &saw_void : nullptr);
             h.add_string(r->place.sheet);
             h.add_u64(r->place.row);
             h.add_u64(r->place.col);
@@ -422,7 +467,14 @@ public:
             }
         }
         key_ = h.digest();
-        CallTrace::mark("key");
+        return !saw_void;
+    }
+    // Freeing the office's converted values (one any per cell) is the office's
+    // conversion undone, traced apart from the add-in's own work.
+    ~SheetPanelSource() override {
+        CallTrace::mark("compute");
+        for (SheetRange* r : {&y_, &x_, &u_, &t_}) r->rows = css::uno::Sequence<Sequence<Any>>();
+        CallTrace::mark("release");
     }
     const Hash128* cells_key() const override { return &key_; }
     PanelRanges ranges() const override {
