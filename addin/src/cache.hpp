@@ -38,6 +38,26 @@ public:
         std::memcpy(&w, &v, sizeof w);
         add_u64(w);
     }
+    // The same as add_double for each value in turn, with the lanes kept in registers.
+    void add_doubles(const double* v, std::size_t n) {
+        std::size_t i = 0;
+        for (; i < n && (count_ & 3) != 0; ++i) add_double(v[i]);
+        std::uint64_t l0 = lanes_[0], l1 = lanes_[1], l2 = lanes_[2], l3 = lanes_[3];
+        for (; i + 4 <= n; i += 4) {
+            std::uint64_t w[4];
+            std::memcpy(w, v + i, sizeof w);
+            l0 = rotl(l0 + w[0] * 0xc2b2ae3d27d4eb4full, 31) * 0x9e3779b97f4a7c15ull;
+            l1 = rotl(l1 + w[1] * 0xc2b2ae3d27d4eb4full, 31) * 0x9e3779b97f4a7c15ull;
+            l2 = rotl(l2 + w[2] * 0xc2b2ae3d27d4eb4full, 31) * 0x9e3779b97f4a7c15ull;
+            l3 = rotl(l3 + w[3] * 0xc2b2ae3d27d4eb4full, 31) * 0x9e3779b97f4a7c15ull;
+            count_ += 4;
+        }
+        lanes_[0] = l0;
+        lanes_[1] = l1;
+        lanes_[2] = l2;
+        lanes_[3] = l3;
+        for (; i < n; ++i) add_double(v[i]);
+    }
     void add_bytes(const char* data, std::size_t n);
     void add_string(const std::string& s) {
         add_u64(s.size());

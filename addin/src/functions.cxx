@@ -77,34 +77,6 @@ using ModelPtr = std::unique_ptr<weft_model, ModelDeleter>;
 
 // ------------------------------------------------------------- reading columns
 
-// A vector whose resize leaves new elements unwritten: a column is filled once, by
-// the reader, instead of being zeroed first (a million-row column is 8 MB).
-template <class T>
-struct UninitializedAllocator : std::allocator<T> {
-    template <class U>
-    struct rebind {
-        using other = UninitializedAllocator<U>;
-    };
-    UninitializedAllocator() = default;
-    template <class U>
-    UninitializedAllocator(const UninitializedAllocator<U>&) noexcept {}
-    template <class U>
-    void construct(U* p) noexcept {
-        ::new (static_cast<void*>(p)) U;
-    }
-    template <class U, class... Args>
-    void construct(U* p, Args&&... args) {
-        ::new (static_cast<void*>(p)) U(std::forward<Args>(args)...);
-    }
-};
-template <class T>
-using Buffer = std::vector<T, UninitializedAllocator<T>>;
-
-struct NumericColumn {
-    Buffer<double> values;
-    Buffer<unsigned char> missing;
-};
-
 struct UnitColumn {
     bool text = false;
     std::vector<std::string> ids;  // when text
@@ -118,22 +90,33 @@ using OtherCells = std::vector<std::pair<std::size_t, std::size_t>>;
 // Rows start..end-1 of column c; anything but a number (blank, text) is missing.
 // With `scan`, an error value or a number stored as text is refused and other
 // text is counted (sheet_checks.hpp).
+// Rows start..end-1 of column c through the grid's shortcuts (numbers only); the
+// rows of `others` are left for cell(). false when the grid has no shortcut.
+bool shortcut_numbers(const CellGrid& t, std::size_t c, std::size_t start, std::size_t end,
+                      NumericColumn& col, std::vector<std::size_t>& others) {
+    if (t.take_numbers(c, start, end, col, others)) return true;
+    col.values.resize(end - start);
+    col.missing.resize(end - start);
+    double* values = col.values.data();
+    unsigned char* missing = col.missing.data();
+    OtherCells block;
+    if (!t.read_number_block(c, 1, start, end, &values, &missing, block)) return false;
+    for (const auto& o : block) others.push_back(o.first);
+    return true;
+}
+
 NumericColumn read_numbers(const CellGrid& t, std::size_t c, std::size_t start, std::size_t end,
                            TextCells* scan = nullptr, const char* name = "") {
     NumericColumn col;
     const std::size_t n = end - start;
-    col.values.resize(n);
-    col.missing.resize(n);
-    double* values = col.values.data();
-    unsigned char* missing = col.missing.data();
-    OtherCells others;
-    if (!t.read_number_block(c, 1, start, end, &values, &missing, others)) {
-        std::fill(col.values.begin(), col.values.end(), 0.0);
-        std::fill(col.missing.begin(), col.missing.end(), 1);
-        for (std::size_t i = 0; i < n; ++i) others.emplace_back(i, c);
+    std::vector<std::size_t> others;
+    if (!shortcut_numbers(t, c, start, end, col, others)) {
+        col.values.assign(n, 0.0);
+        col.missing.assign(n, 1);
+        others.resize(n);
+        for (std::size_t i = 0; i < n; ++i) others[i] = i;
     }
-    for (const auto& o : others) {
-        const std::size_t i = o.first;
+    for (const std::size_t i : others) {
         const Cell cell = t.cell(start + i, c);
         if (cell.is_number()) {
             col.values[i] = cell.number;
@@ -152,26 +135,24 @@ UnitColumn read_units(const CellGrid& t, std::size_t start, std::size_t end) {
     const std::size_t n = end - start;
     // Numbers first, through the grid's shortcut: the ids are text only when one of
     // the cells it left is.
-    col.numbers.resize(n);
-    col.missing.resize(n);
-    double* numbers = col.numbers.data();
-    unsigned char* missing = col.missing.data();
-    OtherCells others;
-    if (t.read_number_block(0, 1, start, end, &numbers, &missing, others)) {
-        for (const auto& o : others)
-            if (t.cell(start + o.first, 0).is_text()) col.text = true;
+    NumericColumn numbers;
+    std::vector<std::size_t> others;
+    if (shortcut_numbers(t, 0, start, end, numbers, others)) {
+        for (const std::size_t i : others)
+            if (t.cell(start + i, 0).is_text()) col.text = true;
         if (!col.text) {
-            for (const auto& o : others) {
-                const Cell cell = t.cell(start + o.first, 0);
-                TextCells::note_error({"units", &t}, start + o.first, 0, cell);
+            col.numbers = std::move(numbers.values);
+            col.missing = std::move(numbers.missing);
+            for (const std::size_t i : others) {
+                const Cell cell = t.cell(start + i, 0);
+                TextCells::note_error({"units", &t}, start + i, 0, cell);
                 if (cell.is_number()) {
-                    col.numbers[o.first] = cell.number;
-                    col.missing[o.first] = 0;
+                    col.numbers[i] = cell.number;
+                    col.missing[i] = 0;
                 }
             }
             return col;
         }
-        Buffer<double>().swap(col.numbers);
     }
     for (std::size_t i = 0; i < n && !col.text; ++i)
         if (t.cell(start + i, 0).is_text()) col.text = true;
@@ -325,8 +306,50 @@ std::vector<std::string> same_as_outcome_warnings(const PanelInput& in) {
     return out;
 }
 
-// The regressor columns, rows start..start+n-1, in one pass over the rows (the grid
-// is row-major: a pass per column would touch every row once per column). A cell
+// Every regressor column from the grid's second shortcut (take_numbers), with the
+// cells left for cell() in row-major order; false (xs untouched in size) when a
+// column is not there.
+bool take_regressors(const CellGrid& regressors, std::size_t start, std::size_t n,
+                     std::vector<NumericColumn>& xs, OtherCells& others) {
+    std::vector<NumericColumn> taken(xs.size());
+    OtherCells left;
+    for (std::size_t c = 0; c < xs.size(); ++c) {
+        std::vector<std::size_t> rows;
+        if (!regressors.take_numbers(c, start, start + n, taken[c], rows)) return false;
+        for (const std::size_t i : rows) left.emplace_back(i, c);
+    }
+    std::sort(left.begin(), left.end());
+    xs = std::move(taken);
+    others = std::move(left);
+    return true;
+}
+
+// The regressor columns from the grid's first shortcut, in one pass over the rows (the
+// grid is row-major: a pass per column would touch every row once per column), or,
+// without one, every cell left for cell().
+void read_regressor_block(const CellGrid& regressors, std::size_t start, std::size_t n,
+                          std::vector<NumericColumn>& xs, OtherCells& others) {
+    std::vector<double*> values(xs.size());
+    std::vector<unsigned char*> missing(xs.size());
+    for (std::size_t c = 0; c < xs.size(); ++c) {
+        xs[c].values.resize(n);
+        xs[c].missing.resize(n);
+        values[c] = xs[c].values.data();
+        missing[c] = xs[c].missing.data();
+    }
+    if (regressors.read_number_block(0, xs.size(), start, start + n, values.data(), missing.data(), others))
+        return;
+    for (NumericColumn& x : xs) {
+        std::fill(x.values.begin(), x.values.end(), 0.0);
+        std::fill(x.missing.begin(), x.missing.end(), 1);
+    }
+    others.clear();
+    for (std::size_t i = 0; i < n; ++i)
+        for (std::size_t c = 0; c < xs.size(); ++c) others.emplace_back(i, c);
+}
+
+// The regressor columns, rows start..start+n-1: taken as read while the cells were
+// keyed, or read now. A cell
 // that is not a number is read as the cells were before the shortcut: in row-major
 // order, so the first error or text found is the same.
 void read_regressors(PanelInput& p, const CellGrid& regressors, std::size_t start, TextCells& scan) {
@@ -334,25 +357,8 @@ void read_regressors(PanelInput& p, const CellGrid& regressors, std::size_t star
     std::vector<NumericColumn>& xs = p.columns->regressors;
     xs.resize(n_regressors);
     p.text_cell.assign(n_regressors, std::string());
-    std::vector<double*> values(n_regressors);
-    std::vector<unsigned char*> missing(n_regressors);
-    for (std::size_t c = 0; c < n_regressors; ++c) {
-        xs[c].values.resize(p.n);
-        xs[c].missing.resize(p.n);
-        values[c] = xs[c].values.data();
-        missing[c] = xs[c].missing.data();
-    }
     OtherCells others;
-    if (!regressors.read_number_block(0, n_regressors, start, start + p.n, values.data(), missing.data(),
-                                      others)) {
-        for (NumericColumn& x : xs) {
-            std::fill(x.values.begin(), x.values.end(), 0.0);
-            std::fill(x.missing.begin(), x.missing.end(), 1);
-        }
-        others.clear();
-        for (std::size_t i = 0; i < p.n; ++i)
-            for (std::size_t c = 0; c < n_regressors; ++c) others.emplace_back(i, c);
-    }
+    if (!take_regressors(regressors, start, p.n, xs, others)) read_regressor_block(regressors, start, p.n, xs, others);
     for (const auto& o : others) {
         const std::size_t i = o.first, c = o.second;
         const Cell cell = regressors.cell(start + i, c);

@@ -134,7 +134,8 @@ def main():
              "panel", "fit", "model", "compute", "out", "total"]
     print(f"{args.rows} rows x {len(header)} columns, {args.model!r}, {len(calls)} cold calls; "
           f"estimates agree with the core to {worst:.1e} (relative)")
-    result = {"rows": args.rows, "model": args.model, "reps": len(calls), "core": core}
+    result = {"rows": args.rows, "model": args.model, "reps": len(calls), "core": core,
+              "share_cpu_per_call": [share(c[1]) for c in calls]}
     for clock, index in (("wall", 0), ("cpu", 1)):
         med = {k: statistics.median(c[index].get(k, 0.0) for c in calls) for k in names}
         add_in = statistics.median(share(c[index]) for c in calls)
@@ -144,6 +145,7 @@ def main():
               f"{add_in / fit:.2f} times the core fit")
         result[clock] = {"phases": med, "share_seconds": add_in, "core_seconds": fit,
                          "ratio": add_in / fit}
+    print("add-in share per call, in order (cpu s): " + " ".join(f"{share(c[1]):.3f}" for c in calls))
     print(f"core: floor {core['floor_cpu_seconds']:.3f} s CPU, fit {core['cpu_seconds']:.3f} s CPU "
           f"({core['paired_ratio_to_floor_cpu']:.2f} x floor)")
     if args.json:
