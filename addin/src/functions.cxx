@@ -77,11 +77,21 @@ using ModelPtr = std::unique_ptr<weft_model, ModelDeleter>;
 
 // ------------------------------------------------------------- reading columns
 
+// Text ids are kept as one buffer of bytes with offsets, as weft_panel_borrow_units_text
+// takes them (no string and no pointer per row): id i is bytes[offsets[i], offsets[i + 1]).
+// An id ends at a NUL byte of its own, as the C strings given to weft did before.
 struct UnitColumn {
     bool text = false;
-    std::vector<std::string> ids;  // when text
-    Buffer<double> numbers;        // when numbers
+    std::string bytes;                    // when text
+    std::vector<std::size_t> offsets{0};  // when text: one more than the rows
+    Buffer<double> numbers;               // when numbers
     Buffer<unsigned char> missing;
+
+    void add_id(const std::string& id) {
+        bytes.append(id.c_str());
+        offsets.push_back(bytes.size());
+    }
+    std::string id(std::size_t i) const { return bytes.substr(offsets[i], offsets[i + 1] - offsets[i]); }
 };
 
 // The cells a grid's shortcut left (read_number_block): read one by one, in row-major order.
@@ -158,16 +168,18 @@ UnitColumn read_units(const CellGrid& t, std::size_t start, std::size_t end) {
         if (t.cell(start + i, 0).is_text()) col.text = true;
     col.missing.assign(n, 1);
     if (col.text) {
-        col.ids.assign(n, std::string());
+        col.offsets.reserve(n + 1);
         for (std::size_t i = 0; i < n; ++i) {
-            Cell cell = t.cell(start + i, 0);
+            const Cell cell = t.cell(start + i, 0);
             TextCells::note_error({"units", &t}, start + i, 0, cell);
             if (cell.is_text()) {
-                col.ids[i] = std::move(cell.text);
+                col.add_id(cell.text);
                 col.missing[i] = 0;
             } else if (cell.is_number()) {
-                col.ids[i] = format_number(cell.number);
+                col.add_id(format_number(cell.number));
                 col.missing[i] = 0;
+            } else {
+                col.add_id(std::string());
             }
         }
     } else {
@@ -186,8 +198,12 @@ UnitColumn read_units(const CellGrid& t, std::size_t start, std::size_t end) {
 
 void set_units(weft_panel* p, const UnitColumn& u) {
     if (u.text) {
-        std::vector<const char*> ptrs(u.ids.size());
-        for (std::size_t i = 0; i < u.ids.size(); ++i) ptrs[i] = u.ids[i].c_str();
+        std::vector<std::string> ids(u.missing.size());
+        std::vector<const char*> ptrs(ids.size());
+        for (std::size_t i = 0; i < ids.size(); ++i) {
+            ids[i] = u.id(i);
+            ptrs[i] = ids[i].c_str();
+        }
         check(weft_panel_set_units_text(p, ptrs.data(), u.missing.data()));
     } else {
         check(weft_panel_set_units_number(p, u.numbers.data(), u.missing.data()));
@@ -209,7 +225,7 @@ void hash_units(Hasher& h, const UnitColumn& u) {
         h.add_u64(u.missing[i]);
         if (u.missing[i]) continue;
         if (u.text)
-            h.add_string(u.ids[i]);
+            h.add_string(u.id(i));
         else
             h.add_double(u.numbers[i]);
     }
@@ -472,7 +488,10 @@ PanelPtr make_panel(const PanelInput& in, bool borrow = true) {
     check(weft_panel_new(&raw, in.n, in.first_row));
     PanelPtr p(raw);
     const PanelColumns& c = *in.columns;
-    if (borrow && !c.units.text)
+    if (borrow && c.units.text)
+        check(weft_panel_borrow_units_text(p.get(), c.units.bytes.data(), c.units.offsets.data(),
+                                           mask_or_null(c.units.missing)));
+    else if (borrow)
         check(weft_panel_borrow_units_number(p.get(), c.units.numbers.data(), mask_or_null(c.units.missing)));
     else
         set_units(p.get(), c.units);
