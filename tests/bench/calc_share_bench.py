@@ -6,17 +6,24 @@ speed.
 One block of 1,000,000 x 10 cells by default (unit, period, outcome and 7 regressors
 from weft_bench's seeded generator, with a header row) is put on a sheet, and
 WEFT.ESTIMATES(outcome; regressors; units; periods; "fd cluster") is recalculated cold
-(`calculateAll()` after one input cell is nudged) --reps times. The add-in's timing
-trace (WEFT_ADDIN_TRACE) splits each call into phases, in wall and in thread CPU time:
-  - cells: the office converting the four ranges into values (getDataArray): the
-    office's own conversion, which is not the add-in's share;
-  - every other phase (sheet: where the ranges are, hidden rows, error cells; key:
-    the cache key; read: the columns and the checks of the cells; model: the panel
-    and the fit; compute, out: the result cells) is the add-in's share.
+(`calculateAll()` after one input cell is nudged) --reps times, each followed by
+one recalculation with nothing changed (answered from the cache by the cells key).
+The add-in's timing trace (WEFT_ADDIN_TRACE) splits each call into phases, in wall
+and in thread CPU time:
+  - cells, release: the office converting the four ranges into values (getDataArray)
+    and freeing those values: the office's own conversion, not the add-in's share;
+  - every other phase (sheet: where the ranges are and their hidden rows; errors:
+    naming error cells; key: the cache key, with the numbers read in the same pass;
+    read: the columns and the checks of the cells; hash: the input's key; panel, fit:
+    the panel over the columns and the fit; compute, out: the result cells) is the
+    add-in's share.
 The same CSV goes through `weft_bench --read-csv` with the same model: the core fit
 alone (the columns borrowed in place, the fit, the coefficient table), paired run by
-run with the floor pass. The ratio printed is the add-in's share over that fit, in
-CPU time (medians), and the estimates of both are compared.
+run with the floor pass. The ratio printed is the add-in's share over that fit
+(medians), and the estimates of both are compared. The share of each cold call is
+printed in order: the first eight fits after the office starts land on fresh
+memory, since the model cache keeps each fit's columns; from the ninth on, an
+evicted fit's column blocks are reused (addin/README.md, "Timing trace").
 
 Usage: /usr/bin/python3 tests/bench/calc_share_bench.py [--build build]
            [--rows 1000000] [--reps 5] [--model "fd cluster"] [--json OUT]
@@ -92,7 +99,7 @@ def main():
                     "--layouts", "balanced"], check=True, capture_output=True)
     core = core_fit(bench, csv_path, args.model, args.reps)
     header, rows = read_block(csv_path)
-    calls = []
+    calls, cached = [], []
     with Office(extensions=[oxt], timeout=3600, env={"WEFT_ADDIN_TRACE": trace}) as office:
         doc = office.new_calc()
         doc.enableAutomaticCalculation(False)
@@ -121,6 +128,12 @@ def main():
             lines = [w for w in trace_lines(trace)[before:] if w and w[0] == "sheetEstimates"]
             if rep > 0 and lines:
                 calls.append(call_phases(lines[-1]))
+                # the same again, unchanged: answered from the cache by the cells key
+                before = len(trace_lines(trace))
+                doc.calculateAll()
+                lines = [w for w in trace_lines(trace)[before:] if w and w[0] == "sheetEstimates"]
+                if lines:
+                    cached.append(call_phases(lines[-1]))
         nudge.setValue(y0)
         doc.calculateAll()
         table = estimates.getDataArray()
@@ -145,6 +158,11 @@ def main():
               f"{add_in / fit:.2f} times the core fit")
         result[clock] = {"phases": med, "share_seconds": add_in, "core_seconds": fit,
                          "ratio": add_in / fit}
+    if cached:
+        print(f"cached call (unchanged cells, answered by the cells key): add-in share "
+              f"{statistics.median(share(c[1]) for c in cached):.3f} s cpu, office's conversion "
+              f"{statistics.median(c[1].get('cells', 0.0) + c[1].get('release', 0.0) for c in cached):.3f} s cpu")
+        result["cached_share_cpu"] = statistics.median(share(c[1]) for c in cached)
     print("add-in share per call, in order (cpu s): " + " ".join(f"{share(c[1]):.3f}" for c in calls))
     print(f"core: floor {core['floor_cpu_seconds']:.3f} s CPU, fit {core['cpu_seconds']:.3f} s CPU "
           f"({core['paired_ratio_to_floor_cpu']:.2f} x floor)")
