@@ -78,6 +78,8 @@ std::vector<ArgumentText> panel_args_plus(std::vector<ArgumentText> extra) {
     return all;
 }
 
+// One table of every function's wizard texts, in the order the wizard lists them: it is
+// data, not logic, and reads best whole (so it runs past the usual 120 lines).
 std::vector<FunctionText> make_texts() {
     std::vector<FunctionText> t;
     t.push_back({"estimates", "WEFT.ESTIMATES",
