@@ -97,9 +97,6 @@ struct UnitColumn {
 // The cells a grid's shortcut left (read_number_block): read one by one, in row-major order.
 using OtherCells = std::vector<std::pair<std::size_t, std::size_t>>;
 
-// Rows start..end-1 of column c; anything but a number (blank, text) is missing.
-// With `scan`, an error value or a number stored as text is refused and other
-// text is counted (sheet_checks.hpp).
 // Rows start..end-1 of column c through the grid's shortcuts (numbers only); the
 // rows of `others` are left for cell(). false when the grid has no shortcut.
 bool shortcut_numbers(const CellGrid& t, std::size_t c, std::size_t start, std::size_t end,
@@ -115,6 +112,9 @@ bool shortcut_numbers(const CellGrid& t, std::size_t c, std::size_t start, std::
     return true;
 }
 
+// Rows start..end-1 of column c; anything but a number (blank, text) is missing.
+// With `scan`, an error value or a number stored as text is refused and other
+// text is counted (sheet_checks.hpp).
 NumericColumn read_numbers(const CellGrid& t, std::size_t c, std::size_t start, std::size_t end,
                            TextCells* scan = nullptr, const char* name = "") {
     NumericColumn col;

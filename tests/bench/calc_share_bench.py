@@ -12,7 +12,7 @@ The add-in's timing trace (WEFT_ADDIN_TRACE) splits each call into phases, in wa
 and in thread CPU time:
   - cells, release: the office converting the four ranges into values (getDataArray)
     and freeing those values: the office's own conversion, not the add-in's share;
-  - every other phase (sheet: where the ranges are and their hidden rows; errors:
+  - every other phase (sheet: where the ranges are; hidden: their hidden rows; errors:
     naming error cells; key: the cache key, with the numbers read in the same pass;
     read: the columns and the checks of the cells; hash: the input's key; panel, fit:
     the panel over the columns and the fit; compute, out: the result cells) is the
