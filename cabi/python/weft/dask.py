@@ -153,13 +153,18 @@ def _facts(dask, ddf, unit, period):
     return list(_compute(dask, *tasks)), parts
 
 
-def fit(ddf, outcome, regressors, unit, period, model="pooled", repartition=True):
+def fit(ddf, outcome, regressors, unit, period, model="pooled", repartition=True, weights=None):
     """Fit one panel model to the columns of a dask DataFrame on its partitions, with the
     numbers weft.fit gives on the same rows in one frame. Arguments as weft.fit;
     repartition: when a unit's rows lie in several partitions, shuffle the frame on the
     unit column first (True) or refuse (False). Runs on the current Dask scheduler (a
     distributed Client when one is active). Returns a weft Result whose residuals and
-    fitted are None (they stay in the partitions). Raises WeftError with weft's message."""
+    fitted are None (they stay in the partitions). Raises WeftError with weft's message.
+    weights: not yet taken (observation weights are not in libweft yet); anything but
+    None is refused."""
+    if weights is not None:
+        raise WeftError("weft: weights are not fitted over partitions yet (libweft has no observation weights "
+                        "so far); fit without weights=")
     import dask
     import dask.dataframe as dd
 
