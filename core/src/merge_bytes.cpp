@@ -120,7 +120,10 @@ public:
     }
     Eigen::MatrixXd matrix() {
         const std::size_t rows = count(0), cols = count(0);
-        if (cols > 0 && rows > (n_ - at_) / 8 / cols) bad();
+        // each dimension bounded by what the rest can hold, so that even an empty
+        // matrix of absurd width is refused before any loop runs over it
+        const std::size_t room = (n_ - at_) / 8 + 1;
+        if (rows > room || cols > room || (cols > 0 && rows > (n_ - at_) / 8 / cols)) bad();
         Eigen::MatrixXd m(static_cast<Index>(rows), static_cast<Index>(cols));
         for (Index j = 0; j < m.cols(); ++j)
             for (Index i = 0; i < m.rows(); ++i) m(i, j) = f64();
@@ -270,7 +273,12 @@ PartialSums sums_from_bytes(const std::uint8_t* bytes, std::size_t size) {
     s.y_moments = r.moments();
     r.finish();
     const std::size_t p = s.candidates.size();
-    if (s.period_used.size() != s.grid.size() || s.period_rows.size() != s.grid.size() ||
+    const std::size_t expected = (s.intercept_column == 0 ? 1 : 0) + s.regressor_names.size() +
+                                 (s.spec.period_effects ? s.grid.size() : 0);
+    if (s.intercept_column < -1 || s.intercept_column > 0 || p != expected || s.spec.dk_lag < -1 ||
+        !(s.spec.level > 0 && s.spec.level < 1) ||
+        s.level_squares.size() != s.regressor_names.size() ||
+        s.period_used.size() != s.grid.size() || s.period_rows.size() != s.grid.size() ||
         s.raw_squares.size() != p || static_cast<std::size_t>(s.shift.size()) != p + 1 ||
         static_cast<std::size_t>(s.r.rows()) != p + 1 || static_cast<std::size_t>(s.r.cols()) != p + 1)
         Reader::bad();
@@ -294,7 +302,9 @@ PartialScores scores_from_bytes(const std::uint8_t* bytes, std::size_t size) {
     s.level_means = r.moments();
     r.finish();
     const Index K = static_cast<Index>(s.gradient.size());
-    if (s.gram.size() != s.gradient.size() * s.gradient.size() || s.meat_rows.rows() != K || s.meat_units.rows() != K || (s.period_sums.rows() > 0 && s.period_sums.cols() != K))
+    if (s.gram.size() != s.gradient.size() * s.gradient.size() || s.meat_rows.rows() != K ||
+        s.meat_rows.cols() != K || s.meat_units.cols() != K ||
+        (s.period_sums.rows() > 0 && static_cast<std::size_t>(s.period_sums.rows()) != s.period_present.size()) || s.meat_units.rows() != K || (s.period_sums.rows() > 0 && s.period_sums.cols() != K))
         Reader::bad();
     return s;
 }

@@ -1443,6 +1443,48 @@ static weft_partial *through_bytes(const weft_partial *partial)
     return copy;
 }
 
+/* FNV-1a 64 of the partial's bytes before its last 8 (the layout in core's
+ * merge_bytes.cpp), so that a changed payload can be re-sealed and reach the reader. */
+static void reseal(unsigned char *bytes, size_t size)
+{
+    unsigned long long h = 14695981039346656037ULL;
+    size_t i;
+    for (i = 0; i + 8 < size; ++i) {
+        h ^= bytes[i];
+        h *= 1099511628211ULL;
+    }
+    memcpy(bytes + size - 8, &h, 8);
+}
+
+/* Every truncation and every one-byte change of a partial's bytes (re-sealed, so the
+ * reader sees it) is refused or read, never a crash (valgrind runs this too). */
+static void partial_bytes_hostile(const weft_partial *partial)
+{
+    size_t needed = 0, i;
+    unsigned char *bytes, *copy;
+    weft_partial *read = NULL;
+    int status;
+    OK(weft_partial_bytes(partial, NULL, 0, &needed));
+    bytes = (unsigned char *)malloc(needed);
+    copy = (unsigned char *)malloc(needed);
+    OK(weft_partial_bytes(partial, bytes, needed, &needed));
+    for (i = 0; i < needed; ++i) {
+        status = weft_partial_from_bytes(&read, bytes, i);
+        CHECK(status == WEFT_EDATA && read == NULL);
+    }
+    for (i = 24; i + 8 < needed; ++i) {
+        memcpy(copy, bytes, needed);
+        copy[i] ^= 0x5a;
+        reseal(copy, needed);
+        status = weft_partial_from_bytes(&read, copy, needed);
+        CHECK(status == WEFT_OK || status == WEFT_EDATA);
+        weft_partial_free(read);
+        read = NULL;
+    }
+    free(copy);
+    free(bytes);
+}
+
 static void test_partials(const grunfeld *g)
 {
     static const char *const terms[] = {"intercept", "value", "capital"};
@@ -1480,6 +1522,8 @@ static void test_partials(const grunfeld *g)
     }
     OK(weft_partial_kind(scores, &kind));
     CHECK(kind == WEFT_PARTIAL_SCORES);
+    partial_bytes_hostile(sums);
+    partial_bytes_hostile(scores);
     OK(weft_partial_finish(&m, sums, scores));
     check_table(m, terms, fd_coef, fd_se, 3, "F results.coef / se.classical, over partitions");
     NEAR(value_of(m, "ssr", NULL), 345455.886220664, "F results.rss");
