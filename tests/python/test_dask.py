@@ -134,6 +134,24 @@ class DaskCluster(unittest.TestCase):
                           model="within cluster", repartition=False)
         self.assertRegex(str(caught.exception), r"^weft: unit .* has rows in partitions \d+ and \d+")
 
+    def test_empty_partitions_text_units_and_dates(self):
+        frame = panel(units=40, periods=5, seed=2)
+        pieces = [frame.iloc[:0], frame[frame.unit < 20], frame.iloc[:0], frame[frame.unit >= 20]]
+        ddf = dd.from_delayed([dask.delayed(lambda piece: piece)(p) for p in pieces], meta=frame.iloc[:0])
+        want = weft.fit(frame, outcome="y", regressors=["x1"], unit="unit", period="year", model="within cluster")
+        got = weft.dask.fit(ddf, outcome="y", regressors=["x1"], unit="unit", period="year", model="within cluster")
+        assert_same(self, got, want, "empty partitions")
+        shops = frame.assign(unit="shop " + frame["unit"].astype(str),
+                             year=pd.to_datetime(frame["year"].astype(int).astype(str) + "-01-01"))
+        want = weft.fit(shops, outcome="y", regressors=["x1"], unit="unit", period="year", model="fd periods hc1")
+        got = weft.dask.fit(dd.from_pandas(shops, npartitions=3), outcome="y", regressors=["x1"], unit="unit",
+                            period="year", model="fd periods hc1")
+        assert_same(self, got, want, "text units, dates")
+        self.assertIn("period 37622", got.coefficients.index)   # 2003-01-01 as a day number
+        with self.assertRaises(weft.WeftError) as caught:
+            weft.dask.fit(ddf, outcome="y", regressors=["x1"], unit="unit", period="year", weights="x1")
+        self.assertIn("weights", str(caught.exception))
+
     def test_errors_are_weft_errors(self):
         frame = panel(units=50, periods=5, seed=3)
         ddf = dd.from_pandas(frame, npartitions=3)

@@ -41,18 +41,17 @@ class _Handle:
         self._finalizer = weakref.finalize(self, free, pointer)
 
 
-def _panel(lib, frame, outcome, regressors, unit, period, first_row=0, allow_empty=False):
+def _panel(lib, frame, outcome, regressors, unit, period, first_row=0):
     """A new weft panel with the frame's columns (outcome, regressors and periods borrowed
     in place, units copied) and the arrays it borrows. first_row: the number weft's
-    messages give the frame's first row (a partition's position in the whole frame);
-    allow_empty: a frame without rows is a panel of none (a partition may be empty)."""
+    messages give the frame's first row (a partition's position in the whole frame)."""
     regressors = [regressors] if isinstance(regressors, str) else list(regressors)
     columns = {"outcome": _columns.take(frame, outcome, "outcome"),
                "unit": _columns.take(frame, unit, "unit"),
                "period": _columns.take(frame, period, "period")}
     regressor_columns = [(_text(str(name), "regressor name"), _columns.take(frame, name, "regressor"))
                          for name in regressors]
-    if len(frame) == 0 and not allow_empty:
+    if len(frame) == 0:
         raise WeftError("weft: the frame has no rows; give at least one row per unit and period")
     pointer = ctypes.c_void_p()
     # first_row 0: a row number in weft's messages is the row's position in the frame

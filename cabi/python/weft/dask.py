@@ -85,8 +85,11 @@ def _partial(lib, data):
 
 
 def _sums_task(frame, outcome, regressors, unit, period, model, grid, first_row):
+    """(1, bytes of the partition's pass-1 partial), or (1, None) for an empty partition."""
+    if len(frame) == 0:
+        return 1, None
     lib = _library()
-    panel = _panel(lib, frame, outcome, regressors, unit, period, first_row=first_row, allow_empty=True)
+    panel = _panel(lib, frame, outcome, regressors, unit, period, first_row=first_row)
     pointer = ctypes.c_void_p()
     _check(lib, lib.weft_partial_sums(ctypes.byref(pointer), panel.pointer, _text(model, "model text"),
                                       grid.ctypes.data, grid.size))
@@ -95,8 +98,10 @@ def _sums_task(frame, outcome, regressors, unit, period, model, grid, first_row)
 
 
 def _scores_task(frame, outcome, regressors, unit, period, sums, first_row):
+    if len(frame) == 0:
+        return 1, None
     lib = _library()
-    panel = _panel(lib, frame, outcome, regressors, unit, period, first_row=first_row, allow_empty=True)
+    panel = _panel(lib, frame, outcome, regressors, unit, period, first_row=first_row)
     merged = _partial(lib, sums[1])
     pointer = ctypes.c_void_p()
     _check(lib, lib.weft_partial_scores(ctypes.byref(pointer), panel.pointer, merged.pointer))
@@ -105,13 +110,17 @@ def _scores_task(frame, outcome, regressors, unit, period, sums, first_row):
 
 
 def _merge_task(*partials):
-    """(partitions counted, bytes) of several partials merged."""
+    """(partitions counted, bytes) of several partials merged (None: all were empty)."""
+    count = sum(n for n, _ in partials)
+    present = [data for _, data in partials if data is not None]
+    if not present:
+        return count, None
     lib = _library()
-    into = _partial(lib, partials[0][1])
-    for _, data in partials[1:]:
+    into = _partial(lib, present[0])
+    for data in present[1:]:
         other = _partial(lib, data)
         _check(lib, lib.weft_partial_merge(into.pointer, other.pointer))
-    return sum(count for count, _ in partials), _bytes_of(lib, into.pointer)
+    return count, _bytes_of(lib, into.pointer)
 
 
 # ---- the driver
@@ -195,6 +204,8 @@ def fit(ddf, outcome, regressors, unit, period, model="pooled", repartition=True
     rows = [n for n, _, _ in facts]
     if sum(rows) == 0:
         raise WeftError("weft: the frame has no rows; give at least one row per unit and period")
+    if all(len(g) == 0 for _, _, g in facts):
+        raise WeftError(f"weft: no row has both a unit ({unit!r}) and a period ({period!r}); fill those columns")
     grid = np.unique(np.concatenate([g for _, _, g in facts])).astype(np.float64)
     first = np.concatenate([[0], np.cumsum(rows)[:-1]]).tolist()
     args = (outcome, regressors, unit, period)
