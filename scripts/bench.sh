@@ -4,6 +4,7 @@
 #   1. weft_bench: pooled/fd/within x classical/hc1/cluster/dk on seeded panels of
 #      100,000 rows (10,000 x 10, K=5) and 1,000,000 rows (50,000 x 20, K=20),
 #      balanced and unbalanced with gaps: medians, the floor, ratios, peak memory;
+#      and the same with observation weights beside each unweighted case (--weighted);
 #   2. tests/bench/compare.py: one 1M-row dataset through weft, R plm, R lm.fit +
 #      sandwich and statsmodels, with an agreement check;
 #   3. tests/bench/calc_bench.py: WEFT.ESTIMATES in headless Calc, and a second function
@@ -49,6 +50,11 @@ if [[ $quick -eq 1 ]]; then
 else
   "$bench" --sizes 100k,1Mk5,1M --json "$out_dir/weft_bench.json" | tee "$out_dir/weft_bench.txt"
 fi
+
+echo "== observation weights: each weighted case (se \"<se> w\") below its unweighted twin"
+weighted_sizes=$([[ $quick -eq 1 ]] && echo 100k || echo 100k,1Mk5)
+"$bench" --sizes "$weighted_sizes" --estimators pooled,fd,within --se classical,hc1,cluster --layouts balanced \
+  --weighted --json "$out_dir/weft_bench_weighted.json" | tee "$out_dir/weft_bench_weighted.txt"
 
 if [[ $compare -eq 1 ]]; then
   echo "== reference libraries on one dataset (1M rows)"

@@ -2,6 +2,7 @@
 
 #include "cache.hpp"
 #include "trace.hpp"
+#include "weights.hpp"
 
 #include <weft.h>
 
@@ -198,6 +199,7 @@ struct PanelInput {
     std::vector<std::string> regressor_names;
     NumericColumn outcome;
     std::vector<NumericColumn> regressors;
+    std::vector<std::size_t> text_row;  // per regressor: first row holding text (0: none), for weights=
     UnitColumn units;
     NumericColumn periods;
     Hash128 hash;
@@ -265,6 +267,7 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     // One pass over the rows for all regressors: the table is row-major, so a pass
     // per column would touch every row once per column.
     p.regressors.resize(n_regressors);
+    p.text_row.assign(n_regressors, 0);
     for (NumericColumn& x : p.regressors) {
         x.values.assign(p.n, 0.0);
         x.missing.assign(p.n, 1);
@@ -272,7 +275,10 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     for (std::size_t i = 0; i < p.n; ++i) {
         for (std::size_t c = 0; c < n_regressors; ++c) {
             const Cell cell = regressors.cell(start + i, c);
-            if (!cell.is_number()) continue;
+            if (!cell.is_number()) {
+                if (cell.is_text() && p.text_row[c] == 0) p.text_row[c] = p.first_row + i;
+                continue;
+            }
             p.regressors[c].values[i] = cell.number;
             p.regressors[c].missing[i] = 0;
         }
@@ -288,6 +294,7 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     for (const std::string& name : p.regressor_names) h.add_string(name);
     hash_numbers(h, p.outcome);
     for (const NumericColumn& x : p.regressors) hash_numbers(h, x);
+    for (std::size_t row : p.text_row) h.add_u64(row);
     hash_units(h, p.units);
     hash_numbers(h, p.periods);
     p.hash = h.digest();
@@ -385,14 +392,28 @@ LruCache<FitEntry> fit_cache(kFitsKept, kFitCellBudget);
 // not refit twenty times either.
 // The canonical text of a model ("cluster within" and "within  cluster" are one
 // model, so they share one fit); a text weft rejects is reported right here.
+// weft_options holds no weights=NAME (weft.h): that word is kept apart and appended.
 std::string canonical_model_text(const std::string& text) {
+    const ModelWords words = split_weights_word(text);
     weft_options o = WEFT_OPTIONS_INIT;
-    check(weft_options_parse(&o, text.c_str()));
+    check(weft_options_parse(&o, words.rest.c_str()));
     size_t needed = 0;
     check(weft_options_text(&o, nullptr, 0, &needed));
     std::vector<char> buf(needed + 1, '\0');
     check(weft_options_text(&o, buf.data(), buf.size(), &needed));
-    return std::string(buf.data());
+    return std::string(buf.data()) + (words.weights.empty() ? "" : " weights=" + words.weights);
+}
+
+// weights=NAME: a text cell in the weight column is an error naming its row (a blank
+// weight drops the row; a text among the other regressors drops it too).
+void check_weight_cells(const PanelInput& in, const std::string& text) {
+    const std::string name = split_weights_word(text).weights;
+    if (name.empty()) return;
+    const std::size_t k = weight_column(in.regressor_names, name);
+    if (k == std::string::npos || in.text_row[k] == 0) return;
+    fail("weights " + quoted(name) + " (column " + std::to_string(k + 1) + " of regressors), row " +
+         std::to_string(in.text_row[k]) + " of the ranges holds text; a weight must be a number of 0 or more "
+         "(0 leaves the row out, a blank cell drops it)");
 }
 
 std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string& given_text,
@@ -417,6 +438,7 @@ std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string
     }
     auto entry = std::make_shared<ModelEntry>();
     try {
+        check_weight_cells(in, text);
         const weft_panel* panel = panel_or_throw(*cached_panel(in));
         weft_model* raw = nullptr;
         check(weft_model_new_text(&raw, panel, text.c_str()));
@@ -862,7 +884,8 @@ OutCell value_of(const ModelRef& ref, const Arg& what_arg, const Arg& term_arg) 
         fail("WEFT.VALUE needs what: one of estimate, se, t, p, ci-low, ci-high (with a term), "
              "n, units, periods, r2, adj-r2, corr2-rows, corr2-means, corr2-deviations, sigma, "
              "df (a term's with a term), "
-             "df-residual, f, f-df1, f-df2, f-p, ssr, clusters, rows-dropped");
+             "df-residual, f, f-df1, f-df2, f-p (the joint test of all regressors), classical-f, "
+             "classical-f-df1, classical-f-df2, classical-f-p, ssr, clusters, rows-dropped");
     std::string term;
     if (term_arg.given && !term_arg.is_scalar())
         fail("term is a range of several cells; give one term name, e.g. \"intercept\"");
@@ -1086,6 +1109,15 @@ OutTable fn_bootstrap(const PanelRanges& in, const Arg& model, const Arg& term, 
 
 namespace {
 
+// Hausman and the unit-effects test compare with fits that take no weights (random
+// effects; the core refuses them too): say so before reading anything else.
+[[noreturn]] void refuse_weights(const char* function) {
+    fail(std::string(function) +
+         " does not take weights: it compares with random effects or pooled fits that weft does not "
+         "weight; remove weights= from the model, or judge the weighted within fit by its cluster "
+         "standard errors");
+}
+
 OutTable hausman_table(const weft_panel* panel, const weft_options& o) {
     weft_hausman_result r;
     check(weft_test_hausman(panel, &o, &r));
@@ -1121,8 +1153,11 @@ OutTable effects_table(const weft_panel* panel, const weft_options& o) {
 // The panel and model options of a fit cell, for the tests that fit other
 // estimators on the fit's panel (with its model words).
 template <class Table>
-OutTable on_fit_panel(const Arg& fit, Table table) {
+OutTable on_fit_panel(const Arg& fit, Table table, const char* function) {
     Fitted f(fit);
+    double weighted = 0;
+    check(weft_model_value(f.model, "weighted", nullptr, &weighted));
+    if (weighted == 1.0) refuse_weights(function);
     weft_options o = WEFT_OPTIONS_INIT;
     check(weft_model_options(f.model, &o));
     return table(panel_or_throw(*f.panel), o);
@@ -1133,6 +1168,7 @@ OutTable on_fit_panel(const Arg& fit, Table table) {
 OutTable fn_hausman(const PanelSource& in, const Arg& model) {
     std::unique_lock<std::mutex> lock(cache_mutex);
     const PanelInput input = read_panel(in.ranges());
+    if (!split_weights_word(model_text(model)).weights.empty()) refuse_weights("WEFT.HAUSMAN");
     const weft_options o = parse_options(model_text(model));
     return hausman_table(panel_or_throw(*cached_panel(input)), o);
 }
@@ -1140,12 +1176,13 @@ OutTable fn_hausman(const PanelSource& in, const Arg& model) {
 OutTable fn_effects(const PanelSource& in, const Arg& model) {
     std::unique_lock<std::mutex> lock(cache_mutex);
     const PanelInput input = read_panel(in.ranges());
+    if (!split_weights_word(model_text(model)).weights.empty()) refuse_weights("WEFT.EFFECTS");
     const weft_options o = parse_options(model_text(model));
     return effects_table(panel_or_throw(*cached_panel(input)), o);
 }
 
-OutTable fn_fit_hausman(const Arg& fit) { return on_fit_panel(fit, hausman_table); }
-OutTable fn_fit_effects(const Arg& fit) { return on_fit_panel(fit, effects_table); }
+OutTable fn_fit_hausman(const Arg& fit) { return on_fit_panel(fit, hausman_table, "WEFT.FIT.HAUSMAN"); }
+OutTable fn_fit_effects(const Arg& fit) { return on_fit_panel(fit, effects_table, "WEFT.FIT.EFFECTS"); }
 
 // Over plain tables: no cells key, so the ranges are always read.
 OutCell fn_fit(const PanelRanges& in, const Arg& model) { return fn_fit(TableSource(in), model); }

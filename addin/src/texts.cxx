@@ -26,13 +26,15 @@ const ArgumentText model_arg{
     "model",
     "Optional model words, e.g. \"within cluster\": pooled, fd, within, random, between; "
     "classical, hc0-hc3, cluster, cluster0, cluster-period, cluster-both, dk or dk=L, cr2 "
-    "(few clusters: bias-reduced, each term on its own df); periods; level=0.90; no-intercept."};
+    "(few clusters: bias-reduced, each term on its own df); periods; level=0.90; no-intercept; "
+    "weights=NAME (the regressor column headed NAME holds observation weights)."};
 
 const ArgumentText what_arg{
     "what",
     "Which number: estimate, se, t, p, ci-low, ci-high (these need term), n, units, r2, "
     "corr2-rows, corr2-means, corr2-deviations (within, random), sigma, df (with term: that "
-    "term's df, its own under cr2), f, f-p."};
+    "term's df, its own under cr2), f, f-df1, f-df2, f-p (the joint test of all regressors "
+    "under the model's standard errors), classical-f, classical-f-p (classical F of all terms)."};
 const ArgumentText term_arg{
     "term",
     "The term's name (a regressor header, x1, intercept, period 1990) for estimate, se, t, p, "
@@ -86,7 +88,8 @@ std::vector<FunctionText> make_texts() {
     t.push_back({"summary", "WEFT.SUMMARY",
                  "Summary of a panel regression in two columns, label and value: estimator, standard "
                  "errors, observations, rows dropped, units, periods, R-squared (within, random: how "
-                 "closely the slope prediction follows the outcome), F test, warnings.",
+                 "closely the slope prediction follows the outcome), the joint test of all regressors "
+                 "under the model's standard errors, the classical F of all terms, warnings.",
                  panel_args()});
     t.push_back({"value", "WEFT.VALUE",
                  "One number from a panel regression, e.g. the estimate or p-value of one term, "
@@ -113,8 +116,8 @@ std::vector<FunctionText> make_texts() {
                  "test of serially uncorrelated level errors (fd, within).",
                  panel_args()});
     t.push_back({"hausman", "WEFT.HAUSMAN",
-                 "Fixed versus random effects: statistic, df, p-value, rank of the covariance "
-                 "difference, then the cluster-robust auxiliary-regression version (read it when "
+                 "Fixed versus random effects: statistic, df (the rank of the covariance "
+                 "difference, judged in units-free form), p-value, that rank, then the cluster-robust auxiliary-regression version (read it when "
                  "a warning says the classical one is unreliable).",
                  panel_args()});
     t.push_back({"effects", "WEFT.EFFECTS",
@@ -161,7 +164,8 @@ std::vector<FunctionText> make_texts() {
                  {fit_arg}});
     t.push_back({"fitSummary", "WEFT.FIT.SUMMARY",
                  "WEFT.SUMMARY of a fit cell: label and value of estimator, standard errors, "
-                 "observations, R-squared and related fit measures, F test, warnings.",
+                 "observations, R-squared and related fit measures, the joint test of all regressors, "
+                 "the classical F of all terms, warnings.",
                  {fit_arg}});
     t.push_back({"fitValue", "WEFT.FIT.VALUE",
                  "One number of a fit cell, e.g. the estimate or p-value of one term, or n, r2, "

@@ -201,7 +201,10 @@ WEFT_API int weft_options_init(weft_options *options);
  *  applied, so a group the text does not mention has its default whatever *options
  *  held before. NULL or an empty text gives the defaults.
  *  Errors: WEFT_EINVAL if options is NULL; WEFT_EMODEL for an unknown or conflicting
- *  word, with a message naming the word and listing the accepted words. On failure
+ *  word, with a message naming the word and listing the accepted words. The word
+ *  weights=NAME (0.3.0) names a column, which the struct cannot hold: it is
+ *  WEFT_EMODEL here (so that no host drops it without noticing); pass such a text to
+ *  weft_model_new_text, or set the weights with weft_panel_set_weights. On failure
  *  *options holds the defaults. */
 WEFT_API int weft_options_parse(weft_options *options, const char *model_text);
 
@@ -293,6 +296,25 @@ WEFT_API int weft_panel_borrow_outcome(weft_panel *panel, const char *name,
                                        const double *values, const unsigned char *missing);
 WEFT_API int weft_panel_borrow_regressor(weft_panel *panel, const char *name,
                                          const double *values, const unsigned char *missing);
+
+/** Observation weights (since 0.3.0; CONVENTIONS "Observation weights"): one weight
+ *  per row (n_rows values). Weighted least squares in every estimator but random;
+ *  every standard-error family but cr2 follows the weights. A row whose missing entry
+ *  is nonzero (a blank weight) is dropped and counted with the missing rows; a weight
+ *  of 0 leaves the row out of the estimated equation and out of N (the summary says
+ *  how many); a negative, NaN or infinite weight not marked missing is WEFT_EDATA
+ *  naming the row when a model is fitted. name labels the column in messages (NULL
+ *  or "" gives "weights"). The model word weights=NAME, which takes a regressor
+ *  column as the weights instead, must then not be used (WEFT_EDATA if both are).
+ *  weft_panel_set_weights copies values and missing. weft_panel_borrow_weights reads
+ *  them in place: ownership stays with the caller, who keeps both arrays valid and
+ *  unchanged until weft_panel_free() of this panel and weft_model_free() of every
+ *  model made from it (as the other borrow functions).
+ *  Errors: WEFT_EINVAL if panel or values is NULL, or the weights were already set. */
+WEFT_API int weft_panel_set_weights(weft_panel *panel, const char *name,
+                                    const double *values, const unsigned char *missing);
+WEFT_API int weft_panel_borrow_weights(weft_panel *panel, const char *name,
+                                       const double *values, const unsigned char *missing);
 
 /* ------------------------------------------------------------------------------
  * Panel structure report (WEFT.PANEL)
@@ -511,8 +533,17 @@ typedef struct weft_summary_item {
  *    of each per unit) and
  *    "squared correlation of outcome and slope prediction, deviations from unit means"
  *    N (for within the same number as "R-squared"), then
- *    "residual std deviation" N, "F on all slopes" N, "F df1" N, "F df2" N,
- *    "F p-value" N, "idiosyncratic variance" N and "unit effect variance" N
+ *    "residual std deviation" N, then the joint test of all regressors (the Wald
+ *    test that every regressor's coefficient is 0, not the intercept nor period
+ *    indicators, under the model's own standard errors and on their df, e.g. G-1
+ *    under cluster; under WEFT_SE_CR2 the HTZ F): "joint test of all regressors, F"
+ *    N, "joint test of all regressors, df1" N, "joint test of all regressors, df2"
+ *    N, "joint test of all regressors, p-value" N, or, when it cannot be computed
+ *    (e.g. fewer clusters than regressors), "joint test of all regressors" T
+ *    saying "not available: " and why; then the classical F of all terms but the
+ *    intercept (period indicators included, classical covariance, N-K df):
+ *    "classical F of all terms" N, "classical F df1" N, "classical F df2" N,
+ *    "classical F p-value" N; then "idiosyncratic variance" N and "unit effect variance" N
  *    (random), then one "term dropped" T per dropped term and one "warning" T per
  *    warning.
  *  Items that do not apply are left out, so the count depends on the model; look
@@ -534,8 +565,12 @@ WEFT_API int weft_model_summary_item(const weft_model *model, size_t index,
  *  deviation), "df" (df of t, F and intervals under the model's standard errors;
  *  with `term`: that term's df, which differs by term under WEFT_SE_CR2; without a
  *  term under WEFT_SE_CR2: the smallest of the terms' df),
- *  "df-residual", "f", "f-df1", "f-df2", "f-p" (F on all slopes), "ssr",
- *  "clusters", "rows-dropped", and for random effects "sigma2-idiosyncratic",
+ *  "df-residual", "f", "f-df1", "f-df2", "f-p" (the joint test of all regressors
+ *  under the model's standard errors, as the summary; NaN when it is not available;
+ *  since 0.3.0, before it was the classical F), "classical-f", "classical-f-df1",
+ *  "classical-f-df2", "classical-f-p" (the classical F of all terms), "ssr",
+ *  "clusters", "rows-dropped", "weighted" (1 for a weighted fit, else 0; 0.3.0),
+ *  "rows-zero-weight" (rows left out for weight 0; 0.3.0), and for random effects "sigma2-idiosyncratic",
  *  "sigma2-unit" and "theta" (the quasi-demeaning weight; NaN when the panel is
  *  unbalanced, where theta differs between units).
  *  *value receives the number (NaN on failure or when it does not apply to this
@@ -688,10 +723,17 @@ WEFT_API int weft_test_serial(const weft_model *model, weft_serial_result *out);
 typedef struct weft_hausman_result {
     double statistic;          /**< H as computed (negative or too small when
                                     positive_definite is 0: read the robust form) */
-    double df;                 /**< number of slopes compared */
+    double df;                 /**< the rank of the covariance difference (equal
+                                    to the number of slopes compared when that
+                                    difference has full rank; since 0.3.0 the rank
+                                    is judged in the difference's scaled basis,
+                                    so it does not depend on units) */
     double p;                  /**< upper tail of chi-square(df) at H (1 if H <= 0) */
     double rank;               /**< rank of the covariance difference, within
-                                    minus random */
+                                    minus random: its eigenvalues in the basis of
+                                    the within variances (D (V_W - V_R) D, D =
+                                    diag(V_W)^-1/2) larger than 1e-10 of the
+                                    largest in absolute value */
     int positive_definite;     /**< 1 if the within covariance exceeds the random
                                     one in every direction (the difference is
                                     positive definite); 0: read the robust form */

@@ -175,6 +175,10 @@ int weft_options_parse(weft_options* options, const char* model_text) {
         const weft_options defaults = WEFT_OPTIONS_INIT;
         *options = defaults;
         weft::ModelSpec spec = weft::parse_model_text(model_text == nullptr ? "" : model_text);
+        if (!spec.weights.empty())
+            fail(WEFT_EMODEL, "weights=" + spec.weights +
+                                  ": weft_options cannot hold a weight column; pass the model text to "
+                                  "weft_model_new_text, or set the weights with weft_panel_set_weights");
         *options = from_spec(spec);
         return WEFT_OK;
     });

@@ -19,6 +19,7 @@ struct weft_panel {
     bool has_units = false;
     bool has_periods = false;
     bool has_outcome = false;
+    bool has_weights = false;
 
     weft::PanelData& writable() {
         if (data.use_count() > 1) data = std::make_shared<weft::PanelData>(*data);

@@ -86,6 +86,11 @@ std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
     if (cov.kind == weft::Covariance::dk && cov.dk_lag >= 0 && se.find("lag") == std::string::npos)
         se += ", lag " + std::to_string(cov.dk_lag);
     text("standard errors", se);
+    if (fit.equation.weights.size() != 0) {
+        text("weights", fit.spec.weights.empty() ? std::string("the panel's weight column")
+                                                 : "regressor column " + fit.spec.weights);
+        number("rows with weight 0", static_cast<double>(fit.rows_zero_weight));
+    }
     number("observations used", static_cast<double>(fit.nobs));
     number("rows used", static_cast<double>(fit.rows_used));
     number("rows dropped", static_cast<double>(fit.rows_dropped));
@@ -112,11 +117,21 @@ std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
     optional_number(fit_label_means, fit.r2_between);
     optional_number(fit_label_deviations, fit.r2_within);
     number("residual std deviation", fit.sigma);
+    // The model's joint test of all regressors under its own covariance and df
+    // (CONVENTIONS.md), then the classical F of all terms under its own label.
+    if (fit.joint && fit.joint->available) {
+        number("joint test of all regressors, F", fit.joint->f);
+        number("joint test of all regressors, df1", fit.joint->df1);
+        number("joint test of all regressors, df2", fit.joint->df2);
+        number("joint test of all regressors, p-value", fit.joint->p);
+    } else if (fit.joint) {
+        text("joint test of all regressors", "not available: " + fit.joint->reason);
+    }
     if (fit.f) {
-        number("F on all slopes", *fit.f);
-        optional_number("F df1", fit.f_df1);
-        optional_number("F df2", fit.f_df2);
-        optional_number("F p-value", fit.f_p);
+        number("classical F of all terms", *fit.f);
+        optional_number("classical F df1", fit.f_df1);
+        optional_number("classical F df2", fit.f_df2);
+        optional_number("classical F p-value", fit.f_p);
     }
     if (fit.random_effects) {
         number("idiosyncratic variance", fit.random_effects->sigma2_idiosyncratic);
@@ -183,15 +198,22 @@ std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
     if (what == "sigma") return fit.sigma;
     if (what == "df") return fit.covariance.df;
     if (what == "df-residual") return fit.df_residual;
-    if (what == "f") return fit.f;
-    if (what == "f-df1") return fit.f_df1;
-    if (what == "f-df2") return fit.f_df2;
-    if (what == "f-p") return fit.f_p;
+    if (what == "f" || what == "f-df1" || what == "f-df2" || what == "f-p") {
+        if (!fit.joint || !fit.joint->available) return std::nullopt;
+        const weft::JointTest& j = *fit.joint;
+        return what == "f" ? j.f : what == "f-df1" ? j.df1 : what == "f-df2" ? j.df2 : j.p;
+    }
+    if (what == "classical-f") return fit.f;
+    if (what == "classical-f-df1") return fit.f_df1;
+    if (what == "classical-f-df2") return fit.f_df2;
+    if (what == "classical-f-p") return fit.f_p;
     if (what == "ssr") return fit.ssr;
     if (what == "clusters")
         return is_cluster(fit.covariance.kind) ? std::optional<double>(static_cast<double>(fit.covariance.clusters))
                                                : std::nullopt;
     if (what == "rows-dropped") return static_cast<double>(fit.rows_dropped);
+    if (what == "weighted") return fit.equation.weights.size() != 0 ? 1.0 : 0.0;
+    if (what == "rows-zero-weight") return static_cast<double>(fit.rows_zero_weight);
     if (what == "sigma2-idiosyncratic" || what == "sigma2-unit" || what == "theta") {
         if (!fit.random_effects) return std::nullopt;
         const weft::RandomEffectsInfo& re = *fit.random_effects;
@@ -205,8 +227,9 @@ std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
 
 constexpr const char* value_words =
     "estimate, se, t, p, ci-low, ci-high (with a term), n, units, periods, r2, adj-r2, corr2-rows, "
-    "corr2-means, corr2-deviations, sigma, df (a term's with a term), df-residual, f, f-df1, f-df2, f-p, ssr, "
-    "clusters, rows-dropped, "
+    "corr2-means, corr2-deviations, sigma, df (a term's with a term), df-residual, f, f-df1, f-df2, f-p, "
+    "classical-f, classical-f-df1, classical-f-df2, classical-f-p, ssr, "
+    "clusters, rows-dropped, weighted, rows-zero-weight, "
     "sigma2-idiosyncratic, sigma2-unit, theta";
 
 }  // namespace

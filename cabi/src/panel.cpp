@@ -118,6 +118,21 @@ int set_outcome(weft_panel* panel, const char* name, const double* values, const
     });
 }
 
+int set_weights(weft_panel* panel, const char* name, const double* values, const unsigned char* missing,
+                const char* fn, bool borrow) {
+    return guarded(WEFT_EDATA, [&] {
+        weft_panel& p = check_panel(panel, fn);
+        require(values, fn, "values");
+        if (p.has_weights)
+            fail(WEFT_EINVAL, std::string(fn) +
+                                  ": the weights are already set on this panel; make a new panel for other weights");
+        p.writable().weights =
+            take_column(name != nullptr && *name != '\0' ? name : "weights", values, missing, p.n_rows, borrow);
+        p.has_weights = true;
+        return WEFT_OK;
+    });
+}
+
 int add_regressor(weft_panel* panel, const char* name, const double* values, const unsigned char* missing,
                   const char* fn, bool borrow) {
     return guarded(WEFT_EDATA, [&] {
@@ -214,6 +229,16 @@ int weft_panel_set_outcome(weft_panel* panel, const char* name, const double* va
 int weft_panel_borrow_outcome(weft_panel* panel, const char* name, const double* values,
                               const unsigned char* missing) {
     return set_outcome(panel, name, values, missing, "weft_panel_borrow_outcome", true);
+}
+
+int weft_panel_set_weights(weft_panel* panel, const char* name, const double* values,
+                           const unsigned char* missing) {
+    return set_weights(panel, name, values, missing, "weft_panel_set_weights", false);
+}
+
+int weft_panel_borrow_weights(weft_panel* panel, const char* name, const double* values,
+                              const unsigned char* missing) {
+    return set_weights(panel, name, values, missing, "weft_panel_borrow_weights", true);
 }
 
 int weft_panel_add_regressor(weft_panel* panel, const char* name, const double* values,

@@ -368,6 +368,7 @@ BootstrapResult wild_bootstrap(const Fit& fit, std::string_view term, const Boot
     const Equation& eq = fit.equation;
     const std::size_t j = term_column(fit, term);
     detail::require_rows(eq, "the bootstrap");
+    detail::refuse_weighted(eq, "bootstrap", "use the cluster standard errors of the weighted fit");
     BootstrapResult r;
     r.by_period = clusters_by_period(fit);
     const std::vector<std::int32_t>& ids = r.by_period ? eq.period : eq.unit;

@@ -14,6 +14,7 @@
 #include "weft/error.hpp"
 #include "weft/model.hpp"
 #include "internal.hpp"
+#include "scaled.hpp"
 
 namespace weft {
 
@@ -217,7 +218,7 @@ CovarianceResult hc_covariance(const Equation& eq, Covariance kind) {
         const VectorXd h = leverages(eq);
         for (Index i = 0; i < N; ++i) {
             const double one_minus = 1.0 - h[i];
-            if (one_minus <= 1e-10) {
+            if (one_minus <= kFullLeverage) {
                 // the row is fitted exactly (e.g. the only row of a period
                 // indicator); its residual is 0 and it carries no information
                 omega[i] = 0.0;
@@ -270,24 +271,33 @@ CovarianceResult two_way_covariance(const Equation& eq) {
         auto it = cell_id.emplace(key, static_cast<std::int32_t>(cell_id.size())).first;
         cell[i] = it->second;
     }
-    MatrixXd meat = cluster_meat(eq, unit_dense, G_unit) + cluster_meat(eq, period_dense, G_period) -
-                    cluster_meat(eq, cell, cell_id.size());
-    MatrixXd v = sandwich(eq, meat);
+    const MatrixXd one_way = cluster_meat(eq, unit_dense, G_unit) + cluster_meat(eq, period_dense, G_period);
+    MatrixXd v = sandwich(eq, one_way - cluster_meat(eq, cell, cell_id.size()));
+    // the scale of the clipping decision: V_unit + V_period, positive where V's own
+    // diagonal can cancel
+    const VectorXd reference = sandwich(eq, one_way).diagonal();
     const std::size_t G_min = std::min(G_unit, G_period);
     const double g_d = static_cast<double>(G_min);
     out.factor = g_d / (g_d - 1.0) * (n_d - 1.0) / (n_d - k_d);
     out.factor_rule = "G_min/(G_min-1) * (N-1)/(N-K)";
     v *= out.factor;
-    Eigen::SelfAdjointEigenSolver<MatrixXd> eigen(v);
-    out.min_eigenvalue = eigen.eigenvalues().minCoeff();
-    if (out.min_eigenvalue < 0) {
-        const VectorXd clipped = eigen.eigenvalues().cwiseMax(0.0);
-        v = eigen.eigenvectors() * clipped.asDiagonal() * eigen.eigenvectors().transpose();
-        v = 0.5 * (v + v.transpose());
+    // Decided and clipped in the scaled basis D V D, D = diag(V_unit + V_period)^-1/2
+    // (weft/tolerances.hpp): Cameron, Gelbach and Miller's (2011, section 2.3) rule, the
+    // negative eigenvalues set to 0, taken where it does not depend on units. In V's own
+    // units (as R sandwich's vcovCL(fix = TRUE) does) the clip would change with the
+    // units of a regressor (a joint test could compute in one unit and not in another),
+    // and on regressors of very different size its small variances would be lost to the
+    // rounding of the large ones.
+    const detail::ScaledEigen scaled = detail::scaled_eigen(v, reference);
+    out.min_eigenvalue = Eigen::SelfAdjointEigenSolver<MatrixXd>(v, Eigen::EigenvaluesOnly).eigenvalues().minCoeff();
+    out.min_scaled_eigenvalue = scaled.largest > 0 ? scaled.lambda.minCoeff() / scaled.largest : 0.0;
+    if (out.min_scaled_eigenvalue < -kClipTolerance) {
+        v = scaled.rebuild(true);
         out.clipped = true;
         out.warnings.push_back("cluster-both: the two-way covariance was not positive semi-definite "
-                               "(smallest eigenvalue " + number_text(out.min_eigenvalue) +
-                               "); negative eigenvalues were set to 0");
+                               "(smallest eigenvalue " + number_text(out.min_scaled_eigenvalue) +
+                               " of the largest, in the basis of unit variances); its negative "
+                               "eigenvalues there were set to 0");
     }
     out.matrix = v;
     out.clusters = G_min;

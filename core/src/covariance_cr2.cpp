@@ -41,6 +41,7 @@
 #include "weft/model.hpp"
 #include "weft/spec.hpp"
 #include "internal.hpp"
+#include "scaled.hpp"
 
 namespace weft::detail {
 
@@ -50,8 +51,8 @@ using Eigen::VectorXd;
 
 namespace {
 
-// 1 - lambda at or below this is a leverage-1 direction (as hc2's rule for a row).
-constexpr double kFullLeverage = 1e-10;
+// 1 - lambda at or below kFullLeverage (weft/tolerances.hpp) is a leverage-1 direction
+// (as hc2's rule for a row).
 
 // One cluster's pieces in Q-coordinates.
 struct ClusterPieces {
@@ -152,6 +153,7 @@ MatrixXd contrast_map(const Equation& eq, const MatrixXd& r_inv) { return workin
 
 CovarianceResult cr2_covariance(const Equation& eq) {
     require_rows(eq, "cr2");
+    refuse_weighted(eq, "cr2", "use cluster (CR1) with weights");
     const Index K = eq.X.cols();
     const Clusters clusters = unit_clusters(eq);
     const MatrixXd r_inv = r_inverse(eq);
@@ -225,16 +227,19 @@ MatrixXd htz_omega(const Equation& eq, const ClusterRows& groups, const MatrixXd
     return 0.5 * (omega + omega.transpose());
 }
 
-// Symmetric inverse square root with eigenvalues below 1e-12 of the largest set to 0.
+// A matrix W with W' Omega W = I on Omega's non-null part, W = D S^-1/2 with S = D Omega
+// D its scaled basis (weft/tolerances.hpp): eigenvalues of S at most
+// kPseudoInverseTolerance of the largest are null, a decision that does not depend on
+// units. The HTZ sum below is a sum of traces, unchanged by an orthogonal rotation of
+// the q contrasts, so any such W gives the same df as Omega^-1/2.
 MatrixXd inverse_sqrt(const MatrixXd& m) {
-    Eigen::SelfAdjointEigenSolver<MatrixXd> eig(m);
-    const double top = eig.eigenvalues().cwiseAbs().maxCoeff();
+    const ScaledEigen eig = scaled_eigen(m);
     VectorXd f(m.rows());
     for (Index j = 0; j < f.size(); ++j) {
-        const double l = eig.eigenvalues()[j];
-        f[j] = (top > 0 && l > 1e-12 * top) ? 1.0 / std::sqrt(l) : 0.0;
+        const double l = eig.lambda[j];
+        f[j] = (eig.largest > 0 && l > kPseudoInverseTolerance * eig.largest) ? 1.0 / std::sqrt(l) : 0.0;
     }
-    return eig.eigenvectors() * f.asDiagonal() * eig.eigenvectors().transpose();
+    return eig.scale.asDiagonal() * eig.vectors * f.asDiagonal() * eig.vectors.transpose();
 }
 
 // The sum of the HTZ variance matrix (Pustejovsky and Tipton 2018, eq. 15 with the

@@ -92,7 +92,7 @@ Design build_pooled(const Context& ctx, const std::vector<std::size_t>& rows) {
     };
     fill_design(
         ctx, N, intercept, pcols, in.X, in.y, in.terms, in.intercept_column,
-        [&](std::size_t j, auto& out) { at_rows(ctx.data.regressors[j], out); },
+        [&](std::size_t j, auto& out) { at_rows(*ctx.regressors[j], out); },
         [&](std::int32_t p, auto& out) {
             for (Index i = 0; i < N; ++i) out[i] = in.period[static_cast<std::size_t>(i)] == p ? 1.0 : 0.0;
         },
@@ -154,8 +154,8 @@ Design build_fd(const Context& ctx) {
     }
     std::vector<Index> invariant;
     for (std::size_t j = 0; j < ctx.k_reg; ++j, ++col) {
-        const Column& x = ctx.data.regressors[j];
-        // (double sums suffice: they only feed the 1e-13 "no variation" threshold)
+        const Column& x = *ctx.regressors[j];
+        // (double sums suffice: they only feed the kConstantTolerance "no variation" threshold)
         double levels = 0, diffs = 0;
         for (Index i = 0; i < N; ++i) {
             const double a = value(x, later[static_cast<std::size_t>(i)]);
@@ -174,9 +174,9 @@ Design build_fd(const Context& ctx) {
                 dd += (a - b) * (a - b);
             }
             levels = (dd == 0) ? 1.0 : 0.0;
-            diffs = (dd == 0 || std::sqrt(dd) <= 1e-13L * std::sqrt(l)) ? 0.0 : 1.0;
+            diffs = (dd == 0 || std::sqrt(dd) <= static_cast<long double>(kConstantTolerance) * std::sqrt(l)) ? 0.0 : 1.0;
         }
-        if (N > 0 && (diffs == 0 || std::sqrt(diffs) <= 1e-13 * std::sqrt(levels))) invariant.push_back(col);
+        if (N > 0 && (diffs == 0 || std::sqrt(diffs) <= kConstantTolerance * std::sqrt(levels))) invariant.push_back(col);
         in.terms.push_back(ctx.regressor_names[j]);
     }
     for (std::int32_t p : pcols) {
@@ -192,14 +192,20 @@ Design build_fd(const Context& ctx) {
     return d;
 }
 
-// Unit means over `rows` (unit order) of a column given by an accessor.
+// Unit means over `rows` (unit order) of a column given by an accessor; weighted by
+// ctx.weights when the fit is weighted (sum w v / sum w; weight 1 each otherwise).
 template <typename Get>
-std::vector<double> run_means(const UnitRuns& runs, Get get) {
+std::vector<double> run_means(const Context& ctx, const std::vector<std::size_t>& rows, const UnitRuns& runs,
+                              Get get) {
     std::vector<double> means(runs.begin.size());
     for (std::size_t r = 0; r < runs.begin.size(); ++r) {
-        long double sum = 0;
-        for (std::size_t k = runs.begin[r]; k < runs.end[r]; ++k) sum += get(k);
-        means[r] = static_cast<double>(sum / static_cast<long double>(runs.end[r] - runs.begin[r]));
+        long double sum = 0, total = 0;
+        for (std::size_t k = runs.begin[r]; k < runs.end[r]; ++k) {
+            const long double w = ctx.weights != nullptr ? ctx.weights->value(rows[k]) : 1.0L;
+            sum += w * get(k);
+            total += w;
+        }
+        means[r] = static_cast<double>(sum / total);
     }
     return means;
 }
@@ -222,9 +228,9 @@ Design build_within(const Context& ctx, const std::vector<std::size_t>& rows, co
     std::vector<Index> invariant;
     Index col = 0;
     for (std::size_t j = 0; j < ctx.k_reg; ++j, ++col) {
-        const Column& x = ctx.data.regressors[j];
-        const std::vector<double> means = run_means(runs, [&](std::size_t k) { return value(x, rows[k]); });
-        double levels = 0, within = 0;  // only for the 1e-13 threshold: double suffices
+        const Column& x = *ctx.regressors[j];
+        const std::vector<double> means = run_means(ctx, rows, runs, [&](std::size_t k) { return value(x, rows[k]); });
+        double levels = 0, within = 0;  // only for the kConstantTolerance threshold: double suffices
         for (std::size_t r = 0; r < runs.begin.size(); ++r)
             for (std::size_t k = runs.begin[r]; k < runs.end[r]; ++k) {
                 const double v = value(x, rows[k]);
@@ -243,16 +249,22 @@ Design build_within(const Context& ctx, const std::vector<std::size_t>& rows, co
                 w += dm * dm;
             }
             levels = 1.0;
-            within = (w == 0 || std::sqrt(w) <= 1e-13L * std::sqrt(l)) ? 0.0 : 1.0;
+            within = (w == 0 || std::sqrt(w) <= static_cast<long double>(kConstantTolerance) * std::sqrt(l)) ? 0.0 : 1.0;
         }
-        if (within == 0 || std::sqrt(within) <= 1e-13 * std::sqrt(levels)) invariant.push_back(col);
+        if (within == 0 || std::sqrt(within) <= kConstantTolerance * std::sqrt(levels)) invariant.push_back(col);
         in.terms.push_back(ctx.regressor_names[j]);
     }
     for (std::int32_t p : pcols) {
+        const std::vector<double> shares =  // weighted: the weighted share
+            ctx.weights != nullptr
+                ? run_means(ctx, rows, runs, [&](std::size_t k) { return in.period[k] == p ? 1.0 : 0.0; })
+                : std::vector<double>{};
         for (std::size_t r = 0; r < runs.begin.size(); ++r) {
             std::size_t count = 0;
             for (std::size_t k = runs.begin[r]; k < runs.end[r]; ++k) count += in.period[k] == p ? 1u : 0u;
-            const double share = static_cast<double>(count) / static_cast<double>(runs.end[r] - runs.begin[r]);
+            const double share = ctx.weights != nullptr
+                                     ? shares[r]
+                                     : static_cast<double>(count) / static_cast<double>(runs.end[r] - runs.begin[r]);
             for (std::size_t k = runs.begin[r]; k < runs.end[r]; ++k)
                 in.X(static_cast<Index>(k), col) = (in.period[k] == p ? 1.0 : 0.0) - share;
         }
@@ -260,7 +272,7 @@ Design build_within(const Context& ctx, const std::vector<std::size_t>& rows, co
         ++col;
     }
     const std::vector<double> ymeans =
-        run_means(runs, [&](std::size_t k) { return value(ctx.data.outcome, rows[k]); });
+        run_means(ctx, rows, runs, [&](std::size_t k) { return value(ctx.data.outcome, rows[k]); });
     for (std::size_t r = 0; r < runs.begin.size(); ++r)
         for (std::size_t k = runs.begin[r]; k < runs.end[r]; ++k)
             in.y[static_cast<Index>(k)] = value(ctx.data.outcome, rows[k]) - ymeans[r];
@@ -289,13 +301,13 @@ MeansDesign unit_mean_design(const Context& ctx, const std::vector<std::size_t>&
     fill_design(
         ctx, n, intercept, pcols, m.X, m.y, m.terms, m.intercept_column,
         [&](std::size_t j, auto& out) {
-            const Column& x = ctx.data.regressors[j];
-            put(run_means(runs, [&](std::size_t k) { return value(x, rows[k]); }), out);
+            const Column& x = *ctx.regressors[j];
+            put(run_means(ctx, rows, runs, [&](std::size_t k) { return value(x, rows[k]); }), out);
         },
         [&](std::int32_t p, auto& out) {
-            put(run_means(runs, [&](std::size_t k) { return row_periods[k] == p ? 1.0 : 0.0; }), out);
+            put(run_means(ctx, rows, runs, [&](std::size_t k) { return row_periods[k] == p ? 1.0 : 0.0; }), out);
         },
-        [&](auto& out) { put(run_means(runs, [&](std::size_t k) { return value(ctx.data.outcome, rows[k]); }), out); });
+        [&](auto& out) { put(run_means(ctx, rows, runs, [&](std::size_t k) { return value(ctx.data.outcome, rows[k]); }), out); });
     return m;
 }
 

@@ -78,7 +78,7 @@ void term_inference(Fit& fit, const OutcomeSums& ysums) {
     // must not be shown as tiny SEs with huge t, so they are set to 0, and t and p are
     // undefined (NaN here; hosts show them as not available), with a warning.
     {
-        if (static_cast<long double>(eq.ssr) <= 1e-28L * ysums.raw) {
+        if (static_cast<long double>(eq.ssr) <= kExactFitTolerance * ysums.raw) {
             fit.exact_fit = true;
             fit.covariance.matrix.setZero();
             for (Index k = 0; k < static_cast<Index>(K); ++k) {
@@ -167,7 +167,7 @@ void level_statistics(const Context& ctx, const std::vector<std::size_t>& rows, 
             for (std::size_t j = 0; j < ctx.k_reg && !found; ++j) {
                 if (ctx.regressor_names[j] != term) continue;
                 found = true;
-                for (std::size_t r = 0; r < rows.size(); ++r) xb[r] += bk * data.regressors[j].value(rows[r]);
+                for (std::size_t r = 0; r < rows.size(); ++r) xb[r] += bk * ctx.regressors[j]->value(rows[r]);
             }
             if (!found) {
                 for (std::size_t r = 0; r < rows.size(); ++r)
@@ -175,16 +175,20 @@ void level_statistics(const Context& ctx, const std::vector<std::size_t>& rows, 
             }
         }
         for (std::size_t r = 0; r < rows.size(); ++r) yl[r] = data.outcome.value(rows[r]);
-        fit.r2_overall = finite_or_empty(squared_correlation(yl, xb));
+        const bool weighted = ctx.weights != nullptr;
+        if (!weighted) fit.r2_overall = finite_or_empty(squared_correlation(yl, xb));
         std::vector<long double> ym(runs.begin.size()), xm(runs.begin.size());
         std::vector<long double> yd(rows.size()), xd(rows.size());
         for (std::size_t r = 0; r < runs.begin.size(); ++r) {
-            long double sy = 0, sx = 0;
+            // unit means (weighted: sum w v / sum w, so unit_effects are the weighted
+            // dummy-variable regression's unit coefficients)
+            long double sy = 0, sx = 0, cnt = 0;
             for (std::size_t k = runs.begin[r]; k < runs.end[r]; ++k) {
-                sy += yl[k];
-                sx += xb[k];
+                const long double w = weighted ? ctx.weights->value(rows[k]) : 1.0L;
+                sy += w * yl[k];
+                sx += w * xb[k];
+                cnt += w;
             }
-            const long double cnt = static_cast<long double>(runs.end[r] - runs.begin[r]);
             ym[r] = sy / cnt;
             xm[r] = sx / cnt;
             for (std::size_t k = runs.begin[r]; k < runs.end[r]; ++k) {
@@ -192,7 +196,7 @@ void level_statistics(const Context& ctx, const std::vector<std::size_t>& rows, 
                 xd[k] = xb[k] - xm[r];
             }
         }
-        fit.r2_between = finite_or_empty(squared_correlation(ym, xm));
+        if (!weighted) fit.r2_between = finite_or_empty(squared_correlation(ym, xm));
         if (spec.estimator == Estimator::random) fit.r2_within = finite_or_empty(squared_correlation(yd, xd));
         if (spec.estimator == Estimator::within) {
             fit.unit_effects.assign(index.n_units(), 0.0);

@@ -25,6 +25,8 @@ void check_inputs(const PanelData& data, const ModelSpec& spec, bool lean) {
         const Column& x = data.regressors[j];
         check(x, x.name.empty() ? "regressor " + std::to_string(j + 1) : "regressor \"" + x.name + "\"");
     }
+    if (data.weights.size() != 0) check(data.weights, data.weights.name.empty() ? std::string("weights")
+                                                                                : "weights \"" + data.weights.name + "\"");
     check_length(n_rows, "outcome", data.units.size(), "units");
     check_length(n_rows, "outcome", data.periods.size(), "periods");
     if (!(spec.level > 0 && spec.level < 1))
@@ -56,7 +58,7 @@ namespace {
 
 }  // namespace
 
-RowChoice choose_rows(const PanelData& data, const PanelIndex& index, Fit& fit) {
+RowChoice choose_rows(const PanelData& data, const PanelIndex& index, const WeightSource& weights, Fit& fit) {
     const std::size_t n_rows = data.outcome.size();
     RowChoice choice;
     std::vector<std::uint8_t>& used = choice.used;
@@ -77,13 +79,26 @@ RowChoice choose_rows(const PanelData& data, const PanelIndex& index, Fit& fit) 
     };
     drop_missing(data.outcome);
     for (const Column& x : data.regressors) drop_missing(x);
+    std::size_t zero_weight = 0;
+    if (weights.column != nullptr) {
+        all_used = false;
+        zero_weight = weigh_rows(*weights.column, weights.label, data.first_row_number, used);
+    }
     std::size_t rows_used = all_used ? n_rows : 0;
     if (!all_used)
         for (std::size_t i = 0; i < n_rows; ++i) rows_used += used[i];
     choice.rows_used = rows_used;
     fit.rows_input = n_rows;
     fit.rows_used = rows_used;
-    fit.rows_dropped = n_rows - rows_used;
+    fit.rows_zero_weight = zero_weight;
+    fit.rows_dropped = n_rows - rows_used - zero_weight;
+    if (zero_weight > 0)
+        fit.warnings.push_back(weights.label + ": " + std::to_string(zero_weight) +
+                               (zero_weight == 1 ? " row has" : " rows have") + " weight 0 and " +
+                               (zero_weight == 1 ? "is" : "are") + " left out of the estimated equation");
+    if (rows_used == 0 && zero_weight > 0)
+        throw Error("no usable rows: every row with its values present has weight 0 (" + weights.label +
+                    "); give at least some rows a positive weight");
     if (rows_used == 0) throw_no_rows(data, n_rows);
 
     if (rows_used == n_rows) {
@@ -105,11 +120,8 @@ RowChoice choose_rows(const PanelData& data, const PanelIndex& index, Fit& fit) 
 }
 
 Context make_context(const PanelData& data, const ModelSpec& spec, const PanelIndex& index,
-                     const std::vector<std::uint8_t>& used) {
-    Context ctx{data, spec, index, used, {}, data.regressors.size()};
-    for (std::size_t j = 0; j < data.regressors.size(); ++j)
-        ctx.regressor_names.push_back(data.regressors[j].name.empty() ? "x" + std::to_string(j + 1)
-                                                                      : data.regressors[j].name);
+                     const std::vector<std::uint8_t>& used, const WeightSource& weights) {
+    Context ctx{data, spec, index, used, weights.names, weights.regressors.size(), weights.regressors, weights.column};
     return ctx;
 }
 

@@ -1,6 +1,8 @@
 // The stages of a fit (ARCHITECTURE.md "The fit as stages"), internal to weft_core.
 //
 //   choose rows          fit_rows.cpp       choose_rows, equation_row_order, fd_pairs
+//   weights              fit_weights.cpp    weight_source, weigh_rows (rows), weigh_equation
+//                                           (rows of the formed equation times sqrt(w))
 //   form the equation    fit_equations.cpp  form_equation: one builder per estimator
 //   accumulate + solve   solver.cpp         full route: solve_equation (Gram or TSQR)
 //                        lean.cpp           streaming route: lean_equation (blocks)
@@ -35,10 +37,30 @@ struct RowChoice {
     std::size_t rows_used = 0;
 };
 
+// ---- weights (fit_weights.cpp)
+// Where a fit's weights come from (PanelData::weights, or the regressor that
+// ModelSpec::weights names, then taken out of the regressors) and the regressors of the
+// equation. Throws for an unknown name, weights given twice, or an estimator or
+// covariance that has no weighted definition (random, cr2), in words.
+struct WeightSource {
+    const Column* column = nullptr;               // null: unweighted
+    std::string label;                            // "weights \"pop\"", for messages
+    std::vector<const Column*> regressors;        // the equation's regressors, in input order
+    std::vector<std::string> names;               // their names (header, or x<k>)
+};
+WeightSource weight_source(const PanelData& data, const ModelSpec& spec);
+
+// Rows of `used` that the weights leave out: a blank weight clears the row (it counts
+// with the missing rows), a zero clears it and is counted (the return value); a negative
+// or non-finite weight throws, naming the row. A function of its own so that a host
+// that splits the rows (a partitioned fit) can call it per part.
+std::size_t weigh_rows(const Column& weights, const std::string& label, std::size_t first_row_number,
+                       std::vector<std::uint8_t>& used);
+
 // Checks the columns (lean: shapes only; the streaming route checks values as it reads)
 // and the level.
 void check_inputs(const PanelData& data, const ModelSpec& spec, bool lean);
-RowChoice choose_rows(const PanelData& data, const PanelIndex& index, Fit& fit);
+RowChoice choose_rows(const PanelData& data, const PanelIndex& index, const WeightSource& weights, Fit& fit);
 
 // What the stages after row choice read.
 struct Context {
@@ -48,9 +70,11 @@ struct Context {
     const std::vector<std::uint8_t>& used;        // per input row
     std::vector<std::string> regressor_names;     // header, or x<k>
     std::size_t k_reg = 0;
+    std::vector<const Column*> regressors;        // k_reg columns (the weight column is not one)
+    const Column* weights = nullptr;              // null: unweighted
 };
 Context make_context(const PanelData& data, const ModelSpec& spec, const PanelIndex& index,
-                     const std::vector<std::uint8_t>& used);
+                     const std::vector<std::uint8_t>& used, const WeightSource& weights);
 
 // The used rows in unit-period order (the equation rows of pooled, within, random; the
 // rows averaged by between).
@@ -76,11 +100,26 @@ struct Design {
     EquationInput input;
     std::vector<DroppedTerm> dropped;
     std::size_t pairs_lost = 0;        // fd: differences not formed because of a gap
+    Eigen::VectorXd weights;           // weighted: the equation-row weights (weigh_equation)
 };
 
 // The estimated equation of ctx.spec.estimator over `rows` (used rows in unit order,
 // with their runs). random also sets fit.random_effects and may add warnings.
 Design form_equation(const Context& ctx, const std::vector<std::size_t>& rows, const UnitRuns& runs, Fit& fit);
+
+// ---- weights on the formed equation (fit_weights.cpp)
+// The weight of each equation row (pooled, within: the row's; fd: the later row's;
+// between: the mean over the unit's rows).
+Eigen::VectorXd equation_weights(const Context& ctx, const std::vector<std::size_t>& rows, const UnitRuns& runs,
+                                 const EquationInput& in);
+// Weighted fit: sets design.weights and scales the rows of X and y by sqrt(w) (every
+// covariance family then follows); unweighted: nothing.
+void weigh_equation(const Context& ctx, const std::vector<std::size_t>& rows, const UnitRuns& runs,
+                    Design& design);
+// Sums of a weighted equation's outcome: raw sum w y^2, centred sum w (y - ybar_w)^2.
+OutcomeSums weighted_outcome_sums(const Equation& eq);
+// Aligned residuals and fitted values of a weighted fit back to the outcome's units.
+void unweigh_series(const std::vector<std::size_t>& rows, const UnitRuns& runs, Fit& fit);
 
 // ---- the streaming route's rows (lean.cpp reads them)
 // The equation rows of a lean fit, as LeanInput wants them; the LeanInput itself points
@@ -99,6 +138,8 @@ LeanRows lean_rows(const Context& ctx);
 void term_inference(Fit& fit, const OutcomeSums& ysums);
 // tss, R-squared, adjusted R-squared, the classical F on all slopes.
 void fit_statistics(Fit& fit, const OutcomeSums& ysums);
+// The model's joint test of all regressors under its own covariance (spec_joint.cpp).
+void joint_statistics(Fit& fit);
 // within, random: R-squared variants from the slopes at levels; within: unit effects.
 void level_statistics(const Context& ctx, const std::vector<std::size_t>& rows, const UnitRuns& runs, Fit& fit);
 // Residuals and fitted values aligned to the input rows (between: every used row of a

@@ -81,6 +81,10 @@ namespace weft::detail {
 // Throws unless the equation holds its rows (a lean equation does not).
 void require_rows(const Equation& eq, const char* what);
 
+// Throws "<what>: not defined for a weighted fit in weft; <instead>" when eq is weighted
+// (fit_weights.cpp).
+void refuse_weighted(const Equation& eq, const char* what, const char* instead);
+
 // The sandwich B meat B' (meat in the working basis) with the factor, df and label of
 // `kind` (hc0-hc3, cluster, cluster0, cluster-period, dk; classical ignores the meat);
 // clusters = G (or T for dk).

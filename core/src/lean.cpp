@@ -486,9 +486,9 @@ std::optional<WorkingSystem> lean_system(const LeanShape& sh, const FirstPass& f
     if (!sys.usable) return std::nullopt;
     for (Index j = 0; j < k_reg; ++j) {
         // fd: a column whose differences vanish (no variation within units)
-        if (sh.fd && !(std::sqrt(raw[j]) > kLeanDropMargin * 1e-13 * std::sqrt(fp.levels[j]))) return std::nullopt;
+        if (sh.fd && !(std::sqrt(raw[j]) > kLeanDropMargin * kConstantTolerance * std::sqrt(fp.levels[j]))) return std::nullopt;
         // a column that centring reduces to noise (a multiple of the intercept)
-        if (!(sys.scale[j] > kLeanDropMargin * 1e-13 * std::sqrt(raw[j]))) return std::nullopt;
+        if (!(sys.scale[j] > kLeanDropMargin * kConstantTolerance * std::sqrt(raw[j]))) return std::nullopt;
     }
     if (!gram_factor(sys.G, R, kLeanConditionLimit)) return std::nullopt;
     return sys;

@@ -45,6 +45,9 @@ void Comoments::merge(const Comoments& o) {
 
 std::string partition_refusal(const ModelSpec& spec) {
     const char* one_machine = "fit it on one machine (weft.fit, weft_model_new)";
+    if (!spec.weights.empty())
+        return "weights=" + spec.weights + ": observation weights are not fitted over partitions yet; fit without "
+               "weights there, or " + one_machine;
     if (spec.estimator == Estimator::between || spec.estimator == Estimator::random)
         return std::string(to_word(spec.estimator)) +
                " is not fitted over partitions (its equation needs every unit mean at once); use pooled, fd or "
@@ -181,11 +184,14 @@ void demean_by_unit(PartitionEquation& pe) {
 PartitionEquation partition_equation(const PanelData& data, const ModelSpec& spec, const std::vector<double>& grid) {
     const std::string refusal = partition_refusal(spec);
     if (!refusal.empty()) throw Error(refusal);
+    if (data.weights.size() > 0)
+        throw Error("observation weights are not fitted over partitions yet; leave the weights column out, or fit "
+                    "it on one machine (weft.fit, weft_model_new)");
     check_inputs(data, spec, false);
     PartitionEquation pe;
     pe.index = global_index(data, grid);
     choose_partition_rows(data, pe);
-    const Context ctx = make_context(data, spec, pe.index, pe.used);
+    const Context ctx = make_context(data, spec, pe.index, pe.used, weight_source(data, spec));
     pe.regressor_names = ctx.regressor_names;
     name_candidates(spec, pe);
     pe.rows = used_rows_in_order(ctx);

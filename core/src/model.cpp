@@ -1,6 +1,7 @@
 // fit_model and fit_model_lean: the stages of a fit in order (fit_stages.hpp lists
 // where each stage lives; CONVENTIONS.md "Estimators" is the specification):
-//   choose rows -> form the estimator's equation -> accumulate and solve (full route:
+//   choose rows (and weights) -> form the estimator's equation (weighted: its rows times
+//   sqrt(w)) -> accumulate and solve (full route:
 //   solve_equation; streaming route: lean_equation) -> scores and covariance ->
 //   inference and fit statistics.
 #include <cmath>
@@ -59,6 +60,7 @@ detail::OutcomeSums solve_full(Design design, Fit& fit) {
     check_design_size(design, spec.estimator);
     fit.equation = solve_equation(std::move(design.input));
     Equation& eq = fit.equation;
+    eq.weights = std::move(design.weights);
     fit.dropped = design.dropped;
     fit.dropped.insert(fit.dropped.end(), eq.dropped.begin(), eq.dropped.end());
     eq.dropped = fit.dropped;
@@ -69,7 +71,7 @@ detail::OutcomeSums solve_full(Design design, Fit& fit) {
                     "; it needs more rows than terms");
     record_size(fit);
     fit.covariance = compute_covariance(eq, spec.covariance, spec.dk_lag);
-    return detail::outcome_sums(eq.y);
+    return eq.weights.size() != 0 ? detail::weighted_outcome_sums(eq) : detail::outcome_sums(eq.y);
 }
 
 // The same stages, streaming route (lean.cpp): the equation rows, then accumulation,
@@ -116,16 +118,17 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     detail::check_inputs(data, spec, lean);
     Fit fit;
     fit.spec = spec;
+    const detail::WeightSource weights = detail::weight_source(data, spec);
     fit.index = build_index(data.units, data.periods, data.first_row_number);
-    const detail::RowChoice choice = detail::choose_rows(data, fit.index, fit);
-    const detail::Context ctx = detail::make_context(data, spec, fit.index, choice.used);
+    const detail::RowChoice choice = detail::choose_rows(data, fit.index, weights, fit);
+    const detail::Context ctx = detail::make_context(data, spec, fit.index, choice.used, weights);
 
     // ---- form the equation, accumulate and solve, scores and covariance
     std::vector<std::size_t> rows;   // full route: the used rows in unit order, by unit
     detail::UnitRuns runs;
     detail::OutcomeSums ysums;
     if (lean) {
-        if (!detail::lean_applies(spec)) return std::nullopt;
+        if (!detail::lean_applies(spec) || ctx.weights != nullptr) return std::nullopt;
         std::size_t pairs_lost = 0;
         std::optional<detail::OutcomeSums> sums = solve_streaming(ctx, fit, pairs_lost);
         if (!sums) return std::nullopt;
@@ -135,6 +138,7 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
         rows = detail::used_rows_in_order(ctx);
         runs = detail::unit_runs(fit.index, rows);
         Design design = detail::form_equation(ctx, rows, runs, fit);
+        detail::weigh_equation(ctx, rows, runs, design);   // weighted: rows times sqrt(w)
         warn_fd_gaps(fit, design.pairs_lost);
         ysums = solve_full(std::move(design), fit);
     }
@@ -143,17 +147,24 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     // fitted equation and fit.covariance only)
     detail::term_inference(fit, ysums);
     detail::fit_statistics(fit, ysums);
+    detail::joint_statistics(fit);
     if (spec.estimator == Estimator::within || spec.estimator == Estimator::random)
         detail::level_statistics(ctx, rows, runs, fit);
     // aligned residuals and fitted values (a lean fit has them already)
-    if (!lean) detail::aligned_series(rows, runs, data.outcome.size(), fit);
+    if (!lean) {
+        detail::aligned_series(rows, runs, data.outcome.size(), fit);
+        detail::unweigh_series(rows, runs, fit);
+    }
     return fit;
 }
 
 Fit fit_model(const PanelData& data, const ModelSpec& spec) { return *fit_model_impl(data, spec, false); }
 
 Fit fit_model_lean(const PanelData& data, const ModelSpec& spec) {
-    if (detail::lean_applies(spec)) {
+    // weighted fits take the full route (the streaming route has no weights yet): go
+    // there directly rather than index the panel twice
+    const bool weighted = !spec.weights.empty() || data.weights.size() != 0;
+    if (detail::lean_applies(spec) && !weighted) {
         try {
             if (std::optional<Fit> fit = fit_model_impl(data, spec, true)) return std::move(*fit);
         } catch (const Error&) {

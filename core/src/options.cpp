@@ -16,7 +16,7 @@ namespace {
 
 const char* const kAcceptedWords =
     "pooled, fd, within, random, between; classical, hc0, hc1, hc2, hc3, cluster, "
-    "cluster0, cluster-period, cluster-both, dk, dk=L, cr2; periods; level=0.95; no-intercept";
+    "cluster0, cluster-period, cluster-both, dk, dk=L, cr2; periods; level=0.95; no-intercept; weights=NAME";
 
 std::string lower(std::string_view s) {
     std::string out(s);
@@ -103,7 +103,7 @@ ModelSpec parse_model_text(std::string_view text) {
     }
     if (!current.empty()) words.push_back(current);
 
-    std::string estimator_word, covariance_word, level_word, dk_word;
+    std::string estimator_word, covariance_word, level_word, dk_word, weights_word;
     for (const std::string& original : words) {
         const std::string w = lower(original);
         Estimator e = Estimator::pooled;
@@ -132,6 +132,14 @@ ModelSpec parse_model_text(std::string_view text) {
             spec.period_effects = true;
         } else if (w == "no-intercept") {
             spec.intercept = false;
+        } else if (w.rfind("weights=", 0) == 0) {
+            const std::string name = original.substr(8);  // the column's name keeps its case
+            if (name.empty())
+                throw Error("model: \"" + original +
+                            "\" needs the header of the regressor column that holds the weights, e.g. weights=population");
+            if (!weights_word.empty() && weights_word != original) conflict(weights_word, original);
+            weights_word = original;
+            spec.weights = name;
         } else if (w.rfind("level=", 0) == 0) {
             const std::string number = w.substr(6);
             char* end = nullptr;
@@ -170,6 +178,7 @@ std::string describe(const ModelSpec& spec) {
     }
     out += " level=";
     out += buffer;
+    if (!spec.weights.empty()) out += " weights=" + spec.weights;
     return out;
 }
 

@@ -199,7 +199,7 @@ WorkingBasis centre_and_scale(const EquationInput& in, std::vector<DroppedTerm>&
         // A column that centring leaves at rounding-noise size (relative to its raw
         // size) is a multiple of the intercept column: scaling noise up to unit length
         // would hide that from the rank decision.
-        if (ss == 0 || std::sqrt(ss) <= 1e-13 * std::sqrt(raw)) {
+        if (ss == 0 || std::sqrt(ss) <= kConstantTolerance * std::sqrt(raw)) {
             const std::string name = term_name(in.terms, j);
             dropped.push_back({name, DropReason::collinear,
                                raw == 0 ? name + " is zero in every row; dropped"

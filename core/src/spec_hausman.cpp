@@ -11,6 +11,8 @@
 #include "weft/distributions.hpp"
 #include "weft/error.hpp"
 #include "internal.hpp"
+#include "scaled.hpp"
+#include "weft/tolerances.hpp"
 #include "weft/panel.hpp"
 #include "weft/spec.hpp"
 
@@ -44,6 +46,8 @@ CovarianceResult classical_of(const Fit& fit) {
 }  // namespace
 
 HausmanResult hausman_test(const Fit& within, const Fit& random) {
+    detail::refuse_weighted(within.equation, "Hausman test",
+                            "random effects take no weights; use within with weights and cluster standard errors");
     if (within.spec.estimator != Estimator::within || random.spec.estimator != Estimator::random)
         throw Error(std::string("Hausman test: needs a within fit and a random fit of the same "
                                 "rows, got ") + to_word(within.spec.estimator) + " and " +
@@ -88,30 +92,30 @@ HausmanResult hausman_test(const Fit& within, const Fit& random) {
                        vr.matrix(pos_r[static_cast<std::size_t>(a)], pos_r[static_cast<std::size_t>(b)]);
     }
     vd = 0.5 * (vd + vd.transpose());
+    Eigen::VectorXd within_variance(q);  // the scale of the comparison (positive)
+    for (Eigen::Index a = 0; a < q; ++a)
+        within_variance(a) = vw.matrix(pos_w[static_cast<std::size_t>(a)], pos_w[static_cast<std::size_t>(a)]);
 
     HausmanResult r;
     r.terms = terms;
     r.difference = d;
-    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig(vd);
-    const Eigen::VectorXd lambda = eig.eigenvalues();  // ascending
-    const double largest = lambda.cwiseAbs().maxCoeff();
-    const double tiny = 1e-10 * largest;
-    const Eigen::VectorXd projected = eig.eigenvectors().transpose() * d;
-    double h = 0;
-    std::size_t rank = 0, positive = 0;
-    for (Eigen::Index j = 0; j < q; ++j) {
-        if (std::abs(lambda(j)) > tiny) {
-            ++rank;
-            // Over the non-null eigenvalues: the inverse when V_W - V_R has full rank, a
-            // generalised inverse otherwise. A negative eigenvalue is kept with its sign:
-            // the statistic is the raw quadratic form.
-            h += projected(j) * projected(j) / lambda(j);
-        }
-        if (lambda(j) > tiny) ++positive;
-    }
-    for (Eigen::Index j = q - 1; j >= 0; --j) r.eigenvalues.push_back(lambda(j));
+    // Rank and sign decisions in the scaled basis of V_W - V_R (tolerances.hpp), so the
+    // df does not depend on units; D from the within variances, as V_W - V_R's own
+    // diagonal can cancel to rounding in a direction where the two fits agree. The statistic: over the non-null eigenvalues, the
+    // inverse when V_W - V_R has full rank, a generalised inverse otherwise; a negative
+    // eigenvalue is kept with its sign (the raw quadratic form).
+    const detail::ScaledEigen eig = detail::scaled_eigen(vd, within_variance);
+    const double tiny = kHausmanRankTolerance * eig.largest;
+    const auto rank = static_cast<std::size_t>(eig.rank(kHausmanRankTolerance));
+    std::size_t positive = 0;
+    for (Eigen::Index j = 0; j < q; ++j)
+        if (eig.lambda(j) > tiny) ++positive;
+    const double h = eig.quadratic_form(d, kHausmanRankTolerance);
+    // reported: the eigenvalues of V_W - V_R itself (its units), descending
+    const Eigen::VectorXd raw = Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd>(vd, Eigen::EigenvaluesOnly).eigenvalues();
+    for (Eigen::Index j = q - 1; j >= 0; --j) r.eigenvalues.push_back(raw(j));
     r.rank = rank;
-    r.positive_definite = positive == static_cast<std::size_t>(q);
+    r.positive_definite = eig.largest > 0 && positive == static_cast<std::size_t>(q);
     if (rank == 0)
         throw Error("Hausman test: the within and random fits give the compared slopes the "
                     "same covariance, so their difference has no variance to test against");
@@ -210,12 +214,19 @@ Fit fit_side(const PanelData& data, ModelSpec spec, Estimator estimator, const c
 }  // namespace
 
 HausmanResult hausman_test(const PanelData& data, const ModelSpec& spec) {
+    if (!spec.weights.empty() || data.weights.size() != 0)
+        throw Error("Hausman test: it compares within with random effects, and random effects take no "
+                    "weights in weft; remove weights= from the model, or use within with weights and "
+                    "cluster standard errors");
     const Fit within = fit_side(data, spec, Estimator::within, "Hausman test");
     const Fit random = fit_side(data, spec, Estimator::random, "Hausman test");
     return hausman_test(within, random);
 }
 
 EffectsResult effects_test(const Fit& within, const Fit& pooled) {
+    detail::refuse_weighted(within.equation, "unit-effects test",
+                            "remove weights= from the model for this test, or judge the unit effects from the "
+                            "weighted within fit's cluster standard errors");
     if (within.spec.estimator != Estimator::within || pooled.spec.estimator != Estimator::pooled ||
         pooled.equation.intercept_column < 0)
         throw Error(std::string("unit-effects test: needs a within fit and a pooled fit with "

@@ -48,6 +48,9 @@ const char* to_word(HeteroForm form) {
 
 HeteroResult hetero_test(const Equation& equation, HeteroForm form) {
     detail::require_rows(equation, "the heteroskedasticity test");
+    detail::refuse_weighted(equation, "heteroskedasticity test",
+                            "its auxiliary regression has no agreed weighted form; the weighted fit's hc1 or "
+                            "cluster standard errors already allow for heteroskedasticity");
     const auto n = static_cast<Eigen::Index>(equation.nobs());
     const auto k = static_cast<Eigen::Index>(equation.n_terms());
 

@@ -16,6 +16,9 @@ namespace weft {
 
 SerialResult serial_test(const Equation& equation) {
     detail::require_rows(equation, "the serial-correlation test");
+    detail::refuse_weighted(equation, "serial test",
+                            "its auxiliary regression has no agreed weighted form; the weighted fit's cluster or "
+                            "dk standard errors already allow for serial correlation");
     if (equation.estimator == Estimator::between)
         throw Error("serial test: between has one row per unit, so there is no residual of "
                     "an earlier period to compare with; use pooled, fd or within");

@@ -10,6 +10,8 @@
 #include "weft/error.hpp"
 #include "weft/spec.hpp"
 #include "internal.hpp"
+#include "scaled.hpp"
+#include "weft/tolerances.hpp"
 
 namespace weft {
 
@@ -42,19 +44,16 @@ WaldResult wald_test(const Eigen::VectorXd& coef, const Eigen::MatrixXd& covaria
     const Eigen::VectorXd discrepancy = restriction * coef - value;
     Eigen::MatrixXd middle = restriction * covariance * restriction.transpose();
     middle = 0.5 * (middle + middle.transpose());
-    // An eigen-decomposition of the small q x q matrix both decides whether it can be
-    // inverted and gives the quadratic form accurately.
-    Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> eig(middle);
-    const Eigen::VectorXd lambda = eig.eigenvalues();
-    const double largest = lambda.cwiseAbs().maxCoeff();
-    if (!(largest > 0) || lambda.minCoeff() <= 1e-12 * largest)
+    // An eigen-decomposition of the small q x q matrix in its scaled basis both decides
+    // whether it can be inverted (independently of units: tolerances.hpp) and gives the
+    // quadratic form accurately.
+    const detail::ScaledEigen eig = detail::scaled_eigen(middle);
+    if (!eig.positive_definite(kSingularTolerance))
         throw Error("joint test: the covariance of the tested combination is singular "
                     "(no estimated variance in some tested direction, e.g. after clipping a "
                     "two-way cluster covariance, or a term tested twice); test fewer terms "
                     "or use another standard-error choice");
-    const Eigen::VectorXd projected = eig.eigenvectors().transpose() * discrepancy;
-    double w = 0;
-    for (Eigen::Index j = 0; j < q; ++j) w += projected(j) * projected(j) / lambda(j);
+    const double w = eig.quadratic_form(discrepancy, kSingularTolerance);
 
     WaldResult r;
     const double qd = static_cast<double>(q);

@@ -63,7 +63,8 @@ bool g_copy_columns = false;
 
 // The whole path a host takes on a recalculation: columns in, model fitted,
 // coefficient table out.
-WeftFit run_weft(const SyntheticPanel& data, const std::string& model_text, bool copy = g_copy_columns) {
+WeftFit run_weft(const SyntheticPanel& data, const std::string& model_text, bool copy = g_copy_columns,
+                 const std::vector<double>* weights = nullptr) {
   WeftFit fit;
   const auto start = Clock::now();
   weft_panel* panel = nullptr;
@@ -85,6 +86,9 @@ WeftFit run_weft(const SyntheticPanel& data, const std::string& model_text, bool
                                                                           missing),
           "weft_panel_add_regressor");
   }
+  if (weights != nullptr)
+    check((copy ? weft_panel_set_weights : weft_panel_borrow_weights)(panel, "w", weights->data(), nullptr),
+          "weft_panel_set_weights");
   const auto fit_start = Clock::now();
   const double fit_cpu_start = cpu_seconds();
   fit.panel_seconds = std::chrono::duration<double>(fit_start - start).count();
@@ -133,6 +137,8 @@ struct Options {
   std::string read_csv_path;
   std::string model_text = "fd cluster";
   bool bootstrap = false;
+  bool weighted = false;  // --weighted: each case also with observation weights, row "<se> w"
+
   std::string bootstrap_settings = "draws=9999";
 };
 
@@ -164,7 +170,7 @@ void usage() {
   std::puts(
       "usage: weft_bench [--sizes 100k,1M] [--estimators pooled,fd,within]\n"
       "                  [--se classical,hc1,cluster,dk] [--layouts balanced,unbalanced]\n"
-      "                  [--reps N] [--no-memory] [--copy] [--json FILE]\n"
+      "                  [--reps N] [--no-memory] [--copy] [--weighted] [--json FILE]\n"
       "       weft_bench --smoke          checks only (seconds; used by ctest, label bench)\n"
       "       weft_bench --write-csv FILE [--sizes S] [--layouts L]   write one dataset\n"
       "       weft_bench --read-csv FILE [--model \"fd cluster\"] [--reps N] [--json FILE]\n"
@@ -175,6 +181,8 @@ void usage() {
       "       partner of 100k), 1Mg50k and 1Mg50 (1,000,000 rows, K=5, in 50,000 or\n"
       "       50 unit clusters: the cr2 cases, --se cluster,cr2), or UNITSxPERIODSxK.\n"
       "       Default: 100k,1Mk5,1M\n"
+      "--weighted: run every case also with observation weights (weft_panel_borrow_weights,\n"
+      "  or set with --copy), reported in the row below it with se \"<se> w\"\n"
       "--copy: copy the columns into the panel (weft_panel_set_*) instead of borrowing\n"
       "       them in place (weft_panel_borrow_*, the default)");
 }
@@ -202,6 +210,7 @@ Options parse_options(int argc, char** argv) {
     } else if (arg == "--reps") o.reps = std::stoi(value());
     else if (arg == "--no-memory") o.memory = false;
     else if (arg == "--copy") g_copy_columns = true;
+    else if (arg == "--weighted") o.weighted = true;
     else if (arg == "--json") o.json_path = value();
     else if (arg == "--smoke") o.smoke = true;
     else if (arg == "--write-csv") o.write_csv_path = value();
@@ -391,28 +400,36 @@ int run_timings(const Options& o) {
     for (Layout layout : o.layouts) {
       const SyntheticPanel data = make_panel({size.units, size.periods, size.regressors, layout, 20261202});
       const int reps = o.reps > 0 ? o.reps : (data.rows > 500000 ? 5 : 7);
+      // --weighted: positive weights between 0.5 and 1.5, fixed by the row number
+      std::vector<double> weights;
+      if (o.weighted)
+        for (std::size_t i = 0; i < data.rows; ++i)
+          weights.push_back(0.5 + static_cast<double>((i * 2654435761u) % 1000u) / 1000.0);
       double sink = 0;
       const Timing floor = time_median(reps, [&] { sink += floor_pass(data); });
       std::printf("%-6s %-10s %8zu floor  %-9s %8.4f %8.4f %8.4f %7.1f %7.1f   (checksum %.3g)\n", size.name.c_str(),
                   layout_name(layout).c_str(), data.rows, "", floor.wall, floor.cpu,
                   floor.cpu / (static_cast<double>(data.rows) / 1e6), 1.0, 1.0, sink);
       for (const auto& estimator : o.estimators) {
-        for (const auto& se : o.ses) {
-          Row row{size.name, layout_name(layout), estimator, se, data.rows, size.units, size.periods,
-                  size.regressors, static_cast<double>(data.input_bytes()), floor.wall, floor.cpu};
+        for (const auto& se : o.ses)
+        for (bool weighted : {false, true}) {
+          if (weighted && !o.weighted) continue;
+          const std::vector<double>* w_ptr = weighted ? &weights : nullptr;
+          Row row{size.name, layout_name(layout), estimator, weighted ? se + " w" : se, data.rows, size.units,
+                  size.periods, size.regressors, static_cast<double>(data.input_bytes()), floor.wall, floor.cpu};
           const std::string model = estimator + " " + se;
           if (o.memory) {
-            const MemoryProbe probe = probe_peak_memory([&] { run_weft(data, model); });
+            const MemoryProbe probe = probe_peak_memory([&] { run_weft(data, model, g_copy_columns, w_ptr); });
             if (probe.ok()) {
               row.peak_bytes = probe.peak;
               row.extra_bytes = probe.peak - probe.resident_before;
             }
           }
           std::vector<double> total, cpu, panel, fit, fit_cpu;
-          run_weft(data, model);  // warm-up, not counted
+          run_weft(data, model, g_copy_columns, w_ptr);  // warm-up, not counted
           for (int r = 0; r < reps; ++r) {
             WeftFit w;
-            const Timing t = time_once([&] { w = run_weft(data, model); });
+            const Timing t = time_once([&] { w = run_weft(data, model, g_copy_columns, w_ptr); });
             total.push_back(t.wall);
             cpu.push_back(t.cpu);
             panel.push_back(w.panel_seconds);

@@ -585,10 +585,15 @@ static void test_pooled(const grunfeld *g)
     NEAR(value_of(m, "sigma", NULL), 94.408403332255, "P results.sigma");
     NEAR(value_of(m, "df", NULL), 197, "P results.inference.classical.df");
     NEAR(value_of(m, "df-residual", NULL), 197, "P results.df_residual");
-    NEAR(value_of(m, "f", NULL), 426.575731304813, "P results.f_all_terms.F");
-    NEAR(value_of(m, "f-df1", NULL), 2, "P results.f_all_terms.df1");
-    NEAR(value_of(m, "f-df2", NULL), 197, "P results.f_all_terms.df2");
-    NEAR(value_of(m, "f-p", NULL), 2.57992470719433e-72, "P results.f_all_terms.p");
+    /* the joint test of all regressors under the model's (classical) covariance */
+    NEAR(value_of(m, "f", NULL), 426.575731304814, "P results.wald_subset.classical.F");
+    NEAR(value_of(m, "f-df1", NULL), 2, "P results.wald_subset.classical.F_df_resid.df1");
+    NEAR(value_of(m, "f-df2", NULL), 197, "P results.wald_subset.classical.F_df_resid.df2");
+    NEAR(value_of(m, "f-p", NULL), 2.57992470719404e-72, "P results.wald_subset.classical.F_df_resid.p");
+    NEAR(value_of(m, "classical-f", NULL), 426.575731304813, "P results.f_all_terms.F");
+    NEAR(value_of(m, "classical-f-df1", NULL), 2, "P results.f_all_terms.df1");
+    NEAR(value_of(m, "classical-f-df2", NULL), 197, "P results.f_all_terms.df2");
+    NEAR(value_of(m, "classical-f-p", NULL), 2.57992470719433e-72, "P results.f_all_terms.p");
     NEAR(value_of(m, "n", NULL), 200, "P sample.nobs");
     NEAR(value_of(m, "units", NULL), 10, "P sample.n_units");
     NEAR(value_of(m, "periods", NULL), 20, "P sample.n_periods");
@@ -617,8 +622,10 @@ static void test_pooled(const grunfeld *g)
     NEAR(item.number, 0.812408012544728, "P results.r_squared");
     CHECK(summary_find(m, "residual std deviation", &item) > 0);
     NEAR(item.number, 94.408403332255, "P results.sigma");
-    CHECK(summary_find(m, "F on all slopes", &item) > 0);
+    CHECK(summary_find(m, "classical F of all terms", &item) > 0);
     NEAR(item.number, 426.575731304813, "P results.f_all_terms.F");
+    CHECK(summary_find(m, "joint test of all regressors, F", &item) > 0);
+    NEAR(item.number, 426.575731304814, "P results.wald_subset.classical.F");
     CHECK(summary_find(m, "squared correlation of outcome and slope prediction, unit means", &item) ==
           -1); /* pooled: left out */
     CHECK(summary_find(m, "clusters", &item) == -1);
@@ -805,6 +812,16 @@ static void test_pooled_robust(const grunfeld *g)
 
     m = fit_text(p, "pooled hc1");
     check_table(m, terms, coef, hc1, 3, "P results.se.HC1");
+    weft_model_free(m);
+    /* The joint test of all regressors under the model's covariance and df:
+       P results.wald_subset.CR1 (R sandwich + lmtest), F on (2, G-1 = 9). */
+    m = fit_text(p, "pooled cluster");
+    NEAR(value_of(m, "f", NULL), 51.5906047816128, "P results.wald_subset.CR1.F");
+    NEAR(value_of(m, "f-df2", NULL), 9, "P results.wald_subset.CR1.F_df_G_minus_1.df2");
+    NEAR(value_of(m, "f-p", NULL), 1.17341263386786e-05, "P results.wald_subset.CR1.F_df_G_minus_1.p");
+    CHECK(summary_find(m, "joint test of all regressors, df2", &item) > 0);
+    CHECK(item.kind == WEFT_ITEM_NUMBER && item.number == 9.0);
+    NEAR(value_of(m, "classical-f", NULL), 426.575731304813, "P results.f_all_terms.F (classical)");
     weft_model_free(m);
     m = fit_text(p, "hc3");
     check_table(m, terms, coef, hc3, 3, "P results.se.HC3");
@@ -1337,6 +1354,85 @@ static void test_cr2(const grunfeld *g)
     weft_panel_free(p);
 }
 
+/* ---------------------------------------------------------------- weights */
+
+/* The weight column w of grunfeld_weighted.csv (beside grunfeld.csv: the same rows). */
+static int read_weights(const char *grunfeld_path, double *w)
+{
+    char path[1024], line[256];
+    const char *slash = strrchr(grunfeld_path, '/');
+    size_t dir = slash ? (size_t)(slash - grunfeld_path) + 1 : 0, n = 0;
+    FILE *f;
+    if (dir + 40 > sizeof path) return 0;
+    memcpy(path, grunfeld_path, dir);
+    strcpy(path + dir, "grunfeld_weighted.csv");
+    f = fopen(path, "r");
+    if (f == NULL) return 0;
+    if (fgets(line, sizeof line, f) == NULL) { fclose(f); return 0; }
+    while (n < MAX_ROWS && fgets(line, sizeof line, f) != NULL) {
+        double a, b, c, d, e;
+        if (sscanf(line, "%lf,%lf,%lf,%lf,%lf,%lf", &a, &b, &c, &d, &e, &w[n]) == 6) ++n;
+    }
+    fclose(f);
+    return n == MAX_ROWS;
+}
+
+/* Weights on the panel (copied and borrowed) and by the model word. Expected values:
+ * tests/data/panel/weights_reference.json (R lm(weights = ) with sandwich 3.0.2). */
+static void test_weights(const grunfeld *g, const char *grunfeld_path)
+{
+    static const double pooled_se[] = {13.2422506195759, 0.00874714940581639, 0.055007317084256};
+    static const double within_se[] = {0.0173401463384039, 0.056109605975211};
+    static double w[MAX_ROWS], bad[MAX_ROWS];
+    double table[3 * WEFT_COEF_COLUMNS];
+    size_t needed = 0, i;
+    weft_summary_item item;
+    weft_panel *p, *q, *r;
+    weft_model *m;
+    CHECK(read_weights(grunfeld_path, w));
+    p = make_panel(g, 0, NULL, NULL);
+    OK(weft_panel_set_weights(p, "w", w, NULL));
+    EXPECT_ERROR(weft_panel_set_weights(p, "w", w, NULL), WEFT_EINVAL, "already set");
+    EXPECT_ERROR(weft_panel_borrow_weights(p, "w", NULL, NULL), WEFT_EINVAL, "values");
+    m = fit_text(p, "pooled hc1");
+    OK(weft_model_coefficients(m, table, 3 * WEFT_COEF_COLUMNS, &needed));
+    for (i = 0; i < 3; ++i)
+        NEAR_TOL(table[i * WEFT_COEF_COLUMNS + WEFT_COEF_SE], pooled_se[i], 1e-9, "weights_reference pooled.hc1.se");
+    NEAR_TOL(value_of(m, "estimate", "value"), 0.116314750309544, 1e-9, "weights_reference pooled.estimate[value]");
+    CHECK(summary_find(m, "rows with weight 0", &item) > 0 && item.number == 2.0);
+    CHECK(value_of(m, "n", NULL) == 198.0);
+    weft_model_free(m);
+    /* both ways at once is refused; random refuses weights */
+    EXPECT_ERROR(weft_model_new_text(&m, p, "pooled weights=capital"), WEFT_EDATA, "not both");
+    EXPECT_ERROR(weft_model_new_text(&m, p, "random"), WEFT_EDATA, "within with weights");
+    weft_panel_free(p);
+    /* borrowed, within cluster */
+    q = make_panel(g, 0, NULL, NULL);
+    OK(weft_panel_borrow_weights(q, NULL, w, NULL));
+    m = fit_text(q, "within cluster");
+    OK(weft_model_coefficients(m, table, 2 * WEFT_COEF_COLUMNS, &needed));
+    for (i = 0; i < 2; ++i)
+        NEAR_TOL(table[i * WEFT_COEF_COLUMNS + WEFT_COEF_SE], within_se[i], 1e-9, "weights_reference within.cluster.se");
+    weft_model_free(m);
+    weft_panel_free(q);
+    /* the model word: the regressor column w */
+    r = make_panel(g, 0, NULL, NULL);
+    OK(weft_panel_add_regressor(r, "w", w, NULL));
+    m = fit_text(r, "within cluster weights=w");
+    OK(weft_model_coefficients(m, table, 2 * WEFT_COEF_COLUMNS, &needed));
+    for (i = 0; i < 2; ++i)
+        NEAR_TOL(table[i * WEFT_COEF_COLUMNS + WEFT_COEF_SE], within_se[i], 1e-9, "weights_reference within.cluster.se");
+    weft_model_free(m);
+    weft_panel_free(r);
+    /* a negative weight names its row (sheet row 6: data from row 2) */
+    memcpy(bad, w, sizeof bad);
+    bad[4] = -1.0;
+    p = make_panel(g, 0, NULL, NULL);
+    OK(weft_panel_set_weights(p, "pop", bad, NULL));
+    EXPECT_ERROR(weft_model_new_text(&m, p, "pooled"), WEFT_EDATA, "weights \"pop\", row 6");
+    weft_panel_free(p);
+}
+
 /* ---------------------------------------------------------------- event studies */
 
 /* Five units over 2000 and 2001, units 1 and 2 treated in 2001. Expected values by
@@ -1577,6 +1673,7 @@ int main(int argc, char **argv)
     test_borrowed(&g);
     test_bootstrap(&g);
     test_cr2(&g);
+    test_weights(&g, argv[1]);
     test_event();
     test_partials(&g);
     printf("c_consumer: %d checks, %d failed\n", checks, failures);

@@ -31,7 +31,11 @@ def oxt_path():
 def reference(name):
     """One reference JSON of tests/data/panel (copied from shared/reference/panel)."""
     with open(os.path.join(DATA_DIR, name)) as f:
-        return json.load(f)
+        ref = json.load(f)
+    # the clipped two-way values: clipped in the scaled basis (tests/common/twoway_clip.py)
+    sys.path.insert(0, os.path.join(HERE, "..", "common"))
+    from twoway_clip import with_scaled_clip
+    return with_scaled_clip(name[:-len(".json")] if name.endswith(".json") else name, ref, DATA_DIR)
 
 
 def grunfeld():

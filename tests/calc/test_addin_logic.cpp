@@ -9,6 +9,7 @@
 #include "cells.hpp"
 #include "functions.hpp"
 #include "texts.hpp"
+#include "weights.hpp"
 
 #if __has_include(<catch2/catch_test_macros.hpp>)
 #include <catch2/catch_test_macros.hpp>
@@ -529,4 +530,34 @@ TEST_CASE("a range function finds the model a fit cell holds after the model cac
     CHECK(counts.fits == 0);
     CHECK(counts.hits == 1);
     std::remove(log.c_str());
+}
+
+TEST_CASE("weights=NAME is kept apart from the other model words and survives the cache key") {
+    // split_weights_word: the word keeps its column name's case; two names conflict
+    const ModelWords w = split_weights_word("within, weights=Households cluster");
+    CHECK(w.weights == "Households");
+    CHECK(w.rest == "within cluster");
+    CHECK(split_weights_word("pooled").weights.empty());
+    CHECK_THROWS_AS(split_weights_word("weights=a weights=b"), UserError);
+    CHECK(weight_column({"value", "Capital"}, "capital") == 1);
+    CHECK(weight_column({"value", ""}, "x2") == 1);
+    CHECK(weight_column({"value"}, "pop") == std::string::npos);
+    // the weighted and unweighted fits of the same ranges differ (the word is not lost in
+    // the canonical text), and the weight column leaves the regressors: "capital" as the
+    // weights leaves "value" the only slope (an identity: weights all equal to one
+    // number would give the unweighted value-only fit; here they are not equal)
+    const Grunfeld g = grunfeld(true);
+    const OutCell plain = fn_value({g.inv, g.x, g.firm, g.year}, word("pooled"), word("se"), word("value"));
+    const OutCell weighted =
+        fn_value({g.inv, g.x, g.firm, g.year}, word("pooled weights=capital"), word("se"), word("value"));
+    REQUIRE(plain.text.empty());
+    REQUIRE(weighted.text.empty());
+    CHECK(plain.number != weighted.number);
+    std::string message;
+    try {
+        fn_value({g.inv, g.x, g.firm, g.year}, word("pooled weights=capital"), word("se"), word("capital"));
+    } catch (const UserError& e) {
+        message = e.what();
+    }
+    CHECK(message.find("no term \"capital\"") != std::string::npos);
 }

@@ -146,6 +146,14 @@ class Mismatches:
                       + "\n".join(self.items[:40]))
 
 
+def joint_is_subset(ref):
+    """True when the reference's wald_subset tests every regressor (no intercept, no
+    period indicator): then it is the model's joint test of all regressors."""
+    regs = [t for t in ref["regressors_estimated"]
+            if t != "intercept" and not t.startswith("period_")]
+    return sorted(regs) == sorted(ref["wald_subset_coefs"])
+
+
 def labelled(block):
     """A label/value block as a dict label -> value (first occurrence)."""
     out = {}
@@ -241,7 +249,7 @@ def build_workbook():
                 f'=WEFT.JOINT({rng};"{model}";"{terms}")', 7, 2)
         B["summary"][case] = out.add(f'=WEFT.SUMMARY({rng};"{words}")', 40, 2)
         vals = {}
-        for what in ["n", "units", "r2", "sigma", "df", "f", "f-p"]:
+        for what in ["n", "units", "r2", "sigma", "df", "f", "f-p", "classical-f", "classical-f-p"]:
             vals[(what, None)] = out.cell(f'=WEFT.VALUE({rng};"{words}";"{what}")')
         se_word = "classical" if ref["method"] == "between" else "cluster"
         for t in ref["regressors_estimated"][:4]:
@@ -358,10 +366,21 @@ class ReferenceTests(unittest.TestCase):
                                   ("all rows", "r_squared_overall_corr2")]:
                     label = FIT_LABEL + what
                     m.number(f"{case} {label}", got.get(label), res[key], src + "results." + key)
+            if joint_is_subset(ref):
+                # the joint test of all regressors under the model's (here classical)
+                # covariance: results.wald_subset.classical (R sandwich + lmtest), F on
+                # the residual df
+                w = res["wald_subset"]["classical"]
+                jsrc = src + "results.wald_subset.classical"
+                label = "joint test of all regressors, "
+                m.number(f"{case} joint F", got.get(label + "F"), w["F"], jsrc + ".F")
+                m.number(f"{case} joint df1", got.get(label + "df1"), w["F_df_resid"]["df1"], jsrc + ".df1")
+                m.number(f"{case} joint df2", got.get(label + "df2"), w["F_df_resid"]["df2"], jsrc + ".df2")
+                m.number(f"{case} joint p", got.get(label + "p-value"), w["F_df_resid"]["p"], jsrc + ".p")
             if method == "random" and ref["period_dummies"]:
-                # weft's F covers every term but the intercept (period indicators
-                # too, as f_all_terms does for pooled); the reference has no such F
-                # for random effects with period indicators, so none is compared.
+                # weft's classical F covers every term but the intercept (period
+                # indicators too, as f_all_terms does for pooled); the reference has no
+                # such F for random effects with period indicators, so none is compared.
                 continue
             if method == "random":
                 w = res["wald_slopes_classical"]
@@ -371,10 +390,10 @@ class ReferenceTests(unittest.TestCase):
                 w = res["f_all_terms"]
                 fsrc, fF, fdf1, fdf2, fp = (src + "results.f_all_terms", w["F"], w["df1"],
                                             w["df2"], w["p"])
-            m.number(f"{case} F", got.get("F on all slopes"), fF, fsrc + ".F")
-            m.number(f"{case} F df1", got.get("F df1"), fdf1, fsrc + ".df1")
-            m.number(f"{case} F df2", got.get("F df2"), fdf2, fsrc + ".df2")
-            m.number(f"{case} F p", got.get("F p-value"), fp, fsrc + ".p")
+            m.number(f"{case} F", got.get("classical F of all terms"), fF, fsrc + ".F")
+            m.number(f"{case} F df1", got.get("classical F df1"), fdf1, fsrc + ".df1")
+            m.number(f"{case} F df2", got.get("classical F df2"), fdf2, fsrc + ".df2")
+            m.number(f"{case} F p", got.get("classical F p-value"), fp, fsrc + ".p")
         m.report(self, 11 * 9)
 
     def test_value(self):
@@ -392,12 +411,19 @@ class ReferenceTests(unittest.TestCase):
                     "r2": (res[r2], "results." + r2),
                     "sigma": (res["sigma"], "results.sigma"),
                     "df": (res["inference"]["classical"]["df"], "results.inference.classical.df"),
-                    "f": (f["F"], "f_all_terms.F / wald_slopes_classical.F"),
-                    "f-p": (f.get("p", f.get("p_F")), "f_all_terms.p / wald_slopes_classical.p_F")}
+                    "classical-f": (f["F"], "f_all_terms.F / wald_slopes_classical.F"),
+                    "classical-f-p": (f.get("p", f.get("p_F")),
+                                      "f_all_terms.p / wald_slopes_classical.p_F"),
+                    # the joint test of all regressors (classical covariance here)
+                    "f": (res["wald_subset"]["classical"]["F"], "wald_subset.classical.F"),
+                    "f-p": (res["wald_subset"]["classical"]["F_df_resid"]["p"],
+                            "wald_subset.classical.F_df_resid.p")}
             for (what, term), c in cells.items():
                 v = cell_value(c)
-                if what in ("f", "f-p") and method == "random" and ref["period_dummies"]:
+                if what in ("classical-f", "classical-f-p") and method == "random" and ref["period_dummies"]:
                     continue  # no reference F on all terms here (see test_summary_values)
+                if what in ("f", "f-p") and not joint_is_subset(ref):
+                    continue  # the reference tests fewer terms than all regressors
                 if term is None:
                     exp, src = want[what]
                     m.number(f"{case} VALUE {what}", v, exp, f"{case}:{src}")

@@ -41,6 +41,15 @@ cases <- cases[nchar(cases) > 0]
 
 x_names <- names(raw)[-(1:3)]
 if (any(make.names(x_names) != x_names)) stop("regressor names must be syntactic R names")
+# Observation weights (CONVENTIONS.md "Observation weights"): a column named wt holds
+# them and the cases say weights=wt. A blank weight drops the row, a zero leaves it out
+# before anything else; every equation is then fitted by lm(weights = ) (the weight of
+# an fd difference is the later row's, a between unit's the mean of its rows' weights,
+# unit means are weighted within the unit) and the hand-written meats use the weighted
+# scores w u x (sandwich::estfun of a weighted lm). The heteroskedasticity and serial
+# tests, plm and clubSandwich are not run on weighted panels (weft refuses the tests).
+weighted <- "wt" %in% x_names
+x_names <- setdiff(x_names, "wt")
 names(raw)[1:3] <- c("unit", "period", "y")
 raw$unit <- as.character(raw$unit)
 
@@ -48,8 +57,10 @@ raw$unit <- as.character(raw$unit)
 # "Panel index"), not only among the rows used.
 grid <- sort(unique(raw$period[!is.na(raw$unit) & !is.na(raw$period)]))
 raw$gi <- match(raw$period, grid)
-used <- complete.cases(raw[, c("unit", "period", "y", x_names)])
+used <- complete.cases(raw[, c("unit", "period", "y", x_names, if (weighted) "wt")])
+if (weighted) used <- used & !is.na(raw$wt) & raw$wt > 0
 d <- raw[used, ]
+d$w <- if (weighted) d$wt else rep(1, nrow(d))
 d <- d[order(d$unit, d$gi), ]
 rownames(d) <- NULL
 
@@ -57,7 +68,10 @@ period_label <- function(t) paste("period", format(t, scientific = FALSE, trim =
 
 # ---- transformed equations -----------------------------------------------------------
 
-unit_mean <- function(v, unit) ave(v, unit, FUN = mean)
+unit_mean <- function(v, unit) {
+  if (!weighted) return(ave(v, unit, FUN = mean))
+  ave(v * d$w, unit, FUN = sum) / ave(d$w, unit, FUN = sum)  # weighted (rows of d only)
+}
 
 period_indicators <- function(gi, omit) {
   keep <- setdiff(seq_along(grid), omit)
@@ -115,7 +129,7 @@ build_equation <- function(est, periods, intercept = TRUE) {
     X <- X0
     if (periods) X <- cbind(X, period_indicators(d$gi, omit = 1))
     if (intercept) X <- cbind(intercept = 1, X)
-    return(list(y = d$y, X = X, unit = d$unit, gi = d$gi, absorbed = 0,
+    return(list(y = d$y, X = X, unit = d$unit, gi = d$gi, absorbed = 0, w = d$w,
                 z = setdiff(colnames(X), "intercept")))
   }
   if (est == "fd") {
@@ -127,7 +141,7 @@ build_equation <- function(est, periods, intercept = TRUE) {
     if (periods) X <- cbind(X, period_indicators(d$gi[ok], omit = 1:2))
     if (intercept) X <- cbind(intercept = 1, X)
     return(list(y = d$y[ok] - d$y[prev[ok]], X = X, unit = d$unit[ok], gi = d$gi[ok],
-                absorbed = 0, z = setdiff(colnames(X), "intercept")))
+                absorbed = 0, w = d$w[ok], z = setdiff(colnames(X), "intercept")))
   }
   if (est == "within") {
     X <- X0
@@ -135,14 +149,15 @@ build_equation <- function(est, periods, intercept = TRUE) {
     Xw <- apply(X, 2, function(v) v - unit_mean(v, d$unit))
     Xw <- drop_invariant(matrix(Xw, nrow = nrow(d), dimnames = list(NULL, colnames(X))))
     return(list(y = d$y - unit_mean(d$y, d$unit), X = Xw, unit = d$unit, gi = d$gi,
-                absorbed = length(unique(d$unit)), z = colnames(Xw), Xlev = X))
+                absorbed = length(unique(d$unit)), w = d$w, z = colnames(Xw), Xlev = X))
   }
   if (est == "between") {
     units <- unique(d$unit)
-    X <- cbind(intercept = 1, rowsum(X0, d$unit)[units, , drop = FALSE] /
-                 as.vector(table(d$unit)[units]))
-    yb <- as.vector(rowsum(d$y, d$unit)[units, ]) / as.vector(table(d$unit)[units])
+    sw <- as.vector(rowsum(d$w, d$unit)[units, ])  # weights all 1 when unweighted
+    X <- cbind(intercept = 1, rowsum(X0 * d$w, d$unit)[units, , drop = FALSE] / sw)
+    yb <- as.vector(rowsum(d$y * d$w, d$unit)[units, ]) / sw
     return(list(y = yb, X = X, unit = units, gi = rep(NA, length(units)), absorbed = 0,
+                w = sw / as.vector(table(d$unit)[units]),
                 z = setdiff(colnames(X), "intercept")))
   }
   if (est == "random") {
@@ -166,21 +181,38 @@ meat_cluster <- function(X, u, g) {
   crossprod(S)
 }
 
-clip_psd <- function(V) {
-  e <- eigen((V + t(V)) / 2, symmetric = TRUE)
-  lam <- pmax(e$values, 0)
-  W <- e$vectors %*% (lam * t(e$vectors))
+# Cameron, Gelbach & Miller (2011, section 2.3): negative eigenvalues set to 0, taken in
+# the scaled basis S = D V D, D = diag(ref)^-1/2 with ref = V_unit + V_period, and only
+# when S's smallest eigenvalue is below -1e-10 of its largest (weft's CONVENTIONS.md
+# "Decisions that must not depend on units of measure", core/include/weft/tolerances.hpp)
+clip_psd <- function(V, ref) {
+  D <- 1 / sqrt(abs(diag(ref)))
+  S <- D * t(D * V)
+  e <- eigen((S + t(S)) / 2, symmetric = TRUE)
+  rel <- min(e$values) / max(abs(e$values))
+  W <- V
+  if (rel < -1e-10) {
+    C <- e$vectors %*% (pmax(e$values, 0) * t(e$vectors))
+    W <- C / outer(D, D)
+  }
   dimnames(W) <- dimnames(V)
-  list(V = W, min_eig = min(e$values))
+  list(V = W, min_eig = min(eigen((V + t(V)) / 2, symmetric = TRUE, only.values = TRUE)$values),
+       clipped = rel < -1e-10, min_scaled = rel)
 }
 
 covariances <- function(eq, fit) {
   X <- eq$X; u <- residuals(fit); N <- nrow(X); K <- ncol(X)
   A <- chol2inv(qr.R(qr(X)))
+  if (weighted) {
+    # (X'WX)^-1 from lm's QR of sqrt(w) X; the scores w u x are those of rows X * w
+    A <- chol2inv(qr.R(fit$qr))
+    X <- X * eq$w
+  }
+  wv <- if (weighted) eq$w else 1
   dimnames(A) <- list(colnames(X), colnames(X))
   df_res <- N - K - eq$absorbed
   out <- list(); df <- list()
-  out$classical <- sum(u^2) / df_res * A; df$classical <- df_res
+  out$classical <- sum(wv * u^2) / df_res * A; df$classical <- df_res
   hc0 <- sandwich::vcovHC(fit, type = "HC0")
   out$hc0 <- hc0; df$hc0 <- df_res
   # hc1 counts the absorbed unit effects (CONVENTIONS.md; reference key HC1_lsdv)
@@ -207,7 +239,8 @@ covariances <- function(eq, fit) {
     both0 <- A %*% (meat_cluster(X, u, eq$unit) + meat_cluster(X, u, eq$gi) -
                       meat_cluster(X, u, cell)) %*% A
     Gmin <- min(G, Gp)
-    cl <- clip_psd(both0 * Gmin / (Gmin - 1) * (N - 1) / (N - K))
+    cl <- clip_psd(both0 * Gmin / (Gmin - 1) * (N - 1) / (N - K),
+                   A %*% (meat_cluster(X, u, eq$unit) + meat_cluster(X, u, eq$gi)) %*% A)
     out[["cluster-both"]] <- cl$V; df[["cluster-both"]] <- Gmin - 1
     # Driscoll & Kraay (1998): period sums of the scores, Bartlett weights 1 - j/(L+1),
     # lags counted in grid steps, L = floor(T^(1/4)), T = periods in the equation
@@ -227,7 +260,7 @@ covariances <- function(eq, fit) {
       out[[key]] <- A %*% S %*% A; df[[key]] <- Tn - 1
     }
   }
-  list(V = out, df = df)
+  list(V = out, df = df, both_clipped = if (exists("cl", inherits = FALSE)) cl$clipped else NULL)
 }
 
 # ---- tests ----------------------------------------------------------------------------
@@ -237,8 +270,12 @@ wald <- function(b, V, terms, df2) {
   rb <- R %*% b
   # a clipped two-way covariance can leave no variance in a tested direction: weft must
   # then refuse the test (the driver checks that it does)
-  ev <- eigen(R %*% V %*% t(R), symmetric = TRUE, only.values = TRUE)$values
-  if (min(ev) <= 1e-12 * max(abs(ev))) return(list(singular = TRUE))
+  # judged in the scaled basis D (R V R') D, D = diag(R V R')^-1/2, relative 1e-12, as
+  # weft's CONVENTIONS.md "Decisions that must not depend on units of measure" asks
+  M <- R %*% V %*% t(R)
+  dg <- abs(diag(M)); D <- ifelse(dg > 0, 1 / sqrt(dg), 1)
+  ev <- eigen(D * t(D * M), symmetric = TRUE, only.values = TRUE)$values
+  if (max(abs(ev)) <= 0 || min(ev) <= 1e-12 * max(abs(ev))) return(list(singular = TRUE))
   W <- as.numeric(t(rb) %*% solve(R %*% V %*% t(R), rb))
   q <- length(terms)
   list(chi2 = W, q = q, p_chi2 = pchisq(W, q, lower.tail = FALSE),
@@ -358,7 +395,7 @@ run_case <- function(text) {
   words <- strsplit(text, "[ ,]+")[[1]]
   est <- words[1]; periods <- "periods" %in% words
   eq <- build_equation(est, periods, intercept = !("no-intercept" %in% words))
-  fit <- lm(eq$y ~ eq$X - 1)
+  fit <- if (weighted) lm(eq$y ~ eq$X - 1, weights = eq$w) else lm(eq$y ~ eq$X - 1)
   names(fit$coefficients) <- colnames(eq$X)
   b <- coef(fit)
   cv <- covariances(eq, fit)
@@ -368,6 +405,9 @@ run_case <- function(text) {
     res$se[[fam]] <- as.list(sqrt(diag(V)))
     res$wald[[fam]] <- wald(b, V, intersect(x_names, names(b)), cv$df[[fam]])
   }
+  # the model's joint test of all regressors (issue 15) is this same Wald test
+  res$joint <- res$wald
+  if (!is.null(cv$both_clipped)) res$cluster_both_clipped <- as.numeric(cv$both_clipped)
   # a general restriction R b = r under the classical covariance: x1 - x2 = 0.25
   if (length(x_names) >= 2) {
     R <- matrix(0, 1, length(b)); R[match(x_names[1], names(b))] <- 1
@@ -379,6 +419,7 @@ run_case <- function(text) {
                             p = pf(W, 1, cv$df$classical, lower.tail = FALSE),
                             p_chi2 = pchisq(W, 1, lower.tail = FALSE))
   }
+  if (weighted) return(res)  # weft refuses the tests below under weights
   res$hetero <- hetero(eq, fit)
   if (est != "between") res$serial <- serial(eq, fit, est)
   if (est == "random") res$hausman <- hausman(periods)
@@ -391,7 +432,7 @@ run_case <- function(text) {
 plm_case <- function(text) {
   words <- strsplit(text, "[ ,]+")[[1]]
   est <- words[1]; periods <- "periods" %in% words
-  if ("no-intercept" %in% words) return(NULL)  # not compared with plm
+  if ("no-intercept" %in% words || weighted) return(NULL)  # not compared with plm
   pd <- d
   dummies <- character(0)
   if (periods) {

@@ -41,6 +41,10 @@ import sys
 
 CASES = ["pooled", "pooled periods", "fd", "fd periods", "within", "within periods",
          "random", "random periods", "between", "pooled no-intercept", "fd no-intercept"]
+# Panels with a weight column wt (observation weights; random effects refuse weights)
+WEIGHTED_CASES = ["pooled weights=wt", "pooled periods weights=wt", "fd weights=wt",
+                  "fd periods weights=wt", "within weights=wt", "within periods weights=wt",
+                  "between weights=wt", "pooled no-intercept weights=wt"]
 
 
 # ---- panel generation ----------------------------------------------------------------
@@ -113,10 +117,19 @@ def add_invariant_regressor(rng, rows):
     return rows
 
 
-def write_panel(path, rows):
+def add_weights(rng, rows):
+    """wt: random observation weights in [0.2, 3], about 5% of them 0 and 2% blank."""
+    for r in rows:
+        u = rng.random()
+        r.append(0.0 if u < 0.05 else None if u < 0.07 else rng.uniform(0.2, 3.0))
+    return rows
+
+
+def write_panel(path, rows, weighted=False):
     with open(path, "w", newline="") as f:
         w = csv.writer(f)
-        w.writerow(["unit", "period", "y", "x1", "x2", "x3", "x4"][:len(rows[0])])
+        names = ["unit", "period", "y", "x1", "x2", "x3", "x4"][:len(rows[0]) - (1 if weighted else 0)]
+        w.writerow(names + (["wt"] if weighted else []))
         for r in rows:
             w.writerow(["" if v is None else (repr(v) if isinstance(v, float) else v)
                         for v in r])
@@ -133,6 +146,17 @@ def panels(seed):
         "balanced": make_panel(rng, 25, list(range(1990, 1997)), "balanced", 0),
         "invariant": add_invariant_regressor(
             rng, make_panel(rng, 35, list(range(1, 9)), "gaps", 4)),
+    }
+
+
+def weighted_panels(seed):
+    """Random weights on unbalanced, gapped, shuffled panels (and a balanced one)."""
+    rng = random.Random(seed + 1)
+    grid_gap = [2001, 2002, 2003, 2005, 2006, 2007, 2008, 2010, 2011]
+    return {
+        "weighted_gaps_a": add_weights(rng, make_panel(rng, 40, grid_gap, "gaps", 5)),
+        "weighted_gaps_b": add_weights(rng, make_panel(rng, 55, list(range(1, 8)), "gaps", 8)),
+        "weighted_balanced": add_weights(rng, make_panel(rng, 25, list(range(1990, 1997)), "balanced", 0)),
     }
 
 
@@ -169,7 +193,7 @@ def rel_diff(a, b):
 def group_of(path):
     """Row label of the summary table: case family and quantity."""
     head = path[1]
-    if head in ("se", "wald", "df"):
+    if head in ("se", "wald", "joint", "df"):
         if path[2].startswith("dk="):
             return "%s dk=L" % head
         return "%s %s" % (head, path[2])
@@ -191,15 +215,21 @@ def main():
     cases_path = os.path.join(args.workdir, "cases.txt")
     with open(cases_path, "w") as f:
         f.write("\n".join(CASES) + "\n")
+    weighted_cases_path = os.path.join(args.workdir, "cases_weighted.txt")
+    with open(weighted_cases_path, "w") as f:
+        f.write("\n".join(WEIGHTED_CASES) + "\n")
+    all_panels = [(name, rows, False) for name, rows in panels(args.seed).items()]
+    all_panels += [(name, rows, True) for name, rows in weighted_panels(args.seed).items()]
 
     failures = []
     undetected = []  # numbers where a change of 100 x tolerance would go unnoticed
     table = {}      # (route, group) -> [max rel diff, count, where]
     compared = 0
     software = None
-    for name, rows in panels(args.seed).items():
+    for name, rows, weighted in all_panels:
         csv_path = os.path.join(args.workdir, name + ".csv")
-        write_panel(csv_path, rows)
+        write_panel(csv_path, rows, weighted)
+        cases_path = weighted_cases_path if weighted else os.path.join(args.workdir, "cases.txt")
         weft_path = os.path.join(args.workdir, name + ".weft.json")
         r_path = os.path.join(args.workdir, name + ".r.json")
         try:
@@ -224,8 +254,12 @@ def main():
             return 2
         # cr2 against clubSandwich (cr2_oracle.R), compared as a third route
         cr2_path = os.path.join(args.workdir, name + ".cr2.json")
-        p = subprocess.run([args.rscript, os.path.join(here, "cr2_oracle.R"),
-                            csv_path, cases_path, cr2_path], capture_output=True, text=True)
+        if weighted:  # cr2 refuses weights: no clubSandwich route
+            with open(cr2_path, "w") as f:
+                json.dump({"clubSandwich": {}}, f)
+        p = subprocess.run(["true"]) if weighted else subprocess.run(
+            [args.rscript, os.path.join(here, "cr2_oracle.R"), csv_path, cases_path, cr2_path],
+            capture_output=True, text=True)
         if p.returncode != 0:
             print("FAIL: R cr2 oracle on %s (needs r-cran-clubsandwich):\n%s%s"
                   % (name, p.stdout, p.stderr))

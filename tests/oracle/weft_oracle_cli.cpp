@@ -225,6 +225,24 @@ void run_case(Json& j, const weft::PanelData& data, const std::vector<std::strin
         }
     }
     j.close();
+    // the model's joint test of all regressors (fit.joint, issue 15): the same test as
+    // "wald" above, reached through the fit itself; R's reference is its wald entry
+    j.key("joint").open();
+    for (auto& [family, fit] : fits) {
+        if (!fit.joint) continue;
+        if (!fit.joint->available) {
+            errors["joint/" + family] = "singular (not available): " + fit.joint->reason;
+            continue;
+        }
+        j.key(family).open();
+        j.field("chi2", fit.joint->chi2).field("q", fit.joint->df1).field("p_chi2", fit.joint->chi2_p);
+        j.field("F", fit.joint->f).field("df1", fit.joint->df1).field("df2", fit.joint->df2).field("p", fit.joint->p);
+        j.close();
+    }
+    j.close();
+    // whether the two-way covariance was clipped (a unit-free decision, issue 15)
+    if (const auto both = fits.find("cluster-both"); both != fits.end())
+        j.field("cluster_both_clipped", both->second.covariance.clipped ? 1.0 : 0.0);
     if (have_classical) {
         if (x_names.size() >= 2) {
             try {

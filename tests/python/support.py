@@ -27,7 +27,11 @@ def reference(case):
     """tests/data/panel/<case>.json: R 4.2.2 plm 2.6.2 / sandwich 3.0.2 / lmtest 0.9.40,
     each value recomputed in mpmath at 40 digits (tests/data/panel/README.md)."""
     with open(os.path.join(DATA, case + ".json"), encoding="utf-8") as f:
-        return json.load(f)
+        ref = json.load(f)
+    # the clipped two-way values: clipped in the scaled basis (tests/common/twoway_clip.py)
+    sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "common"))
+    from twoway_clip import with_scaled_clip
+    return with_scaled_clip(case, ref, DATA)
 
 
 def weft_term(key):

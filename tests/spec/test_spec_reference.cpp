@@ -79,18 +79,25 @@ TEST_CASE("Wald tests of the reference terms under every covariance family", "[s
             std::string key = f.key;
             if (std::string(c.model).rfind("within", 0) == 0 && key == "HC1")
                 key = "HC1_lsdv";  // weft's within hc1 counts the unit effects (CONVENTIONS.md)
-            // weft clips the two-way covariance when it is not PSD; the reference has the
-            // clipped form under its own key when clipping happened
-            double tol = kTol, p_tol = kTol;
+            // weft clips the two-way covariance in the scaled basis when it is not PSD
+            // (CONVENTIONS.md); where the reference set has a clipped form (R sandwich,
+            // clipped in V's own units), the clipped test comes from
+            // grunfeld_twoway_clip.json (R, tests/oracle/oracle_reference.R with the
+            // scaled clip; written by tests/oracle/grunfeld_twoway.py)
+            const double tol = kTol, p_tol = kTol;
             if (key == "CR1_both" && ws.contains("CR1_both_clipped")) {
-                key = "CR1_both_clipped";
-                // Clipping drops eigenvalues that are zero up to rounding; which side of
-                // zero they land on moves the result by about 1e-9 (R's and weft's
-                // eigen-solvers differ there), so this one key is checked to 1e-7, and
-                // its tail probabilities (about 1e-15, relative error amplified W/2 times)
-                // to 1e-6.
-                tol = 1e-7;
-                p_tol = 1e-6;
+                INFO(c.file << " cluster-both (clipped)");
+                const json clip = load_reference("grunfeld_twoway_clip").at("cases").at(c.file);
+                const weft::Fit fit = weft::fit_model(data, weft::parse_model_text(std::string(c.model) + " " + f.word));
+                CHECK(fit.covariance.clipped == clip.at("clipped").get<bool>());
+                const weft::WaldResult w = weft::wald_test_terms(fit, terms);
+                const json& r = clip.at("wald_regressors");
+                SPEC_CHECK_REL(w.chi2, r.at("chi2").get<double>(), tol, "chi2");
+                SPEC_CHECK_REL(w.chi2_p, r.at("p_chi2").get<double>(), p_tol, "p chi2");
+                SPEC_CHECK_REL(w.f, r.at("F").get<double>(), tol, "F");
+                CHECK(w.f_df2 == r.at("df2").get<double>());
+                SPEC_CHECK_REL(w.f_p, r.at("p").get<double>(), p_tol, "F p");
+                continue;
             }
             if (!ws.contains(key)) continue;
             INFO(c.file << " " << f.word);

@@ -41,16 +41,18 @@ class _Handle:
         self._finalizer = weakref.finalize(self, free, pointer)
 
 
-def _panel(lib, frame, outcome, regressors, unit, period, first_row=0):
-    """A new weft panel with the frame's columns (outcome, regressors and periods borrowed
-    in place, units copied) and the arrays it borrows. first_row: the number weft's
-    messages give the frame's first row (a partition's position in the whole frame)."""
+def _panel(lib, frame, outcome, regressors, unit, period, weights=None, first_row=0):
+    """A new weft panel with the frame's columns (outcome, regressors, periods and weights
+    borrowed in place, units copied) and the arrays it borrows. first_row: the number
+    weft's messages give the frame's first row (a partition's position in the whole
+    frame)."""
     regressors = [regressors] if isinstance(regressors, str) else list(regressors)
     columns = {"outcome": _columns.take(frame, outcome, "outcome"),
                "unit": _columns.take(frame, unit, "unit"),
                "period": _columns.take(frame, period, "period")}
     regressor_columns = [(_text(str(name), "regressor name"), _columns.take(frame, name, "regressor"))
                          for name in regressors]
+    weight_column = None if weights is None else _columns.take(frame, weights, "weights")
     if len(frame) == 0:
         raise WeftError("weft: the frame has no rows; give at least one row per unit and period")
     pointer = ctypes.c_void_p()
@@ -75,6 +77,11 @@ def _panel(lib, frame, outcome, regressors, unit, period, first_row=0):
         values, missing = _columns.numbers(column, "regressor")
         handle.keep += [values, missing]
         _check(lib, lib.weft_panel_borrow_regressor(pointer, name, _address(values), _address(missing)))
+    if weight_column is not None:
+        values, missing = _columns.numbers(weight_column, "weights")
+        handle.keep += [values, missing]
+        _check(lib, lib.weft_panel_borrow_weights(pointer, _text(str(weights), "weights name"),
+                                                  _address(values), _address(missing)))
     return handle
 
 
@@ -208,15 +215,17 @@ class Result:
         return f"<weft result: {self.model}>\n{self.coefficients.to_string()}"
 
 
-def fit(frame, outcome, regressors, unit, period, model="pooled"):
+def fit(frame, outcome, regressors, unit, period, model="pooled", weights=None):
     """Fit one panel model to the columns of a pandas DataFrame, as the weft cells do.
     outcome, unit, period: column names; regressors: a list of column names (or one);
     model: the model text of the cells (e.g. "fd periods cluster", "within dk=2
-    level=0.9"). Returns a Result. Raises WeftError with weft's message."""
+    level=0.9"); weights: the name of a column of observation weights (weighted least
+    squares; NaN drops the row, 0 leaves it out, a negative weight is an error), or
+    None. Returns a Result. Raises WeftError with weft's message."""
     if not isinstance(frame, pd.DataFrame):
         raise WeftError(f"weft: fit needs a pandas DataFrame, not {type(frame).__name__}")
     lib, _ = load()
-    panel = _panel(lib, frame, outcome, regressors, unit, period)
+    panel = _panel(lib, frame, outcome, regressors, unit, period, weights)
     pointer = ctypes.c_void_p()
     _check(lib, lib.weft_model_new_text(ctypes.byref(pointer), panel.pointer,
                                         _text(model if model is not None else "", "model text")))

@@ -54,6 +54,7 @@ _PROTOTYPES = {
     "weft_panel_borrow_periods": (_int, [_p, _p, _p]),
     "weft_panel_borrow_outcome": (_int, [_p, _str, _p, _p]),
     "weft_panel_borrow_regressor": (_int, [_p, _str, _p, _p]),
+    "weft_panel_borrow_weights": (_int, [_p, _str, _p, _p]),
     "weft_model_new_text": (_int, [ctypes.POINTER(_p), _p, _str]),
     "weft_model_free": (None, [_p]),
     "weft_model_term_count": (_int, [_p, _psize]),

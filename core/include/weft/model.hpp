@@ -30,8 +30,16 @@
 //   the same equation without refitting; solve_equation() runs an auxiliary OLS through
 //   the same solver (with units/periods so that cluster covariances work on it too).
 //
+// - Weights (ModelSpec::weights or PanelData::weights; CONVENTIONS.md "Observation
+//   weights"): the estimated equation is weighted least squares held as OLS on the rows
+//   sqrt(w_i) [x_i, y_i]: Equation::X, y, residual and fitted are those scaled rows and
+//   Equation::weights holds w_i, so compute_covariance on it is the weighted covariance.
+//   Fit::residuals and Fit::fitted are in the outcome's units (y - x'b, x'b).
+//
 // Stability: fields may be added; existing names and meanings do not change. Changes
 // are announced here:
+//   2026-12-05: observation weights: ModelSpec::weights, PanelData::weights,
+//   Equation::weights, Fit::rows_zero_weight.
 //   2026-12-04: Covariance::cr2 and CovarianceResult::term_df (per-term df: t, p and
 //   intervals of term k use term_df[k] when it is not empty).
 //   2026-12-02: fit_model_lean and Equation::lean_rows / rows_held() added (lean fits for
@@ -52,18 +60,12 @@
 
 #include "weft/options.hpp"
 #include "weft/panel.hpp"
+#include "weft/tolerances.hpp"
 #include "weft/transforms.hpp"
 
 namespace weft {
 
-// Rank tolerance: after centring and scaling every working column to unit length, a
-// column whose distance from the span of the kept columns before it (|R_kk| when the
-// small R of the tall-skinny QR is re-triangularised in term order) is at most
-// kRankTolerance times its length is treated as collinear and dropped. 1e-10 keeps
-// NIST Filip (all 11 terms) while exact collinearity in double (distances of order
-// 1e-15) is caught. A column that centring reduces to below 1e-13 of its raw length is
-// a multiple of the intercept column and dropped as well.
-inline constexpr double kRankTolerance = 1e-10;
+// kRankTolerance and the other decision tolerances: weft/tolerances.hpp.
 
 enum class DropReason { collinear, no_within_variation };
 
@@ -104,6 +106,8 @@ struct Equation {
     std::size_t n_units = 0;            // distinct units among the equation rows
     std::size_t n_periods = 0;          // distinct periods among the equation rows
     std::size_t absorbed = 0;           // effects absorbed by the transform, counted in df (within: n_units)
+    Eigen::VectorXd weights;            // N equation-row weights of a weighted fit (X, y, residual,
+                                        // fitted are then scaled by sqrt(w)); empty: unweighted
 
     // A lean equation (fit_model_lean) holds no per-row arrays: X has 0 rows (but its K
     // columns), y, residual, fitted, input_row, unit and period are empty, and
@@ -152,7 +156,10 @@ struct CovarianceResult {
     std::size_t clusters = 0;           // G (unit), G_period, G_min (both), T (dk)
     int dk_lag = -1;                    // lag used (dk only)
     bool clipped = false;               // cluster_both: negative eigenvalues set to 0
+                                        // (decided by kClipTolerance)
     double min_eigenvalue = 0;          // cluster_both: smallest eigenvalue before clipping
+    double min_scaled_eigenvalue = 0;   // cluster_both: the same in the scaled basis, relative
+                                        // to the largest (tolerances.hpp); it decides clipping
     std::vector<std::string> warnings;
     std::string label;                  // readable, e.g. "cluster by unit (CR1)"
     std::vector<double> term_df;        // cr2: Satterthwaite df per term (term order; df is
@@ -171,6 +178,19 @@ struct RandomEffectsInfo {
     bool balanced = true;
 };
 
+// The model's joint test of all regressors (CONVENTIONS.md "The model's joint test of all
+// regressors"): the Wald test that every regressor's coefficient is 0 (not the intercept,
+// not period indicators) under the fit's own covariance, F on (q, the covariance's df);
+// under cr2 the HTZ F. Computed by spec_joint.cpp.
+struct JointTest {
+    std::vector<std::string> terms;     // the regressors tested
+    bool available = false;
+    std::string reason;                 // why not, when not available (a sentence)
+    double f = 0, df1 = 0, df2 = 0, p = 1;      // F form (cr2: HTZ)
+    double chi2 = 0, chi2_p = 1;                // W on q df
+    std::string df_rule;                // e.g. "G-1"
+};
+
 struct Fit {
     ModelSpec spec;
     Equation equation;
@@ -183,7 +203,8 @@ struct Fit {
     // summary facts
     std::size_t rows_input = 0;         // input rows
     std::size_t rows_used = 0;          // input rows used (levels rows)
-    std::size_t rows_dropped = 0;       // rows dropped for a missing value (listwise)
+    std::size_t rows_dropped = 0;       // rows dropped for a missing value (listwise; a blank weight too)
+    std::size_t rows_zero_weight = 0;   // rows left out because their weight is 0 (not in rows_used)
     std::size_t nobs = 0;               // equation rows N (fd: differences; between: units)
     std::size_t n_units = 0;
     std::size_t n_periods = 0;
@@ -195,12 +216,15 @@ struct Fit {
     std::optional<double> r2;           // 1 - ssr/tss (within: = r2_within)
     std::optional<double> adj_r2;
     std::optional<double> r2_within;    // within, random (random: corr^2 of demeaned y and demeaned X b)
-    std::optional<double> r2_between;   // within, random: corr^2(ybar_i, xbar_i' b) over units
-    std::optional<double> r2_overall;   // within, random: corr^2(y_it, x_it' b) over rows
-    std::optional<double> f, f_df1, f_df2, f_p;  // classical F on all slopes (all terms but the intercept)
+    std::optional<double> r2_between;   // within, random: corr^2(ybar_i, xbar_i' b) over units (empty when weighted)
+    std::optional<double> r2_overall;   // within, random: corr^2(y_it, x_it' b) over rows (empty when weighted)
+    std::optional<double> f, f_df1, f_df2, f_p;  // classical F of all terms but the intercept
+                                                 // (period indicators included)
+    std::optional<JointTest> joint;     // the model's joint test (empty: no regressor term)
     std::string f_rule;
     std::optional<RandomEffectsInfo> random_effects;
-    std::vector<double> unit_effects;   // within: ybar_i - xbar_i' b per unit number (empty otherwise)
+    std::vector<double> unit_effects;   // within: ybar_i - xbar_i' b per unit number, weighted unit means
+                                        // when weighted (empty otherwise)
     bool exact_fit = false;             // every residual 0 to rounding (SSR <= 1e-28 y'y): se = 0,
                                         // t and p NaN (not defined), F empty, and a warning
     std::vector<std::string> warnings;

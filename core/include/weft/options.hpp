@@ -11,6 +11,9 @@
 //     periods        (add period indicators)
 //     level=0.90     (0 < level < 1)
 //     no-intercept
+//     weights=NAME   (observation weights: the regressor column named NAME, matched to
+//                     its header exactly, else ignoring case, else x<k>; NAME keeps its
+//                     case and holds no spaces, commas or semicolons)
 //   Repeating the same word is harmless; two different words of one group (e.g.
 //   "fd within", "hc1 cluster") are a conflict. Unknown or conflicting words raise
 //   weft::Error naming the word and listing the accepted words.
@@ -44,11 +47,13 @@ struct ModelSpec {
     bool period_effects = false;
     bool intercept = true;      // ignored by within (unit effects absorb it)
     double level = 0.95;        // confidence level of the intervals
+    std::string weights;        // weights=NAME: the regressor column used as observation
+                                // weights (empty: unweighted; CONVENTIONS.md "Observation weights")
 
     bool operator==(const ModelSpec& o) const {
         return estimator == o.estimator && covariance == o.covariance &&
                dk_lag == o.dk_lag && period_effects == o.period_effects &&
-               intercept == o.intercept && level == o.level;
+               intercept == o.intercept && level == o.level && weights == o.weights;
     }
     bool operator!=(const ModelSpec& o) const { return !(*this == o); }
 };
@@ -56,7 +61,8 @@ struct ModelSpec {
 // Parse the model text; the empty text gives the defaults.
 ModelSpec parse_model_text(std::string_view text);
 
-// Canonical text: "<estimator> <covariance>[=L] [periods] [no-intercept] level=<g>",
+// Canonical text: "<estimator> <covariance>[=L] [periods] [no-intercept] level=<g>
+// [weights=NAME]",
 // e.g. "fd cluster periods level=0.95", "within dk=2 level=0.9". Only accepted words
 // are used, so parse_model_text(describe(s)) == s.
 std::string describe(const ModelSpec& spec);

@@ -91,6 +91,12 @@ struct PanelData {
     UnitColumn units;
     Column periods;
     std::size_t first_row_number = 1;   // number used in messages for input position 0
+    // Observation weights (CONVENTIONS.md "Observation weights"): empty (size 0) =
+    // unweighted; otherwise one per row, blank (masked) drops the row, 0 leaves it out
+    // of the equation and of N, a negative or non-finite value is an error naming the
+    // row. ModelSpec::weights (the model word weights=NAME) names a regressor column
+    // instead; giving both is an error.
+    Column weights;
 };
 
 // The input rows in unit-then-period order (PanelIndex::rows_by_unit): a list, or,
