@@ -1,5 +1,8 @@
 #include "cells.hpp"
 
+#include "suggest.hpp"
+
+#include <cctype>
 #include <cmath>
 #include <utility>
 
@@ -30,7 +33,44 @@ void OutTable::set_number_or_blank(std::size_t r, std::size_t c, double v) {
 UserError::UserError(const std::string& message_after_prefix)
     : std::runtime_error("weft: " + message_after_prefix) {}
 
-UserError::UserError(FullText, const std::string& full_text) : std::runtime_error(full_text) {}
+// weft's own messages gain "did you mean ...?" for a mistyped word (suggest.hpp).
+UserError::UserError(FullText, const std::string& full_text)
+    : std::runtime_error(with_suggestion(full_text)) {}
+
+namespace {
+
+std::string column_letters(std::size_t col) {
+    std::string name;
+    for (std::size_t n = col + 1; n > 0; n = (n - 1) / 26)
+        name.insert(name.begin(), static_cast<char>('A' + (n - 1) % 26));
+    return name;
+}
+
+std::string sheet_prefix(const std::string& sheet) {
+    bool plain = !sheet.empty();
+    for (unsigned char ch : sheet)
+        if (!(std::isalnum(ch) || ch == '_' || ch >= 0x80)) plain = false;
+    if (plain) return sheet + "!";
+    std::string quoted = "'";
+    for (char ch : sheet) quoted += ch == '\'' ? std::string("''") : std::string(1, ch);
+    return quoted + "'!";
+}
+
+std::string local_cell(std::size_t row, std::size_t col) {
+    return column_letters(col) + std::to_string(row + 1);
+}
+
+}  // namespace
+
+std::string cell_address(const Place& p, std::size_t r, std::size_t c) {
+    return sheet_prefix(p.sheet) + local_cell(p.row + r, p.col + c);
+}
+
+std::string range_address(const Place& p, std::size_t rows, std::size_t cols) {
+    const std::size_t last_r = rows == 0 ? 0 : rows - 1, last_c = cols == 0 ? 0 : cols - 1;
+    return sheet_prefix(p.sheet) + local_cell(p.row, p.col) + ":" +
+           local_cell(p.row + last_r, p.col + last_c);
+}
 
 OutTable message_table(const std::string& text) {
     OutTable t(1, 1);

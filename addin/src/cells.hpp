@@ -10,9 +10,10 @@
 namespace weft_addin {
 
 // One input cell. Calc hands numbers and booleans as doubles, text as text and
-// a blank cell as an empty text; we keep blank apart from text.
+// a blank cell as an empty text; we keep blank apart from text. An error value
+// (#DIV/0!) reaches us only through a range object: its text is the error's name.
 struct Cell {
-    enum class Kind : unsigned char { blank, number, text };
+    enum class Kind : unsigned char { blank, number, text, error };
     Kind kind = Kind::blank;
     double number = 0.0;
     std::string text;
@@ -20,7 +21,26 @@ struct Cell {
     bool is_number() const { return kind == Kind::number; }
     bool is_text() const { return kind == Kind::text; }
     bool is_blank() const { return kind == Kind::blank; }
+    bool is_error() const { return kind == Kind::error; }
 };
+
+// Where a range is on the sheet: its sheet's name and its first cell (zero-based),
+// known when the office passed the range itself rather than its values.
+struct Place {
+    std::string sheet;
+    std::size_t row = 0;  // sheet row of the range's first row, 0 = row 1
+    std::size_t col = 0;  // sheet column of its first column, 0 = A
+    // Rows of the range that the sheet hides (hidden or filtered out), within the
+    // rows kept; first_hidden is the first such row within the range.
+    std::size_t hidden_rows = 0;
+    std::size_t first_hidden = 0;
+};
+
+// "Data!D57": the address of cell (r, c) of a range at `p` (sheet names that are
+// not plain words are quoted, 'Q1 data'!D57).
+std::string cell_address(const Place& p, std::size_t r, std::size_t c);
+// "Data!D2:H632": the range of rows x cols at `p`.
+std::string range_address(const Place& p, std::size_t rows, std::size_t cols);
 
 // A rectangular range read cell by cell: a Table, or the cells as the office
 // passed them, converted one at a time (so a large range is never copied whole
@@ -32,6 +52,8 @@ public:
     virtual std::size_t col_count() const = 0;
     virtual std::size_t given_row_count() const = 0;  // rows as the sheet passed them
     virtual Cell cell(std::size_t r, std::size_t c) const = 0;
+    // Where the range is; nullptr when only its values were passed.
+    virtual const Place* place() const { return nullptr; }
 };
 
 // A rectangular range, row-major.
@@ -40,6 +62,8 @@ struct Table : CellGrid {
     std::size_t cols = 0;
     std::size_t given_rows = 0;  // rows as the sheet passed them, for size checks
     std::vector<Cell> cells;
+    bool placed = false;  // where is known
+    Place where;
 
     const Cell& at(std::size_t r, std::size_t c) const { return cells[r * cols + c]; }
 
@@ -47,6 +71,7 @@ struct Table : CellGrid {
     std::size_t col_count() const override { return cols; }
     std::size_t given_row_count() const override { return given_rows; }
     Cell cell(std::size_t r, std::size_t c) const override { return at(r, c); }
+    const Place* place() const override { return placed ? &where : nullptr; }
 };
 
 // An optional scalar-or-range argument: given == false when it was omitted.

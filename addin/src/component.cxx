@@ -4,11 +4,14 @@
 // functions.cxx and converts back, and catches everything: nothing may escape
 // into the office, and only a returned text reaches the user.
 
+#include "block_sizer.hpp"
 #include "cells.hpp"
 #include "event_cells.hpp"
 #include "functions.hpp"
+#include "sheet_ranges.hpp"
 #include "texts.hpp"
 #include "trace.hpp"
+#include "warnings_view.hpp"
 
 #include <org/weft/XCalcFunctions.hpp>
 
@@ -16,6 +19,7 @@
 #include <com/sun/star/lang/XServiceInfo.hpp>
 #include <com/sun/star/lang/XServiceName.hpp>
 #include <com/sun/star/sheet/XAddIn.hpp>
+#include <com/sun/star/table/XCellRange.hpp>
 #include <com/sun/star/uno/XComponentContext.hpp>
 #include <cppuhelper/implbase4.hxx>
 #include <cppuhelper/supportsservice.hxx>
@@ -189,29 +193,85 @@ std::vector<Table> to_tables(std::initializer_list<const AnyRows*> ranges) {
 
 // A range as the office passed it, read one cell at a time: the model functions
 // build their columns straight from it, without a converted copy of every cell.
+// With `sheet`, the range came as the cells themselves: it knows its place and
+// the error values in it (sheet_ranges.hpp).
 class AnyGrid : public CellGrid {
 public:
-    AnyGrid(const AnyRows& rows, std::size_t keep) : rows_(rows), keep_(keep) {
-        for (std::size_t r = 0; r < keep; ++r)
+    AnyGrid(const AnyRows& rows, std::size_t keep, const SheetRange* sheet = nullptr)
+        : rows_(rows), keep_(keep), sheet_(sheet) {
+        const std::size_t have = std::min(keep, static_cast<std::size_t>(rows.getLength()));
+        for (std::size_t r = 0; r < have; ++r)
             cols_ = std::max(cols_, static_cast<std::size_t>(rows[static_cast<sal_Int32>(r)].getLength()));
         if (keep == 0 && rows.getLength() > 0) cols_ = static_cast<std::size_t>(rows[0].getLength());
+        if (sheet != nullptr) cols_ = sheet->cols;
     }
     std::size_t row_count() const override { return keep_; }
     std::size_t col_count() const override { return cols_; }
     std::size_t given_row_count() const override {
-        return static_cast<std::size_t>(rows_.getLength());
+        return sheet_ != nullptr ? sheet_->given_rows : static_cast<std::size_t>(rows_.getLength());
     }
     Cell cell(std::size_t r, std::size_t c) const override {
+        // A sheet range is read only down to its sheet's last used row; the rows
+        // kept may go further when another range's sheet is used further down.
+        if (r >= static_cast<std::size_t>(rows_.getLength())) return Cell();
         const Sequence<Any>& row = rows_[static_cast<sal_Int32>(r)];
         if (c >= static_cast<std::size_t>(row.getLength())) return Cell();
-        return to_cell(row.getConstArray()[c]);
+        const Any& a = row.getConstArray()[c];
+        if (sheet_ != nullptr && a.getValueTypeClass() == css::uno::TypeClass_TYPE) return error_cell(r, c);
+        return to_cell(a);
     }
+    const Place* place() const override { return sheet_ != nullptr ? &sheet_->place : nullptr; }
 
 private:
+    Cell error_cell(std::size_t r, std::size_t c) const {
+        Cell e;
+        const auto it = sheet_->errors.find({r, c});
+        if (it == sheet_->errors.end()) return e;
+        e.kind = Cell::Kind::error;
+        e.text = it->second;
+        return e;
+    }
+
     const AnyRows& rows_;
     std::size_t keep_;
+    const SheetRange* sheet_;
     std::size_t cols_ = 0;
 };
+
+// Rows kept of sheet ranges that must line up row by row (as kept_rows).
+std::vector<std::size_t> kept_sheet_rows(const std::vector<const SheetRange*>& ranges) {
+    bool same = true;
+    std::size_t keep = 0;
+    for (const SheetRange* r : ranges) {
+        if (r->given_rows != ranges.front()->given_rows) same = false;
+        keep = std::max(keep, used_rows(r->rows));
+    }
+    std::vector<std::size_t> out;
+    for (const SheetRange* r : ranges) out.push_back(same ? keep : used_rows(r->rows));
+    return out;
+}
+
+// Sheet ranges as plain tables (the helper functions), keeping place and errors.
+std::vector<Table> sheet_tables(const std::vector<const SheetRange*>& ranges) {
+    const std::vector<std::size_t> keep = kept_sheet_rows(ranges);
+    std::vector<Table> out;
+    for (std::size_t i = 0; i < ranges.size(); ++i) {
+        const SheetRange& s = *ranges[i];
+        const AnyGrid grid(s.rows, keep[i], &s);
+        Table t;
+        t.rows = keep[i];
+        t.cols = s.cols;
+        t.given_rows = s.given_rows;
+        t.placed = true;
+        t.where = s.place;
+        t.cells.reserve(t.rows * t.cols);
+        for (std::size_t r = 0; r < t.rows; ++r)
+            for (std::size_t c = 0; c < t.cols; ++c) t.cells.push_back(grid.cell(r, c));
+        out.push_back(std::move(t));
+    }
+    CallTrace::mark("convert");
+    return out;
+}
 
 // ------------------------------------------------------------ the cells key
 
@@ -334,6 +394,56 @@ private:
     mutable std::vector<AnyGrid> grids_;
 };
 
+// The four model ranges passed as the cells themselves: read at once, keyed by
+// their cells, places and error values, converted only when the cache cannot answer.
+class SheetPanelSource : public PanelSource {
+public:
+    using RangeRef = css::uno::Reference<css::table::XCellRange>;
+    SheetPanelSource(const RangeRef& y, const RangeRef& x, const RangeRef& u, const RangeRef& t,
+                     const char* x_name = "regressors")
+        : y_(read_sheet_range(y, "outcome")), x_(read_sheet_range(x, x_name)),
+          u_(read_sheet_range(u, "units")), t_(read_sheet_range(t, "periods")) {
+        CallTrace::mark("read");
+        Hasher h;
+        for (const SheetRange* r : {&y_, &x_, &u_, &t_}) {
+            h.add_u64(r->given_rows);
+            h.add_u64(r->cols);
+            hash_range(h, r->rows);
+            h.add_string(r->place.sheet);
+            h.add_u64(r->place.row);
+            h.add_u64(r->place.col);
+            h.add_u64(r->place.hidden_rows);
+            h.add_u64(r->place.first_hidden);
+            h.add_u64(r->errors.size());
+            for (const auto& e : r->errors) {
+                h.add_u64(e.first.first);
+                h.add_u64(e.first.second);
+                h.add_string(e.second);
+            }
+        }
+        key_ = h.digest();
+        CallTrace::mark("key");
+    }
+    const Hash128* cells_key() const override { return &key_; }
+    PanelRanges ranges() const override {
+        if (grids_.empty()) {
+            const std::vector<std::size_t> keep = kept_sheet_rows({&y_, &x_, &u_, &t_});
+            grids_.reserve(4);  // the references handed out must stay valid
+            grids_.emplace_back(y_.rows, keep[0], &y_);
+            grids_.emplace_back(x_.rows, keep[1], &x_);
+            grids_.emplace_back(u_.rows, keep[2], &u_);
+            grids_.emplace_back(t_.rows, keep[3], &t_);
+            CallTrace::mark("trim");
+        }
+        return {grids_[0], grids_[1], grids_[2], grids_[3]};
+    }
+
+private:
+    SheetRange y_, x_, u_, t_;
+    Hash128 key_;
+    mutable std::vector<AnyGrid> grids_;
+};
+
 Arg to_arg(const Any& a) {
     Arg arg;
     if (a.getValueTypeClass() == css::uno::TypeClass_VOID) return arg;
@@ -412,12 +522,14 @@ AnyRows table_result(F&& compute) {
     const std::string error = guarded([&] {
         OutTable out = compute();
         CallTrace::mark("compute");
+        note_result_shape(out.rows, out.cols, "");
         result = to_rows(out);
         CallTrace::mark("out");
     });
     if (!error.empty()) {
         try {
-            return to_rows(message_table(error));
+            note_result_shape(1, 1, error);
+            return to_rows(error_table(error));
         } catch (...) {
             return AnyRows();
         }
@@ -432,9 +544,11 @@ Any cell_result(F&& compute) {
     const std::string error = guarded([&] {
         result = to_any(compute());
         CallTrace::mark("out");
+        note_result_shape(1, 1, "");
     });
     if (!error.empty()) {
         try {
+            note_result_shape(1, 1, error);
             return Any(to_ou(error));
         } catch (...) {
             return Any();
@@ -667,6 +781,133 @@ public:
         });
     }
 
+    // ---- the cell-range twins: the same functions, with the ranges' places -------
+    using Range = css::uno::Reference<css::table::XCellRange>;
+    AnyRows SAL_CALL sheetEstimates(const Range& y, const Range& x, const Range& u, const Range& t,
+                                    const Any& model) override {
+        CallTrace trace("sheetEstimates");
+        return table_result([&] { return fn_estimates(SheetPanelSource(y, x, u, t), to_arg(model)); });
+    }
+    AnyRows SAL_CALL sheetSummary(const Range& y, const Range& x, const Range& u, const Range& t,
+                                  const Any& model) override {
+        CallTrace trace("sheetSummary");
+        return table_result([&] { return fn_summary(SheetPanelSource(y, x, u, t), to_arg(model)); });
+    }
+    Any SAL_CALL sheetValue(const Range& y, const Range& x, const Range& u, const Range& t,
+                            const Any& model, const Any& what, const Any& term) override {
+        CallTrace trace("sheetValue");
+        return cell_result([&] {
+            return fn_value(SheetPanelSource(y, x, u, t), to_arg(model), to_arg(what), to_arg(term));
+        });
+    }
+    AnyRows SAL_CALL sheetResiduals(const Range& y, const Range& x, const Range& u, const Range& t,
+                                    const Any& model) override {
+        CallTrace trace("sheetResiduals");
+        return table_result([&] { return fn_residuals(SheetPanelSource(y, x, u, t), to_arg(model)); });
+    }
+    AnyRows SAL_CALL sheetFitted(const Range& y, const Range& x, const Range& u, const Range& t,
+                                 const Any& model) override {
+        CallTrace trace("sheetFitted");
+        return table_result([&] { return fn_fitted(SheetPanelSource(y, x, u, t), to_arg(model)); });
+    }
+    AnyRows SAL_CALL sheetJoint(const Range& y, const Range& x, const Range& u, const Range& t,
+                                const Any& model, const Any& terms) override {
+        CallTrace trace("sheetJoint");
+        return table_result([&] { return fn_joint(SheetPanelSource(y, x, u, t), to_arg(model), to_arg(terms)); });
+    }
+    AnyRows SAL_CALL sheetHetero(const Range& y, const Range& x, const Range& u, const Range& t,
+                                 const Any& model, const Any& form) override {
+        CallTrace trace("sheetHetero");
+        return table_result([&] { return fn_hetero(SheetPanelSource(y, x, u, t), to_arg(model), to_arg(form)); });
+    }
+    AnyRows SAL_CALL sheetSerial(const Range& y, const Range& x, const Range& u, const Range& t,
+                                 const Any& model) override {
+        CallTrace trace("sheetSerial");
+        return table_result([&] { return fn_serial(SheetPanelSource(y, x, u, t), to_arg(model)); });
+    }
+    AnyRows SAL_CALL sheetHausman(const Range& y, const Range& x, const Range& u, const Range& t,
+                                  const Any& model) override {
+        CallTrace trace("sheetHausman");
+        return table_result([&] { return fn_hausman(SheetPanelSource(y, x, u, t), to_arg(model)); });
+    }
+    AnyRows SAL_CALL sheetEffects(const Range& y, const Range& x, const Range& u, const Range& t,
+                                  const Any& model) override {
+        CallTrace trace("sheetEffects");
+        return table_result([&] { return fn_effects(SheetPanelSource(y, x, u, t), to_arg(model)); });
+    }
+    Any SAL_CALL sheetFit(const Range& y, const Range& x, const Range& u, const Range& t,
+                          const Any& model) override {
+        CallTrace trace("sheetFit");
+        return cell_result([&] { return fn_fit(SheetPanelSource(y, x, u, t), to_arg(model)); });
+    }
+    AnyRows SAL_CALL sheetBootstrap(const Range& y, const Range& x, const Range& u, const Range& t,
+                                    const Any& model, const Any& term, const Any& settings) override {
+        CallTrace trace("sheetBootstrap");
+        return table_result([&] {
+            return fn_bootstrap(SheetPanelSource(y, x, u, t), to_arg(model), to_arg(term), to_arg(settings));
+        });
+    }
+    AnyRows SAL_CALL sheetEvent(const Range& y, const Range& d, const Range& u, const Range& t,
+                                const Any& controls, const Any& design) override {
+        CallTrace trace("sheetEvent");
+        return table_result([&] {
+            const SheetPanelSource r(y, d, u, t, "treatment");
+            const PanelRanges p = r.ranges();
+            return fn_event({p.outcome, p.regressors, p.units, p.periods}, to_arg(controls), to_arg(design));
+        });
+    }
+    AnyRows SAL_CALL sheetDid(const Range& y, const Range& d, const Range& u, const Range& t,
+                              const Any& controls, const Any& design) override {
+        CallTrace trace("sheetDid");
+        return table_result([&] {
+            const SheetPanelSource r(y, d, u, t, "treatment");
+            const PanelRanges p = r.ranges();
+            return fn_did({p.outcome, p.regressors, p.units, p.periods}, to_arg(controls), to_arg(design));
+        });
+    }
+    AnyRows SAL_CALL sheetDiff(const Range& v, const Range& u, const Range& t, const Any& k) override {
+        CallTrace trace("sheetDiff");
+        return table_result([&] {
+            const SheetRange a = read_sheet_range(v, "values"), b = read_sheet_range(u, "units"),
+                             c = read_sheet_range(t, "periods");
+            const std::vector<Table> r = sheet_tables({&a, &b, &c});
+            return fn_diff(r[0], r[1], r[2], to_arg(k));
+        });
+    }
+    AnyRows SAL_CALL sheetLag(const Range& v, const Range& u, const Range& t, const Any& k) override {
+        CallTrace trace("sheetLag");
+        return table_result([&] {
+            const SheetRange a = read_sheet_range(v, "values"), b = read_sheet_range(u, "units"),
+                             c = read_sheet_range(t, "periods");
+            const std::vector<Table> r = sheet_tables({&a, &b, &c});
+            return fn_lag(r[0], r[1], r[2], to_arg(k));
+        });
+    }
+    AnyRows SAL_CALL sheetDemean(const Range& v, const Range& u) override {
+        CallTrace trace("sheetDemean");
+        return table_result([&] {
+            const SheetRange a = read_sheet_range(v, "values"), b = read_sheet_range(u, "units");
+            const std::vector<Table> r = sheet_tables({&a, &b});
+            return fn_demean(r[0], r[1]);
+        });
+    }
+    AnyRows SAL_CALL sheetDummies(const Range& t, const Any& omit_first) override {
+        CallTrace trace("sheetDummies");
+        return table_result([&] {
+            const SheetRange a = read_sheet_range(t, "periods");
+            const std::vector<Table> r = sheet_tables({&a});
+            return fn_dummies(r[0], to_arg(omit_first));
+        });
+    }
+    AnyRows SAL_CALL sheetPanel(const Range& u, const Range& t) override {
+        CallTrace trace("sheetPanel");
+        return table_result([&] {
+            const SheetRange a = read_sheet_range(u, "units"), b = read_sheet_range(t, "periods");
+            const std::vector<Table> r = sheet_tables({&a, &b});
+            return fn_panel(r[0], r[1]);
+        });
+    }
+
     // ---- XAddIn ----------------------------------------------------------------
     // (The misspelling is the interface's own.) Nothing may escape here either.
     OUString SAL_CALL getProgrammaticFuntionName(const OUString& display) override {
@@ -683,8 +924,16 @@ public:
     }
     OUString SAL_CALL getFunctionDescription(const OUString& method) override {
         return safe_text([&] {
-            const FunctionText* f = find_by_method(to_utf8(method));
-            return f ? to_ou(f->description) : OUString();
+            const std::string name = to_utf8(method);
+            const FunctionText* f = find_by_method(name);
+            if (f == nullptr) return OUString();
+            // The wizard lists a value-array method beside its cell-range twin under
+            // one name; say which is which (a typed name always gets the twin).
+            if (has_twin(name))
+                return to_ou("(As stored by weft 0.3 workbooks: reads values only, cannot name "
+                             "cells. Typed formulas use the other " + std::string(f->display) +
+                             ".) " + f->description);
+            return to_ou(f->description);
         });
     }
     OUString SAL_CALL getDisplayArgumentName(const OUString& method, sal_Int32 index) override {
@@ -724,6 +973,17 @@ public:
     }
 
 private:
+    // A value-array method with a cell-range twin (sheetEstimates for estimates).
+    static bool has_twin(const std::string& method) {
+        static const char* const twinned[] = {
+            "estimates", "summary", "value", "residuals", "fitted", "joint", "hetero", "serial",
+            "hausman", "effects", "fit", "bootstrap", "event", "did", "diff", "lag", "demean",
+            "dummies", "panel"};
+        for (const char* t : twinned)
+            if (method == t) return true;
+        return false;
+    }
+
     static const ArgumentText* argument(const OUString& method, sal_Int32 index) {
         const FunctionText* f = find_by_method(to_utf8(method));
         if (f == nullptr || index < 0 || static_cast<std::size_t>(index) >= f->arguments.size())

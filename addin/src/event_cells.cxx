@@ -1,5 +1,7 @@
 #include "event_cells.hpp"
 
+#include "sheet_checks.hpp"
+
 #include "functions.hpp"
 
 #include <weft.h>
@@ -42,11 +44,12 @@ void read_treatment(const CellGrid& t, const PanelRead& p, std::vector<double>& 
     missing.assign(p.n, 1);
     for (std::size_t i = 0; i < p.n && start + i < t.row_count(); ++i) {
         const Cell c = t.cell(start + i, 0);
+        TextCells::note_error({"treatment", &t}, start + i, 0, c);
         if (c.is_number()) {
             values[i] = c.number;
             missing[i] = 0;
         } else if (c.is_text()) {
-            throw UserError("treatment in row " + std::to_string(p.first_row + i) + " of the range holds the text \"" +
+            throw UserError(located({"treatment", &t}, start + i, 0) + " holds the text \"" +
                             c.text + "\"; give 0 (untreated) or 1 (treated)");
         }
     }
@@ -56,6 +59,8 @@ EventPtr estimate(const EventRanges& in, const Arg& controls, const Arg& design)
     Table none;  // no control columns
     const bool with_controls = controls_given(controls);
     const CellGrid& control_grid = with_controls ? static_cast<const CellGrid&>(controls.table) : none;
+    require_same_start({{"outcome", &in.outcome}, {"treatment", &in.treatment}, {"units", &in.units},
+                        {"periods", &in.periods}});
     if (in.treatment.given_row_count() != in.outcome.given_row_count())
         throw UserError("treatment has " + std::to_string(in.treatment.given_row_count()) + " rows but outcome has " +
                         std::to_string(in.outcome.given_row_count()) +

@@ -1,6 +1,8 @@
 #include "functions.hpp"
 
 #include "cache.hpp"
+#include "sheet_checks.hpp"
+#include "warnings_view.hpp"
 #include "trace.hpp"
 #include "weights.hpp"
 
@@ -88,7 +90,10 @@ struct UnitColumn {
 };
 
 // Rows start..end-1 of column c; anything but a number (blank, text) is missing.
-NumericColumn read_numbers(const CellGrid& t, std::size_t c, std::size_t start, std::size_t end) {
+// With `scan`, an error value or a number stored as text is refused and other
+// text is counted (sheet_checks.hpp).
+NumericColumn read_numbers(const CellGrid& t, std::size_t c, std::size_t start, std::size_t end,
+                           TextCells* scan = nullptr, const char* name = "") {
     NumericColumn col;
     const std::size_t n = end - start;
     col.values.assign(n, 0.0);
@@ -98,6 +103,8 @@ NumericColumn read_numbers(const CellGrid& t, std::size_t c, std::size_t start, 
         if (cell.is_number()) {
             col.values[i] = cell.number;
             col.missing[i] = 0;
+        } else if (scan != nullptr && !cell.is_blank()) {
+            scan->note({name, &t}, start + i, c, cell);
         }
     }
     return col;
@@ -115,6 +122,7 @@ UnitColumn read_units(const CellGrid& t, std::size_t start, std::size_t end) {
         col.ids.assign(n, std::string());
         for (std::size_t i = 0; i < n; ++i) {
             Cell cell = t.cell(start + i, 0);
+            TextCells::note_error({"units", &t}, start + i, 0, cell);
             if (cell.is_text()) {
                 col.ids[i] = std::move(cell.text);
                 col.missing[i] = 0;
@@ -127,6 +135,7 @@ UnitColumn read_units(const CellGrid& t, std::size_t start, std::size_t end) {
         col.numbers.assign(n, 0.0);
         for (std::size_t i = 0; i < n; ++i) {
             const Cell cell = t.cell(start + i, 0);
+            TextCells::note_error({"units", &t}, start + i, 0, cell);
             if (cell.is_number()) {
                 col.numbers[i] = cell.number;
                 col.missing[i] = 0;
@@ -199,10 +208,14 @@ struct PanelInput {
     std::vector<std::string> regressor_names;
     NumericColumn outcome;
     std::vector<NumericColumn> regressors;
-    std::vector<std::size_t> text_row;  // per regressor: first row holding text (0: none), for weights=
+    std::vector<std::string> text_cell;  // per regressor: the first cell holding text (empty: none), for weights=
     UnitColumn units;
     NumericColumn periods;
     Hash128 hash;
+    std::vector<std::string> warnings;  // about the cells (sheet_checks.hpp)
+    // The ranges came as cells (the sheet* methods): results show warnings in view
+    // (warnings_view.hpp). The value-array methods of 0.3 workbooks keep their layout.
+    bool placed = false;
 };
 
 bool all_missing(const std::vector<unsigned char>& missing) {
@@ -230,6 +243,22 @@ void require_some_values(const PanelInput& p) {
              "; periods must be numbers or dates (a text period is read as missing)");
 }
 
+// A regressor column equal to the outcome in every row (the outcome's range
+// selected among the regressors too) gives a coefficient of 1 and nothing else.
+std::vector<std::string> same_as_outcome_warnings(const PanelInput& p) {
+    std::vector<std::string> out;
+    for (std::size_t k = 0; k < p.regressors.size(); ++k) {
+        const NumericColumn& x = p.regressors[k];
+        if (x.missing != p.outcome.missing || x.values != p.outcome.values) continue;
+        const std::string name =
+            p.regressor_names[k].empty() ? "x" + std::to_string(k + 1) : p.regressor_names[k];
+        out.push_back("regressor " + quoted(name) + " (column " + std::to_string(k + 1) +
+                      " of regressors) equals the outcome in every row; leave the outcome's "
+                      "column out of regressors");
+    }
+    return out;
+}
+
 // regressors_optional: a grid of no columns means no regressors (the controls of the
 // event functions); otherwise it is refused.
 PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
@@ -238,6 +267,11 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     require_one_column(in.periods, "periods", "the period of each row");
     const bool no_regressors = in.regressors.col_count() == 0;
     if (no_regressors && !regressors_optional) fail("regressors is empty; give one column per regressor");
+    if (no_regressors)
+        require_same_start({{"outcome", &in.outcome}, {"units", &in.units}, {"periods", &in.periods}});
+    else
+        require_same_start({{"outcome", &in.outcome}, {"regressors", &in.regressors},
+                            {"units", &in.units}, {"periods", &in.periods}});
     if (!no_regressors) require_same_rows(in.regressors, "regressors", in.outcome, "outcome");
     require_same_rows(in.units, "units", in.outcome, "outcome");
     require_same_rows(in.periods, "periods", in.outcome, "outcome");
@@ -249,12 +283,16 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     require_data_rows(rows, p.header);
     const std::size_t start = p.header ? 1 : 0;
     p.n = rows - start;
-    p.first_row = start + 1;
+    // weft's own messages name rows as first_row + i: sheet rows when the place is
+    // known (the ranges start on one sheet row), else rows of the ranges.
+    p.first_row = start + 1 + (in.outcome.place() != nullptr ? in.outcome.place()->row : 0);
 
     // Trimming made the four row counts equal; `rows` guards the rest.
     const CellGrid &outcome = in.outcome, &regressors = in.regressors, &units = in.units,
                    &periods = in.periods;
     const std::size_t n_regressors = regressors.col_count();
+    require_consistent_headers({"outcome", &outcome}, p.header,
+                               {{"regressors", &regressors}, {"periods", &periods}});
 
     if (p.header) {
         p.outcome_name = header_text(outcome.cell(0, 0));
@@ -263,11 +301,12 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     } else {
         p.regressor_names.assign(n_regressors, std::string());
     }
-    p.outcome = read_numbers(outcome, 0, start, rows);
+    TextCells scan;
+    p.outcome = read_numbers(outcome, 0, start, rows, &scan, "outcome");
     // One pass over the rows for all regressors: the table is row-major, so a pass
     // per column would touch every row once per column.
     p.regressors.resize(n_regressors);
-    p.text_row.assign(n_regressors, 0);
+    p.text_cell.assign(n_regressors, std::string());
     for (NumericColumn& x : p.regressors) {
         x.values.assign(p.n, 0.0);
         x.missing.assign(p.n, 1);
@@ -276,7 +315,9 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
         for (std::size_t c = 0; c < n_regressors; ++c) {
             const Cell cell = regressors.cell(start + i, c);
             if (!cell.is_number()) {
-                if (cell.is_text() && p.text_row[c] == 0) p.text_row[c] = p.first_row + i;
+                if (cell.is_text() && p.text_cell[c].empty())
+                    p.text_cell[c] = located({"regressors", &regressors}, start + i, c);
+                if (!cell.is_blank()) scan.note({"regressors", &regressors}, start + i, c, cell);
                 continue;
             }
             p.regressors[c].values[i] = cell.number;
@@ -284,8 +325,13 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
         }
     }
     p.units = read_units(units, start, rows);
-    p.periods = read_numbers(periods, 0, start, rows);
+    p.periods = read_numbers(periods, 0, start, rows, &scan, "periods");
     require_some_values(p);
+    p.warnings = scan.warnings();
+    p.placed = in.outcome.place() != nullptr;
+    for (std::string& w : hidden_row_warnings({{"outcome", &outcome}, {"units", &units}}, start, rows))
+        p.warnings.push_back(std::move(w));
+    for (std::string& w : same_as_outcome_warnings(p)) p.warnings.push_back(std::move(w));
 
     Hasher h;
     h.add_u64(p.first_row);
@@ -294,7 +340,7 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
     for (const std::string& name : p.regressor_names) h.add_string(name);
     hash_numbers(h, p.outcome);
     for (const NumericColumn& x : p.regressors) hash_numbers(h, x);
-    for (std::size_t row : p.text_row) h.add_u64(row);
+    for (const std::string& cell : p.text_cell) h.add_string(cell);
     hash_units(h, p.units);
     hash_numbers(h, p.periods);
     p.hash = h.digest();
@@ -382,6 +428,8 @@ struct FitEntry {
     std::shared_ptr<PanelEntry> panel;  // for the tests that fit other estimators
     bool header = false;
     std::size_t n = 0;
+    std::vector<std::string> warnings;  // about the cells the fit read
+    bool placed = false;
 };
 constexpr std::size_t kFitsKept = 32;
 constexpr std::size_t kFitCellBudget = std::size_t{64} << 20;
@@ -410,9 +458,9 @@ void check_weight_cells(const PanelInput& in, const std::string& text) {
     const std::string name = split_weights_word(text).weights;
     if (name.empty()) return;
     const std::size_t k = weight_column(in.regressor_names, name);
-    if (k == std::string::npos || in.text_row[k] == 0) return;
-    fail("weights " + quoted(name) + " (column " + std::to_string(k + 1) + " of regressors), row " +
-         std::to_string(in.text_row[k]) + " of the ranges holds text; a weight must be a number of 0 or more "
+    if (k == std::string::npos || in.text_cell[k].empty()) return;
+    fail("weights " + quoted(name) + " (column " + std::to_string(k + 1) + " of regressors): " +
+         in.text_cell[k] + " holds text; a weight must be a number of 0 or more "
          "(0 leaves the row out, a blank cell drops it)");
 }
 
@@ -461,6 +509,8 @@ struct CallEntry {
     Hash128 panel_key;  // PanelInput::hash, the key of panel_cache
     bool header = false;
     std::size_t n = 0;
+    std::vector<std::string> warnings;  // PanelInput::warnings
+    bool placed = false;
 };
 LruCache<CallEntry> call_cache(16);
 
@@ -556,7 +606,8 @@ struct Fitted {
             CallTrace::mark("model");
             if (cells != nullptr)
                 call_cache.put(call_key, std::make_shared<CallEntry>(CallEntry{
-                                             model_key, input.hash, input.header, input.n}));
+                                             model_key, input.hash, input.header, input.n,
+                                             input.warnings, input.placed}));
         }
         if (!entry->error.empty()) throw UserError(UserError::FullText{}, entry->error);
         model = entry->model.get();
@@ -589,6 +640,8 @@ struct Fitted {
         panel = kept->panel;
         input.header = kept->header;
         input.n = kept->n;
+        input.warnings = kept->warnings;
+        input.placed = kept->placed;
         model = entry->model.get();
     }
 
@@ -608,6 +661,8 @@ private:
         input.hash = call->panel_key;
         input.header = call->header;
         input.n = call->n;
+        input.warnings = call->warnings;
+        input.placed = call->placed;
         return found;
     }
 };
@@ -623,6 +678,25 @@ struct ModelRef {
 Fitted fitted_of(const ModelRef& r) {
     if (r.fit != nullptr) return Fitted(*r.fit);
     return Fitted(*r.source, *r.model);
+}
+
+// The warnings about the cells, then the fit's own (for the layouts that do not
+// list the fit's warnings themselves).
+std::vector<std::string> all_warnings(const Fitted& f) {
+    std::vector<std::string> out = f.input.warnings;
+    size_t n = 0;
+    check(weft_model_warning_count(f.model, &n));
+    for (size_t i = 0; i < n; ++i) {
+        const char* w = nullptr;
+        check(weft_model_warning(f.model, i, &w));
+        if (w != nullptr && *w != '\0') out.emplace_back(w);
+    }
+    return out;
+}
+
+// Warnings in view for the ranges passed as cells; a 0.3 layout otherwise.
+OutTable shown(bool placed, OutTable t, const std::vector<std::string>& warnings) {
+    return placed ? in_view(std::move(t), warnings) : t;
 }
 
 // ----------------------------------------------------------- result layouts
@@ -685,7 +759,7 @@ OutTable model_column(const ModelRef& ref, RowValues get, const char* label) {
     std::vector<unsigned char> none(f.input.n, 1);
     size_t needed = 0;
     check(get(f.model, v.data(), none.data(), v.size(), &needed));
-    return aligned_column(f.input.header, label, v, none);
+    return shown(f.input.placed, aligned_column(f.input.header, label, v, none), all_warnings(f));
 }
 
 // Optional text argument: omitted, blank or a blank reference (0) give "".
@@ -758,13 +832,13 @@ std::size_t common_rows(std::initializer_list<const Table*> tables) {
 }
 
 PanelPtr transform_panel(std::size_t start, std::size_t end, const Table* units,
-                         const Table* periods) {
+                         const Table* periods, TextCells* scan) {
     weft_panel* raw = nullptr;
     check(weft_panel_new(&raw, end - start, start + 1));
     PanelPtr p(raw);
     if (units != nullptr) set_units(p.get(), read_units(*units, start, end));
     if (periods != nullptr) {
-        NumericColumn t = read_numbers(*periods, 0, start, end);
+        NumericColumn t = read_numbers(*periods, 0, start, end, scan, "periods");
         check(weft_panel_set_periods(p.get(), t.values.data(), t.missing.data()));
     }
     return p;
@@ -786,14 +860,20 @@ OutTable run_transform(const Table& values_in, const Table& units_in, const Tabl
                                  ? common_rows({&values_in, &units_in, periods_in})
                                  : common_rows({&values_in, &units_in});
     const Table &values = values_in, &units = units_in;
+    if (periods_in != nullptr)
+        require_same_start({{"values", &values}, {"units", &units}, {"periods", periods_in}});
+    else
+        require_same_start({{"values", &values}, {"units", &units}});
     const bool header = rows > 0 && values.at(0, 0).is_text();
+    if (periods_in != nullptr) require_consistent_headers({"values", &values}, header, {{"periods", periods_in}});
     require_data_rows(rows, header);
     const std::size_t start = header ? 1 : 0;
     const std::size_t n = rows - start;
 
     std::unique_lock<std::mutex> lock(cache_mutex);
-    PanelPtr p = transform_panel(start, rows, &units, periods_in);
-    NumericColumn v = read_numbers(values, 0, start, rows);
+    TextCells scan;
+    PanelPtr p = transform_panel(start, rows, &units, periods_in, &scan);
+    NumericColumn v = read_numbers(values, 0, start, rows, &scan, "values");
     std::vector<double> out(n);
     std::vector<unsigned char> none(n, 1);
     if (use_k) {
@@ -804,7 +884,8 @@ OutTable run_transform(const Table& values_in, const Table& units_in, const Tabl
                                 none.data(), n));
     }
     const std::string name = header ? header_text(values.at(0, 0)) : std::string();
-    return aligned_column(header, label_prefix + " " + name, out, none);
+    return shown(values.place() != nullptr, aligned_column(header, label_prefix + " " + name, out, none),
+                 scan.warnings());
 }
 
 }  // namespace
@@ -858,7 +939,7 @@ OutTable estimates_of(const ModelRef& ref) {
         t.set(1 + n_terms + d, 0, std::string(term ? term : ""));
         t.set(1 + n_terms + d, 1, std::string("dropped: ") + (reason ? reason : ""));
     }
-    return t;
+    return shown(f.input.placed, std::move(t), all_warnings(f));
 }
 
 OutTable summary_of(const ModelRef& ref) {
@@ -875,7 +956,7 @@ OutTable summary_of(const ModelRef& ref) {
         else
             lv.text(label, item.text ? item.text : "");
     }
-    return lv.table();
+    return shown(f.input.placed, lv.table(), f.input.warnings);
 }
 
 OutCell value_of(const ModelRef& ref, const Arg& what_arg, const Arg& term_arg) {
@@ -955,7 +1036,7 @@ OutTable joint_of(const ModelRef& ref, const Arg& terms) {
     lv.number("chi-square df", r.chi2_df);
     lv.number("chi-square p-value", r.chi2_p);
     add_test_warnings(lv);
-    return lv.table();
+    return shown(f.input.placed, lv.table(), f.input.warnings);
 }
 
 OutTable hetero_of(const ModelRef& ref, const Arg& form_arg) {
@@ -974,7 +1055,7 @@ OutTable hetero_of(const ModelRef& ref, const Arg& form_arg) {
     lv.number("F df2", r.f_df2);
     lv.number("F p-value", r.f_p);
     add_test_warnings(lv);
-    return lv.table();
+    return shown(f.input.placed, lv.table(), f.input.warnings);
 }
 
 OutTable serial_of(const ModelRef& ref) {
@@ -995,7 +1076,7 @@ OutTable serial_of(const ModelRef& ref) {
     lv.number("level errors: F df2", r.level_df2);
     lv.number("level errors: F p-value", r.level_p);
     add_test_warnings(lv);
-    return lv.table();
+    return shown(f.input.placed, lv.table(), f.input.warnings);
 }
 
 // WEFT.BOOTSTRAP: label and value rows (FUNCTIONS.md). settings: one cell of words,
@@ -1034,7 +1115,7 @@ OutTable bootstrap_of(const ModelRef& ref, const Arg& term_arg, const Arg& setti
     lv.text("every sign pattern used", r.enumerated ? "yes" : "no");
     lv.number(r.by_period ? "clusters (periods)" : "clusters (units)", r.clusters);
     add_test_warnings(lv);
-    return lv.table();
+    return shown(f.input.placed, lv.table(), f.input.warnings);
 }
 
 }  // namespace
@@ -1046,7 +1127,8 @@ OutCell fn_fit(const PanelSource& in, const Arg& model) {
         check(weft_model_term_count(f.model, &terms));
         fit_cache.put(f.model_key,
                       std::make_shared<FitEntry>(
-                          FitEntry{f.entry, f.panel_entry(in), f.input.header, f.input.n}),
+                          FitEntry{f.entry, f.panel_entry(in), f.input.header, f.input.n,
+                                   f.input.warnings, f.input.placed}),
                       f.input.n * (terms + 3));
     }
     weft_options o = WEFT_OPTIONS_INIT;
@@ -1160,7 +1242,7 @@ OutTable on_fit_panel(const Arg& fit, Table table, const char* function) {
     if (weighted == 1.0) refuse_weights(function);
     weft_options o = WEFT_OPTIONS_INIT;
     check(weft_model_options(f.model, &o));
-    return table(panel_or_throw(*f.panel), o);
+    return shown(f.input.placed, table(panel_or_throw(*f.panel), o), f.input.warnings);
 }
 
 }  // namespace
@@ -1170,7 +1252,7 @@ OutTable fn_hausman(const PanelSource& in, const Arg& model) {
     const PanelInput input = read_panel(in.ranges());
     if (!split_weights_word(model_text(model)).weights.empty()) refuse_weights("WEFT.HAUSMAN");
     const weft_options o = parse_options(model_text(model));
-    return hausman_table(panel_or_throw(*cached_panel(input)), o);
+    return shown(input.placed, hausman_table(panel_or_throw(*cached_panel(input)), o), input.warnings);
 }
 
 OutTable fn_effects(const PanelSource& in, const Arg& model) {
@@ -1178,7 +1260,7 @@ OutTable fn_effects(const PanelSource& in, const Arg& model) {
     const PanelInput input = read_panel(in.ranges());
     if (!split_weights_word(model_text(model)).weights.empty()) refuse_weights("WEFT.EFFECTS");
     const weft_options o = parse_options(model_text(model));
-    return effects_table(panel_or_throw(*cached_panel(input)), o);
+    return shown(input.placed, effects_table(panel_or_throw(*cached_panel(input)), o), input.warnings);
 }
 
 OutTable fn_fit_hausman(const Arg& fit) { return on_fit_panel(fit, hausman_table, "WEFT.FIT.HAUSMAN"); }
@@ -1205,7 +1287,9 @@ OutTable fn_effects(const PanelRanges& in, const Arg& model) { return fn_effects
 
 OutTable fn_diff(const Table& values, const Table& units, const Table& periods, const Arg& k) {
     const int steps = integer_arg(k, "k", 1);
-    return run_transform(values, units, &periods, steps, true, "diff");
+    // The header says k (x(t) - x(t-k)); k = 1 keeps the 0.3 header "diff <name>".
+    return run_transform(values, units, &periods, steps, true,
+                         steps == 1 ? std::string("diff") : "diff over " + std::to_string(steps) + " periods");
 }
 
 OutTable fn_lag(const Table& values, const Table& units, const Table& periods, const Arg& k) {
@@ -1239,7 +1323,8 @@ OutTable fn_dummies(const Table& periods_in, const Arg& omit_first) {
     const std::size_t n = rows - start;
 
     std::unique_lock<std::mutex> lock(cache_mutex);
-    PanelPtr p = transform_panel(start, rows, nullptr, &periods_in);
+    TextCells scan;
+    PanelPtr p = transform_panel(start, rows, nullptr, &periods_in, &scan);
     size_t cols = 0;
     check(weft_panel_dummy_periods(p.get(), omit, nullptr, 0, &cols));
     std::vector<double> labels(cols);
@@ -1257,12 +1342,13 @@ OutTable fn_dummies(const Table& periods_in, const Arg& omit_first) {
         t.set(0, j, "period " + format_number(labels[j]));
     for (std::size_t i = 0; i < n; ++i)
         for (std::size_t j = 0; j < cols; ++j) t.set_number_or_blank(1 + i, j, block[i * cols + j]);
-    return t;
+    return shown(periods_in.place() != nullptr, std::move(t), scan.warnings());
 }
 
 OutTable fn_panel(const Table& units_in, const Table& periods_in) {
     require_one_column(units_in, "units", "the unit id of each row");
     require_one_column(periods_in, "periods", "the period of each row");
+    require_same_start({{"units", &units_in}, {"periods", &periods_in}});
     require_same_rows(periods_in, "periods", units_in, "units");
     const std::size_t rows = common_rows({&units_in, &periods_in});
     const Table &units = units_in, &periods = periods_in;
@@ -1271,7 +1357,8 @@ OutTable fn_panel(const Table& units_in, const Table& periods_in) {
     const std::size_t start = header ? 1 : 0;
 
     std::unique_lock<std::mutex> lock(cache_mutex);
-    PanelPtr p = transform_panel(start, rows, &units, &periods);
+    TextCells scan;
+    PanelPtr p = transform_panel(start, rows, &units, &periods, &scan);
     weft_structure s;
     check(weft_panel_structure(p.get(), &s));
     LabelValue lv;
@@ -1286,7 +1373,7 @@ OutTable fn_panel(const Table& units_in, const Table& periods_in) {
     lv.number("duplicate unit-period pairs", static_cast<double>(s.duplicates));
     lv.number("single-row units", static_cast<double>(s.single_row_units));
     lv.number("rows without unit or period", static_cast<double>(s.rows_missing));
-    return lv.table();
+    return shown(periods.place() != nullptr, lv.table(), scan.warnings());
 }
 
 std::string fn_version() {

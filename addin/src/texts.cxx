@@ -125,12 +125,14 @@ std::vector<FunctionText> make_texts() {
                  "p-value; a small p-value says keep unit effects (within, fd or random).",
                  panel_args()});
     t.push_back({"diff", "WEFT.DIFF",
-                 "k-th difference within each unit between adjacent periods, aligned to the input "
-                 "rows; blank at a unit's first period and across gaps.",
+                 "Change within each unit over k periods: the value minus the unit's value k "
+                 "periods earlier (k = 1: adjacent periods; not a second difference), aligned to "
+                 "the input rows; blank where that earlier period is absent.",
                  {{"values", "One column of numbers to difference."},
                   units_arg,
                   periods_arg,
-                  {"k", "Optional: how many periods apart (default 1)."}}});
+                  {"k", "Optional: the two values compared are k periods apart, x(t) - x(t-k) "
+                        "(default 1); the header shows k."}}});
     t.push_back({"lag", "WEFT.LAG",
                  "The value k periods earlier within the unit (negative k: later), aligned to the "
                  "input rows; blank where that period is absent.",
@@ -240,6 +242,14 @@ const std::vector<FunctionText>& function_texts() {
 const FunctionText* find_by_method(const std::string& method) {
     for (const FunctionText& f : function_texts())
         if (method == f.method) return &f;
+    // A cell-range twin (sheetEstimates) shows the texts of its value-array method.
+    const std::string twin = "sheet";
+    if (method.size() > twin.size() && method.compare(0, twin.size(), twin) == 0) {
+        std::string base = method.substr(twin.size());
+        base[0] = static_cast<char>(std::tolower(static_cast<unsigned char>(base[0])));
+        for (const FunctionText& f : function_texts())
+            if (base == f.method) return &f;
+    }
     return nullptr;
 }
 

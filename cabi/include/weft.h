@@ -16,18 +16,22 @@
  *   function documents (handles: set to NULL; numbers: NaN where stated; buffers:
  *   untouched).
  *
- * Handles.  weft_panel (the caller's columns, copied) and weft_model (one fitted
- *   model) are opaque. The caller owns what a *_new function returns through its
- *   first argument and releases it with the matching *_free; *_free(NULL) does
- *   nothing. A model does not borrow its panel: the panel may be freed (or changed)
- *   right after weft_model_new returns.
+ * Handles.  weft_panel (the caller's columns) and weft_model (one fitted model) are
+ *   opaque. The caller owns what a *_new function returns through its first argument
+ *   and releases it with the matching *_free; *_free(NULL) does nothing. A model does
+ *   not borrow its panel handle: the panel may be freed right after weft_model_new
+ *   returns. It does keep reading every array the panel borrowed (below).
  *
  * Borrowed strings.  A `const char *` handed out by a getter belongs to the handle
  *   it came from and stays valid, unchanged, until that handle is freed. Strings are
  *   UTF-8 and NUL-terminated. Never free them.
  *
- * Input arrays.  Every array passed in is only read, and only during the call: weft
- *   copies what it keeps. A numeric column is `const double *values` with
+ * Input arrays.  Every array passed in is only read. Functions named *_set_* or
+ *   *_add_* read it during the call only and copy what they keep. Functions named
+ *   weft_panel_borrow_* keep the caller's pointer instead: that array must stay valid
+ *   and unchanged until weft_panel_free() of the panel AND weft_model_free() of every
+ *   model made from it (a model may read its columns again, e.g. a test that refits),
+ *   whichever comes last. A numeric column is `const double *values` with
  *   `const unsigned char *missing`: missing[i] != 0 marks row i as missing (a blank
  *   or text cell in a spreadsheet); missing == NULL means no row is missing. A value
  *   that is NaN or infinite and not marked missing is an error (WEFT_EDATA) that
@@ -296,6 +300,21 @@ WEFT_API int weft_panel_borrow_outcome(weft_panel *panel, const char *name,
                                        const double *values, const unsigned char *missing);
 WEFT_API int weft_panel_borrow_regressor(weft_panel *panel, const char *name,
                                          const double *values, const unsigned char *missing);
+
+/** Borrowing the unit ids (since 0.3.0), for large data: as
+ *  weft_panel_set_units_number and weft_panel_set_units_text, except that the panel
+ *  reads the caller's arrays in place, for as long as the borrowed columns above
+ *  (until weft_panel_free() of this panel and weft_model_free() of every model made
+ *  from it). Text ids come as one buffer of bytes, with no pointer per row: the id
+ *  of row i is the n = offsets[i + 1] - offsets[i] bytes at bytes + offsets[i] (UTF-8,
+ *  no NUL needed; offsets has n_rows + 1 entries that never decrease). A row is
+ *  missing when missing[i] != 0 or its id is empty. Ids are compared as exact bytes.
+ *  Errors: WEFT_EINVAL if panel, ids or offsets is NULL, or units were already set;
+ *  WEFT_EDATA if the offsets decrease, or bytes is NULL while some id is not empty. */
+WEFT_API int weft_panel_borrow_units_number(weft_panel *panel, const double *ids,
+                                            const unsigned char *missing);
+WEFT_API int weft_panel_borrow_units_text(weft_panel *panel, const char *bytes,
+                                          const size_t *offsets, const unsigned char *missing);
 
 /** Observation weights (since 0.3.0; CONVENTIONS "Observation weights"): one weight
  *  per row (n_rows values). Weighted least squares in every estimator but random;

@@ -213,6 +213,50 @@ int weft_panel_set_units_number(weft_panel* panel, const double* ids,
     });
 }
 
+int weft_panel_borrow_units_number(weft_panel* panel, const double* ids, const unsigned char* missing) {
+    return guarded(WEFT_EDATA, [&] {
+        const char* fn = "weft_panel_borrow_units_number";
+        weft_panel& p = check_panel(panel, fn);
+        require(ids, fn, "ids");
+        require_unset(p.has_units, fn, "units");
+        weft::UnitColumn units;
+        units.name = "units";
+        units.borrowed_numbers = ids;
+        units.borrowed_missing = missing;
+        units.borrowed_size = p.n_rows;
+        p.writable().units = std::move(units);
+        p.has_units = true;
+        return WEFT_OK;
+    });
+}
+
+int weft_panel_borrow_units_text(weft_panel* panel, const char* bytes, const size_t* offsets,
+                                 const unsigned char* missing) {
+    return guarded(WEFT_EDATA, [&] {
+        const char* fn = "weft_panel_borrow_units_text";
+        weft_panel& p = check_panel(panel, fn);
+        require(offsets, fn, "offsets");
+        require_unset(p.has_units, fn, "units");
+        // offsets never decrease, so that every id is a range of bytes
+        for (std::size_t i = 0; i < p.n_rows; ++i)
+            if (offsets[i + 1] < offsets[i])
+                throw weft::Error("units: offsets[" + std::to_string(i + 1) + "] is smaller than offsets[" +
+                                  std::to_string(i) + "]; give each row's id as bytes[offsets[i] .. offsets[i + 1])");
+        if (bytes == nullptr && offsets[p.n_rows] != offsets[0])
+            throw weft::Error("units: bytes is NULL but the offsets give ids of nonzero length; pass the id bytes");
+        weft::UnitColumn units;
+        units.name = "units";
+        static const char no_bytes = '\0';
+        units.borrowed_bytes = bytes != nullptr ? bytes : &no_bytes;
+        units.borrowed_offsets = offsets;
+        units.borrowed_missing = missing;
+        units.borrowed_size = p.n_rows;
+        p.writable().units = std::move(units);
+        p.has_units = true;
+        return WEFT_OK;
+    });
+}
+
 int weft_panel_set_periods(weft_panel* panel, const double* periods, const unsigned char* missing) {
     return set_periods(panel, periods, missing, "weft_panel_set_periods", false);
 }

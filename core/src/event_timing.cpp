@@ -166,7 +166,7 @@ void check_treatment_within_pairs(const EventData& data, const std::vector<std::
     std::map<std::pair<std::string, double>, std::size_t> first_row;
     for (std::size_t r = 0; r < used.size(); ++r) {
         if (!used[r]) continue;
-        const std::string unit = data.units.is_text() ? data.units.text[r] : format_number(data.units.numbers[r]);
+        const std::string unit = data.units.is_text() ? std::string(data.units.id_text(r)) : format_number(data.units.number_data()[r]);
         auto [it, fresh] = first_row.emplace(std::make_pair(unit, periods.value(r)), r);
         if (!fresh && data.treatment.value(it->second) != data.treatment.value(r))
             throw Error("treatment varies inside unit \"" + unit + "\" in period " + format_number(periods.value(r)) +

@@ -212,24 +212,49 @@ void mark_sorted_rows(const Context& ctx, LeanRows& out, std::vector<std::uint8_
     }
 }
 
+// The fd differences ordered by their later input row, so that a block reads the
+// columns forward whatever the sheet's order (period-major: both rows of a difference
+// move forward together).
+void fd_pairs_by_input_row(const Context& ctx, LeanRows& out) {
+    fd_pairs(ctx, out.later, out.earlier, out.pairs_lost);
+    if (std::is_sorted(out.later.begin(), out.later.end())) return;
+    constexpr std::size_t none = std::numeric_limits<std::size_t>::max();
+    std::vector<std::size_t> earlier_of;
+    assign_large(earlier_of, ctx.used.size(), none);
+    for (std::size_t k = 0; k < out.later.size(); ++k) earlier_of[out.later[k]] = out.earlier[k];
+    std::size_t k = 0;
+    for (std::size_t r = 0; r < earlier_of.size(); ++r) {
+        if (earlier_of[r] == none) continue;
+        out.later[k] = r;
+        out.earlier[k] = earlier_of[r];
+        ++k;
+    }
+}
+
 }  // namespace
 
 LeanRows lean_rows(const Context& ctx) {
     const PanelIndex& index = ctx.index;
     LeanRows out;
-    out.sorted = index.in_input_order;
+    // pooled: the equation rows are the used rows, read in input order whatever it is
+    out.sorted = index.in_input_order || ctx.spec.estimator == Estimator::pooled;
+    out.units_in_order = index.in_input_order;
     // the equation rows' units and periods
     std::vector<std::uint8_t> unit_seen(index.n_units(), 0), period_seen(index.n_periods(), 0);
     if (out.sorted) {
         mark_sorted_rows(ctx, out, unit_seen, period_seen);
     } else {
         if (ctx.spec.estimator == Estimator::fd)
-            fd_pairs(ctx, out.later, out.earlier, out.pairs_lost);
+            fd_pairs_by_input_row(ctx, out);
         else
             out.later = used_rows_in_order(ctx);
+        std::int32_t last_unit = -1;
         for (std::size_t r : out.later) {
             ++out.count;
-            unit_seen[static_cast<std::size_t>(index.unit_of_row[r])] = 1;
+            const std::int32_t unit = index.unit_of_row[r];
+            if (unit < last_unit) out.units_in_order = false;
+            last_unit = unit;
+            unit_seen[static_cast<std::size_t>(unit)] = 1;
             period_seen[static_cast<std::size_t>(index.period_of_row[r])] = 1;
         }
     }

@@ -128,7 +128,8 @@ struct LeanRows {
     std::vector<std::uint8_t> is_row;
     std::vector<std::size_t> later, earlier;
     std::size_t count = 0, units = 0, periods = 0, pairs_lost = 0;
-    bool sorted = false;
+    bool sorted = false;          // is_row marks the equation rows (else later, earlier list them)
+    bool units_in_order = true;   // the equation rows come with unit numbers that never decrease
 };
 LeanRows lean_rows(const Context& ctx);
 

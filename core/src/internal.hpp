@@ -26,6 +26,13 @@ void check_column(const Column& column, std::size_t n_rows, const char* expected
 PanelIndex make_index(const UnitColumn& units, const Column& periods, std::size_t first_row_number,
                       bool reject_duplicates, std::size_t* duplicate_count);
 
+// The rows `valid` (ascending input rows with a unit, and a period when periods is
+// given) in (unit, period, row) order, by hashing each id once and a counting sort by
+// unit (panel_hash.cpp). Fills unit_of_row, unit_labels and unit_start of index, and
+// sets period_of_row to -1 everywhere (the caller places rows on the grid).
+std::vector<std::size_t> group_rows_hashed(const UnitColumn& units, const Column* periods,
+                                           const std::vector<std::size_t>& valid, PanelIndex& index);
+
 }  // namespace weft::detail
 
 #include <Eigen/Core>
@@ -115,14 +122,15 @@ struct LeanInput {
     const PanelIndex& index;
     const std::vector<std::string>& regressor_names;
     // The equation rows, given one of two ways:
-    //  - input sorted by unit and period: is_row[r] = 1 when input row r is an equation
-    //    row (fd: the difference of rows r - 1 and r);
+    //  - input sorted by unit and period (pooled: any order): is_row[r] = 1 when input
+    //    row r is an equation row (fd: the difference of rows r - 1 and r);
     //  - otherwise later (the input row of each equation row; fd: the later row) and,
     //    for fd, earlier (the earlier row of each difference).
     const std::vector<std::uint8_t>* is_row = nullptr;
     const std::vector<std::size_t>* later = nullptr;
     const std::vector<std::size_t>* earlier = nullptr;
     std::size_t count = 0;    // equation rows N
+    bool units_in_order = true;   // their unit numbers never decrease (else the score pass holds every unit's sums)
     std::size_t units = 0;    // distinct units among them
     std::size_t periods = 0;  // distinct grid periods among them
 };

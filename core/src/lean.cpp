@@ -551,7 +551,9 @@ public:
         by_period_ = kind_ == Covariance::cluster_period || kind_ == Covariance::dk;
         per_row_ = kind_ == Covariance::hc0 || kind_ == Covariance::hc1;
         periods_ = in.index.n_periods();   // by period: the grid periods
-        if (by_unit_) window_ = MatrixXd::Zero(p, kUnitWindow);
+        // units out of order (a sheet sorted by period): one window over every unit
+        window_size_ = in.units_in_order ? kUnitWindow : std::max<Index>(1, static_cast<Index>(in.index.n_units()));
+        if (by_unit_) window_ = MatrixXd::Zero(p, window_size_);
         if (by_period_) period_sums_ = MatrixXd::Zero(static_cast<Index>(periods_), p);
         ids_.resize(static_cast<std::size_t>(block));
         id_of_row_ = by_unit_ ? in.index.unit_of_row.data() : in.index.period_of_row.data();
@@ -712,7 +714,7 @@ private:
             double* sum = no_unit_.data();
             if (id >= 0) {
                 if (id < window_base_) units_in_order_ = false;   // not expected: see above
-                if (id >= window_base_ + kUnitWindow) {
+                if (id >= window_base_ + window_size_) {
                     flush_window();
                     window_base_ = id;
                 }
@@ -782,7 +784,8 @@ private:
     const VectorXd& shift_;
     bool by_unit_ = false, by_period_ = false, per_row_ = false;
     std::size_t periods_ = 0;
-    MatrixXd window_;       // p x kUnitWindow
+    Index window_size_ = kUnitWindow;
+    MatrixXd window_;       // p x window_size_
     std::int32_t window_base_ = 0, window_used_ = 0;   // ids window_base_ .. window_base_ + window_used_ - 1
     MatrixXd period_sums_;  // periods x p: score sums per grid period
     std::vector<std::int32_t> ids_;

@@ -89,6 +89,7 @@ std::optional<detail::OutcomeSums> solve_streaming(const detail::Context& ctx, F
         if (ctx.spec.estimator == Estimator::fd) in.earlier = &rows.earlier;
     }
     in.count = rows.count;
+    in.units_in_order = rows.units_in_order;
     in.units = rows.units;
     in.periods = rows.periods;
     std::optional<detail::LeanResult> result = detail::lean_equation(in);

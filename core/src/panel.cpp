@@ -86,21 +86,44 @@ void check_column(const Column& column, std::size_t n_rows, const char* expected
 namespace {
 
 void check_units(const UnitColumn& units, std::size_t first_row_number) {
-    if (units.is_text() && !units.numbers.empty())
+    if (!units.borrowed() && !units.text.empty() && !units.numbers.empty())
         throw Error("units: give the unit ids either as text or as numbers, not both");
     const std::size_t n = units.size();
-    if (!units.missing.empty() && units.missing.size() != n)
-        throw Error("units: the missing-value mask has " + std::to_string(units.missing.size()) +
+    if (units.mask_size() != 0 && units.mask_size() != n)
+        throw Error("units: the missing-value mask has " + std::to_string(units.mask_size()) +
                     " entries for " + std::to_string(n) + " rows");
     if (!units.is_text()) {
         for (std::size_t i = 0; i < n; ++i) {
             if (units.is_missing(i)) continue;
-            if (!std::isfinite(units.numbers[i]))
+            if (!std::isfinite(units.number_data()[i]))
                 throw Error("units, row " + std::to_string(first_row_number + i) +
                             ": the unit id is not a finite number; leave the cell blank or "
                             "enter an id");
         }
     }
+}
+
+// Ids whose rows are already in (unit, period) order: number and label the units.
+void label_sorted(const UnitColumn& units, const std::vector<std::size_t>& rows, PanelIndex& index) {
+    const std::size_t n = units.size();
+    assign_large(index.unit_of_row, n, std::int32_t{-1});
+    assign_large(index.period_of_row, n, std::int32_t{-1});
+    index.unit_labels.clear();
+    index.unit_start.clear();
+    std::int32_t id = -1;
+    for (std::size_t k = 0; k < rows.size(); ++k) {
+        const std::size_t i = rows[k];
+        const bool first = units.is_text() ? k == 0 || units.id_text(rows[k - 1]) != units.id_text(i)
+                                           : k == 0 || units.number_data()[rows[k - 1]] != units.number_data()[i];
+        if (first) {
+            index.unit_start.push_back(k);
+            index.unit_labels.push_back(units.is_text() ? std::string(units.id_text(i))
+                                                        : format_number(units.number_data()[i]));
+            ++id;
+        }
+        index.unit_of_row[i] = id;
+    }
+    index.unit_start.push_back(rows.size());
 }
 
 // Sort rows with a valid unit (and period, when given) by (unit, period, row).
@@ -110,7 +133,7 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
     const std::size_t n = units.size();
     std::vector<std::size_t> rows;
     reserve_large(rows, n);
-    const bool none_missing = !units.is_text() && units.missing.empty() &&
+    const bool none_missing = !units.is_text() && units.mask() == nullptr &&
                               (periods == nullptr || periods->mask() == nullptr);
     if (none_missing) {
         rows.resize(n);
@@ -122,74 +145,39 @@ std::vector<std::size_t> group_rows(const UnitColumn& units, const Column* perio
             rows.push_back(i);
         }
     }
-    auto period_of = [&](std::size_t i) { return periods != nullptr ? periods->value(i) : 0.0; };
-    bool sorted = true;   // the rows came in (unit, period) order
+    index.n_rows = n;
+    bool sorted = false;   // the rows came in (unit, period) order
     if (!units.is_text() && periods != nullptr) {
-        // numeric ids with periods, the common case: the same order as below, tested
-        // pair by pair without the general comparator (input usually comes sorted)
-        const double* u = units.numbers.data();
+        // numeric ids with periods: input usually comes sorted, tested pair by pair
+        const double* u = units.number_data();
         const double* p = periods->data();
-        auto less = [&](std::size_t a, std::size_t b) {
-            if (u[a] != u[b]) return u[a] < u[b];
-            if (p[a] != p[b]) return p[a] < p[b];
-            return a < b;
-        };
+        sorted = true;
         for (std::size_t k = 1; k < rows.size() && sorted; ++k) {
             const std::size_t a = rows[k - 1], b = rows[k];
             sorted = u[a] < u[b] || (u[a] == u[b] && (p[a] < p[b] || (p[a] == p[b] && a < b)));
         }
-        if (!sorted) std::sort(rows.begin(), rows.end(), less);
-    } else if (units.is_text()) {
-        auto less = [&](std::size_t a, std::size_t b) {
-            const int c = units.text[a].compare(units.text[b]);
-            if (c != 0) return c < 0;
-            const double pa = period_of(a), pb = period_of(b);
-            if (pa != pb) return pa < pb;
-            return a < b;
-        };
-        sorted = std::is_sorted(rows.begin(), rows.end(), less);
-        if (!sorted) std::sort(rows.begin(), rows.end(), less);
+    }
+    if (units.is_text() && periods != nullptr) {
+        // text ids already in (unit, period) order: the same test, stopping at the first
+        // row out of place (at once for a sheet sorted by period)
+        sorted = true;
+        for (std::size_t k = 1; k < rows.size() && sorted; ++k) {
+            const std::size_t a = rows[k - 1], b = rows[k];
+            const int c = units.id_text(a).compare(units.id_text(b));
+            const double pa = periods->value(a), pb = periods->value(b);
+            sorted = c < 0 || (c == 0 && (pa < pb || (pa == pb && a < b)));
+        }
+    }
+    if (sorted) {
+        label_sorted(units, rows, index);
     } else {
-        auto less = [&](std::size_t a, std::size_t b) {
-            const double ua = units.numbers[a], ub = units.numbers[b];
-            if (ua != ub) return ua < ub;
-            const double pa = period_of(a), pb = period_of(b);
-            if (pa != pb) return pa < pb;
-            return a < b;
-        };
-        sorted = std::is_sorted(rows.begin(), rows.end(), less);
-        if (!sorted) std::sort(rows.begin(), rows.end(), less);
+        // any other order or text ids: hashed once, counting sort (panel_hash.cpp)
+        rows = group_rows_hashed(units, periods, rows, index);
+        sorted = rows.size() == n;
+        for (std::size_t k = 0; k < rows.size() && sorted; ++k) sorted = rows[k] == k;
     }
     // nothing skipped and nothing moved: rows_by_unit is 0, 1, ..., n - 1
     index.in_input_order = periods != nullptr && sorted && rows.size() == n;
-    index.n_rows = n;
-    assign_large(index.unit_of_row, n, std::int32_t{-1});
-    assign_large(index.period_of_row, n, std::int32_t{-1});
-    index.unit_labels.clear();
-    index.unit_start.clear();
-    auto new_unit = [&](std::size_t k, const std::string& label) {
-        index.unit_start.push_back(k);
-        index.unit_labels.push_back(label);
-    };
-    if (units.is_text()) {
-        for (std::size_t k = 0; k < rows.size(); ++k) {
-            const std::size_t i = rows[k];
-            if (k == 0 || units.text[rows[k - 1]] != units.text[i]) new_unit(k, units.text[i]);
-            index.unit_of_row[i] = static_cast<std::int32_t>(index.unit_labels.size() - 1);
-        }
-    } else {
-        const double* u = units.numbers.data();
-        std::int32_t id = -1;
-        for (std::size_t k = 0; k < rows.size(); ++k) {
-            const std::size_t i = rows[k];
-            if (k == 0 || u[rows[k - 1]] != u[i]) {
-                new_unit(k, format_number(u[i]));
-                ++id;
-            }
-            index.unit_of_row[i] = id;
-        }
-    }
-    index.unit_start.push_back(rows.size());
     return rows;
 }
 
@@ -211,9 +199,9 @@ Error duplicate_pair(const std::string& unit, double period, std::size_t first_r
 bool index_sorted_numbers(const UnitColumn& units, const Column& periods, PanelIndex& index,
                           bool reject_duplicates, std::size_t& duplicates) {
     const std::size_t n = units.size();
-    if (units.is_text() || !units.missing.empty() || periods.mask() != nullptr || periods.size() != n || n == 0)
+    if (units.is_text() || units.mask() != nullptr || periods.mask() != nullptr || periods.size() != n || n == 0)
         return false;
-    const double* u = units.numbers.data();
+    const double* u = units.number_data();
     const double* p = periods.data();
     index.n_rows = n;
     assign_large(index.unit_of_row, n, std::int32_t{0});

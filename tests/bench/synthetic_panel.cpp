@@ -155,6 +155,40 @@ SyntheticPanel shuffle_rows(const SyntheticPanel& panel, std::uint64_t seed) {
   return out;
 }
 
+namespace {
+
+SyntheticPanel reorder(const SyntheticPanel& panel, const std::vector<std::size_t>& order) {
+  SyntheticPanel out = panel;
+  const std::size_t columns = panel.regressors + 1;
+  for (std::size_t r = 0; r < panel.rows; ++r) {
+    for (std::size_t c = 0; c < columns; ++c)
+      out.block[c * panel.rows + r] = panel.block[c * panel.rows + order[r]];
+    out.unit[r] = panel.unit[order[r]];
+    if (!panel.outcome_missing.empty()) out.outcome_missing[r] = panel.outcome_missing[order[r]];
+    if (!panel.regressor_missing.empty()) out.regressor_missing[r] = panel.regressor_missing[order[r]];
+    out.period[r] = panel.period[order[r]];
+  }
+  return out;
+}
+
+}  // namespace
+
+SyntheticPanel period_major(const SyntheticPanel& panel) {
+  std::vector<std::size_t> order(panel.rows);
+  std::iota(order.begin(), order.end(), std::size_t{0});
+  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) {
+    if (panel.period[a] != panel.period[b]) return panel.period[a] < panel.period[b];
+    return panel.unit[a] < panel.unit[b];
+  });
+  return reorder(panel, order);
+}
+
+std::string unit_text(double u) {
+  char buffer[40];
+  std::snprintf(buffer, sizeof buffer, "Branch %05.0f", u);
+  return buffer;
+}
+
 SyntheticPanel pad_with_unusable_rows(const SyntheticPanel& panel, std::size_t extra) {
   SyntheticPanel out;
   out.rows = panel.rows + extra;

@@ -30,6 +30,9 @@ struct SyntheticPanel {
   std::vector<double> block;  // rows x (1 + regressors), column-major: y, x1..xK
   std::vector<double> unit;   // unit id per row (1..units)
   std::vector<double> period; // period per row (a year, 2001..)
+  // Unit ids as text (unit_text of unit), when the benchmark hands text ids over;
+  // empty: the numbers in unit are handed over.
+  std::vector<std::string> unit_names;
   // Missing flags (1 = a blank cell); empty means none is missing. regressor_missing
   // applies to x1 only.
   std::vector<unsigned char> outcome_missing;
@@ -39,7 +42,7 @@ struct SyntheticPanel {
   const double* regressor(std::size_t k) const { return block.data() + (k + 1) * rows; }
   // Bytes of the input a host holds: the block plus the two index columns.
   std::size_t input_bytes() const {
-    return (block.size() + unit.size() + period.size()) * sizeof(double);
+    return (block.size() + unit.size() + period.size()) * sizeof(double) + unit_names.size() * sizeof(std::string);
   }
 };
 
@@ -57,6 +60,13 @@ std::vector<unsigned char> presence(const PanelShape& shape);
 
 // Same rows in a seeded random order.
 SyntheticPanel shuffle_rows(const SyntheticPanel& panel, std::uint64_t seed);
+
+// Same rows sorted by period, then unit (a sheet laid out one period after another).
+SyntheticPanel period_major(const SyntheticPanel& panel);
+
+// The text form of unit id u as a sheet might hold it ("Branch 00017"): ids in text
+// order sort as the numbers do.
+std::string unit_text(double u);
 
 // The balanced panel with the rows absent from the unbalanced layout kept but their
 // outcome marked missing: a conforming library must fit it exactly as the

@@ -73,7 +73,13 @@ WeftFit run_weft(const SyntheticPanel& data, const std::string& model_text, bool
     weft_panel* p;
     ~PanelGuard() { weft_panel_free(p); }
   } panel_guard{panel};
-  check(weft_panel_set_units_number(panel, data.unit.data(), nullptr), "weft_panel_set_units_number");
+  if (data.unit_names.empty()) {
+    check(weft_panel_set_units_number(panel, data.unit.data(), nullptr), "weft_panel_set_units_number");
+  } else {
+    std::vector<const char*> ids(data.rows);
+    for (std::size_t r = 0; r < data.rows; ++r) ids[r] = data.unit_names[r].c_str();
+    check(weft_panel_set_units_text(panel, ids.data(), nullptr), "weft_panel_set_units_text");
+  }
   check((copy ? weft_panel_set_periods : weft_panel_borrow_periods)(panel, data.period.data(), nullptr),
         "weft_panel_set_periods");
   check((copy ? weft_panel_set_outcome : weft_panel_borrow_outcome)(panel, "y", data.outcome(),
@@ -129,6 +135,8 @@ struct Options {
   std::vector<std::string> estimators{"pooled", "fd", "within"};
   std::vector<std::string> ses{"classical", "hc1", "cluster", "dk"};
   std::vector<Layout> layouts{Layout::balanced, Layout::unbalanced};
+  std::vector<std::string> orders{"unit"};    // unit: sorted by unit, then period; period: by period, then unit
+  std::vector<std::string> ids{"number"};     // number or text unit ids
   int reps = 0;  // 0: 7 below 500,000 rows, 5 above
   bool memory = true;
   bool smoke = false;
@@ -170,6 +178,7 @@ void usage() {
   std::puts(
       "usage: weft_bench [--sizes 100k,1M] [--estimators pooled,fd,within]\n"
       "                  [--se classical,hc1,cluster,dk] [--layouts balanced,unbalanced]\n"
+      "                  [--orders unit,period] [--ids number,text]\n"
       "                  [--reps N] [--no-memory] [--copy] [--weighted] [--json FILE]\n"
       "       weft_bench --smoke          checks only (seconds; used by ctest, label bench)\n"
       "       weft_bench --write-csv FILE [--sizes S] [--layouts L]   write one dataset\n"
@@ -184,7 +193,10 @@ void usage() {
       "--weighted: run every case also with observation weights (weft_panel_borrow_weights,\n"
       "  or set with --copy), reported in the row below it with se \"<se> w\"\n"
       "--copy: copy the columns into the panel (weft_panel_set_*) instead of borrowing\n"
-      "       them in place (weft_panel_borrow_*, the default)");
+      "       them in place (weft_panel_borrow_*, the default)\n"
+      "--orders: rows sorted by unit, then period (unit, the default) or by period, then\n"
+      "       unit (period); --ids: unit ids handed over as numbers (the default) or as\n"
+      "       text (\"Branch 00017\")");
 }
 
 Options parse_options(int argc, char** argv) {
@@ -207,6 +219,14 @@ Options parse_options(int argc, char** argv) {
         else if (w == "unbalanced") o.layouts.push_back(Layout::unbalanced);
         else throw std::invalid_argument("unknown layout '" + w + "': use balanced or unbalanced");
       }
+    } else if (arg == "--orders") {
+      o.orders = split_list(value());
+      for (const auto& w : o.orders)
+        if (w != "unit" && w != "period") throw std::invalid_argument("unknown order '" + w + "': use unit or period");
+    } else if (arg == "--ids") {
+      o.ids = split_list(value());
+      for (const auto& w : o.ids)
+        if (w != "number" && w != "text") throw std::invalid_argument("unknown ids '" + w + "': use number or text");
     } else if (arg == "--reps") o.reps = std::stoi(value());
     else if (arg == "--no-memory") o.memory = false;
     else if (arg == "--copy") g_copy_columns = true;
@@ -333,6 +353,7 @@ int run_smoke() {
 
 struct Row {
   std::string size, layout, estimator, se;
+  std::string order = "unit", ids = "number";
   std::size_t rows = 0, units = 0, periods = 0, regressors = 0;
   double input_bytes = 0;
   double floor_seconds = 0, floor_cpu = 0;
@@ -343,7 +364,7 @@ struct Row {
 };
 
 void print_header() {
-  std::printf("%-6s %-10s %8s %-6s %-9s %8s %8s %8s %7s %7s %8s %7s %7s %8s %7s\n", "size", "layout", "rows",
+  std::printf("%-6s %-22s %8s %-6s %-9s %8s %8s %8s %7s %7s %8s %7s %7s %8s %7s\n", "size", "layout", "rows",
               "estim", "se", "wall_s", "cpu_s", "cpu/Mrow", "x_floor", "x_fl_cpu", "panel_s", "fit_s", "fit_fl",
               "peak_MiB", "peak/in");
 }
@@ -355,8 +376,9 @@ void print_row(const Row& r) {
     std::snprintf(peak, sizeof peak, "%.0f", r.peak_bytes / 1048576.0);
     std::snprintf(ratio, sizeof ratio, "%.2f", r.peak_bytes / r.input_bytes);
   }
-  std::printf("%-6s %-10s %8zu %-6s %-9s %8.4f %8.4f %8.4f %7.1f %7.1f %8.4f %7.4f %7.1f %8s %7s\n", r.size.c_str(),
-              r.layout.c_str(), r.rows, r.estimator.c_str(), r.se.c_str(), r.total_seconds, r.cpu_seconds,
+  const std::string layout = r.layout + "/" + r.order + "/" + r.ids;
+  std::printf("%-6s %-22s %8zu %-6s %-9s %8.4f %8.4f %8.4f %7.1f %7.1f %8.4f %7.4f %7.1f %8s %7s\n", r.size.c_str(),
+              layout.c_str(), r.rows, r.estimator.c_str(), r.se.c_str(), r.total_seconds, r.cpu_seconds,
               r.cpu_seconds / millions, r.total_seconds / r.floor_seconds, r.cpu_seconds / r.floor_cpu,
               r.panel_seconds, r.fit_seconds, r.fit_cpu / r.floor_cpu, peak, ratio);
   std::fflush(stdout);
@@ -367,7 +389,8 @@ void write_json(const std::string& path, const std::vector<Row>& rows) {
   out << "{\n  \"weft_version\": \"" << weft_version_text() << "\",\n  \"runs\": [\n";
   for (std::size_t i = 0; i < rows.size(); ++i) {
     const Row& r = rows[i];
-    out << "    {\"size\": \"" << r.size << "\", \"layout\": \"" << r.layout << "\", \"estimator\": \""
+    out << "    {\"size\": \"" << r.size << "\", \"layout\": \"" << r.layout << "\", \"order\": \"" << r.order
+        << "\", \"ids\": \"" << r.ids << "\", \"estimator\": \""
         << r.estimator << "\", \"se\": \"" << r.se << "\", \"rows\": " << r.rows
         << ", \"units\": " << r.units << ", \"periods\": " << r.periods
         << ", \"regressors\": " << r.regressors << ", \"reps\": " << r.reps
@@ -398,7 +421,15 @@ int run_timings(const Options& o) {
   print_header();
   for (const Size& size : o.sizes) {
     for (Layout layout : o.layouts) {
-      const SyntheticPanel data = make_panel({size.units, size.periods, size.regressors, layout, 20261202});
+      for (const auto& order : o.orders) {
+      for (const auto& ids : o.ids) {
+      // one panel held at a time, so that the peak memory counts the input once
+      SyntheticPanel data = make_panel({size.units, size.periods, size.regressors, layout, 20261202});
+      if (order == "period") data = period_major(data);
+      if (ids == "text") {
+        data.unit_names.reserve(data.rows);
+        for (double u : data.unit) data.unit_names.push_back(unit_text(u));
+      }
       const int reps = o.reps > 0 ? o.reps : (data.rows > 500000 ? 5 : 7);
       // --weighted: positive weights between 0.5 and 1.5, fixed by the row number
       std::vector<double> weights;
@@ -407,16 +438,17 @@ int run_timings(const Options& o) {
           weights.push_back(0.5 + static_cast<double>((i * 2654435761u) % 1000u) / 1000.0);
       double sink = 0;
       const Timing floor = time_median(reps, [&] { sink += floor_pass(data); });
-      std::printf("%-6s %-10s %8zu floor  %-9s %8.4f %8.4f %8.4f %7.1f %7.1f   (checksum %.3g)\n", size.name.c_str(),
-                  layout_name(layout).c_str(), data.rows, "", floor.wall, floor.cpu,
+      std::printf("%-6s %-22s %8zu floor  %-9s %8.4f %8.4f %8.4f %7.1f %7.1f   (checksum %.3g)\n", size.name.c_str(),
+                  (layout_name(layout) + "/" + order + "/" + ids).c_str(), data.rows, "", floor.wall, floor.cpu,
                   floor.cpu / (static_cast<double>(data.rows) / 1e6), 1.0, 1.0, sink);
       for (const auto& estimator : o.estimators) {
         for (const auto& se : o.ses)
         for (bool weighted : {false, true}) {
           if (weighted && !o.weighted) continue;
           const std::vector<double>* w_ptr = weighted ? &weights : nullptr;
-          Row row{size.name, layout_name(layout), estimator, weighted ? se + " w" : se, data.rows, size.units,
-                  size.periods, size.regressors, static_cast<double>(data.input_bytes()), floor.wall, floor.cpu};
+          Row row{size.name, layout_name(layout), estimator, weighted ? se + " w" : se, order, ids, data.rows,
+                  size.units, size.periods, size.regressors, static_cast<double>(data.input_bytes()), floor.wall,
+                  floor.cpu};
           const std::string model = estimator + " " + se;
           if (o.memory) {
             const MemoryProbe probe = probe_peak_memory([&] { run_weft(data, model, g_copy_columns, w_ptr); });
@@ -445,6 +477,8 @@ int run_timings(const Options& o) {
           print_row(row);
           rows.push_back(row);
         }
+      }
+      }
       }
     }
   }

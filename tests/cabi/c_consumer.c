@@ -1213,6 +1213,63 @@ static void test_model_misuse(const grunfeld *g)
     weft_panel_free(p);
 }
 
+/* Unit ids borrowed in place (weft_panel_borrow_units_*): numbers, and text as one
+ * buffer of bytes with offsets ("firm 1", ..., no NUL between them). The same fits as
+ * the copied ids, bit for bit, and the pooled reference values; a model made from
+ * the panel keeps reading them after the panel is freed. */
+static void test_borrowed_units(const grunfeld *g)
+{
+    static char bytes[MAX_ROWS * 16];
+    static size_t offsets[MAX_ROWS + 1];
+    const char *const texts[] = {"pooled cluster", "fd dk", "within cluster", "random hc1"};
+    double table[3 * WEFT_COEF_COLUMNS], table_c[3 * WEFT_COEF_COLUMNS];
+    size_t i, t, at = 0;
+    int kind;
+    weft_panel *p, *copied;
+    weft_model *m, *mc;
+
+    for (i = 0; i < g->n; ++i) {
+        offsets[i] = at;
+        at += (size_t)sprintf(bytes + at, "firm %d", (int)g->firm[i]);
+    }
+    offsets[g->n] = at;
+    for (kind = 0; kind < 2; ++kind) {
+        OK(weft_panel_new(&p, g->n, 2));
+        if (kind == 0) OK(weft_panel_borrow_units_number(p, g->firm, NULL));
+        else OK(weft_panel_borrow_units_text(p, bytes, offsets, NULL));
+        OK(weft_panel_borrow_periods(p, g->year, NULL));
+        OK(weft_panel_borrow_outcome(p, "inv", g->inv, NULL));
+        OK(weft_panel_borrow_regressor(p, "value", g->value, NULL));
+        OK(weft_panel_borrow_regressor(p, "capital", g->capital, NULL));
+        copied = make_panel(g, kind, NULL, NULL);
+        for (t = 0; t < sizeof texts / sizeof texts[0]; ++t) {
+            m = fit_text(p, texts[t]);
+            mc = fit_text(copied, texts[t]);
+            OK(weft_model_coefficients(m, table, 3 * WEFT_COEF_COLUMNS, NULL));
+            OK(weft_model_coefficients(mc, table_c, 3 * WEFT_COEF_COLUMNS, NULL));
+            for (i = 0; i < 2 * WEFT_COEF_COLUMNS; ++i)
+                CHECK(table[i] == table_c[i] || (isnan(table[i]) && isnan(table_c[i])));
+            weft_model_free(m);
+            weft_model_free(mc);
+        }
+        weft_panel_free(copied);
+        m = fit_text(p, "pooled cluster");
+        weft_panel_free(p); /* the model keeps reading the borrowed ids */
+        NEAR(value_of(m, "estimate", "capital"), 0.23067848873197, "P results.coef.capital");
+        NEAR(value_of(m, "se", "capital"), 0.08496711263554, "P results.se.CR1.capital");
+        weft_model_free(m);
+    }
+    OK(weft_panel_new(&p, g->n, 2));
+    EXPECT_ERROR(weft_panel_borrow_units_text(p, bytes, NULL, NULL), WEFT_EINVAL, "offsets is NULL");
+    EXPECT_ERROR(weft_panel_borrow_units_number(p, NULL, NULL), WEFT_EINVAL, "ids is NULL");
+    offsets[3] = offsets[2] - 1;
+    EXPECT_ERROR(weft_panel_borrow_units_text(p, bytes, offsets, NULL), WEFT_EDATA, "offsets[3] is smaller");
+    offsets[3] = offsets[4];   /* row 2's id runs into row 3's; row 3's is empty: missing */
+    OK(weft_panel_borrow_units_text(p, bytes, offsets, NULL));
+    EXPECT_ERROR(weft_panel_borrow_units_number(p, g->firm, NULL), WEFT_EINVAL, "already set");
+    weft_panel_free(p);
+}
+
 /* The Grunfeld panel with periods, outcome and regressors borrowed in place. */
 static weft_panel *make_borrowed_panel(const grunfeld *g, const unsigned char *inv_missing)
 {
@@ -1671,6 +1728,7 @@ int main(int argc, char **argv)
     test_units_masks_and_rows(&g);
     test_model_misuse(&g);
     test_borrowed(&g);
+    test_borrowed_units(&g);
     test_bootstrap(&g);
     test_cr2(&g);
     test_weights(&g, argv[1]);

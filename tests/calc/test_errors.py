@@ -172,12 +172,20 @@ class ErrorMessageTests(unittest.TestCase):
         self.assertTrue(all(v == "" for v in rows[3][2:]), rows[3])
 
     def test_error_cell_in_a_range(self):
-        """An error cell in a range stops Calc before it calls the add-in (Err:504 in
-        Calc 7.4; CALC-ADDIN.md). The add-in cannot see it; it must not crash."""
+        """An error cell in a range: the range arrives as its cells (issue 20), so the
+        message names the cell and its error (FUNCTIONS.md "Errors in cells"). Through
+        the value-array method of 0.3 workbooks the office still refuses the call
+        (Err:504 in Calc 7.4; CALC-ADDIN.md): no crash either way."""
         c = self.out.getCellByPosition(10, 0)
         c.setFormula(f"=WEFT.ESTIMATES({ranges('err')})")
         self.doc.calculateAll()
-        self.assertEqual(c.getError(), 504)
+        self.assertEqual(c.getError(), 0)
+        self.assertIn("err!C6", c.getString())
+        self.assertIn("#DIV/0!", c.getString())
+        old = self.out.getCellByPosition(11, 0)
+        old.setFormula(f"=ORG.WEFT.CALCFUNCTIONS.ESTIMATES({ranges('err')})")
+        self.doc.calculateAll()
+        self.assertEqual(old.getError(), 504)
 
     def test_office_survives_random_cells(self):
         """Seeded random junk in the four ranges and every argument: each result is a

@@ -37,7 +37,7 @@ def make_stale(path_in, path_out, fake="12345"):
                 replaced += 1
                 cell = re.sub(r'office:value="[^"]*"', f'office:value="{fake}"', m.group(0))
                 return re.sub(r"<text:p>.*?</text:p>", f"<text:p>{fake}</text:p>", cell)
-            text = re.sub(r'<table:table-cell table:formula="of:=ORG\.WEFT\.CALCFUNCTIONS\.VALUE'
+            text = re.sub(r'<table:table-cell table:formula="of:=ORG\.WEFT\.CALCFUNCTIONS\.(?:SHEET)?VALUE'
                           r'\([^"]*"[^>]*>.*?</table:table-cell>', stale, text)
             data = text.encode()
         out.append((info, data))

@@ -104,7 +104,7 @@ class WeightCellTests(unittest.TestCase):
         unknown = sheet.getCellByPosition(40, 6)
         unknown.setFormula(f'=WEFT.FIT({RANGES};"pooled weights=pop")')
         doc.calculateAll()
-        expect = [(text_cell, ['weights "w"', "row 6", "holds text"]),
+        expect = [(text_cell, ['weights "w"', "AD6", "holds text"]),
                   (neg_cell, ['weights "w", row 10', "negative"]),
                   (hausman, ["WEFT.HAUSMAN does not take weights"]),
                   (effects, ["WEFT.EFFECTS does not take weights"]),

@@ -27,6 +27,7 @@
 #include <iterator>
 #include <utility>
 #include <string>
+#include <string_view>
 #include <vector>
 
 namespace weft {
@@ -76,11 +77,40 @@ struct UnitColumn {
     std::vector<double> numbers;        // unit ids as numbers (exactly one is filled)
     std::vector<std::uint8_t> missing;  // empty = nothing missing
 
-    bool is_text() const { return !text.empty(); }
-    std::size_t size() const { return is_text() ? text.size() : numbers.size(); }
+    // Borrowed storage (weft_panel_borrow_units_* in the C interface; the host keeps
+    // the arrays valid and unchanged while any user of this column lives): numbers, or
+    // text as one buffer of bytes where the id of row i is
+    // bytes[offsets[i] .. offsets[i + 1]) (offsets has size() + 1 entries). The owned
+    // vectors are then empty. Readers use size(), is_text(), number_data(), id_text()
+    // and is_missing(), which serve both kinds.
+    const double* borrowed_numbers = nullptr;
+    const char* borrowed_bytes = nullptr;
+    const std::size_t* borrowed_offsets = nullptr;
+    const std::uint8_t* borrowed_missing = nullptr;
+    std::size_t borrowed_size = 0;
+
+    bool borrowed() const { return borrowed_numbers != nullptr || borrowed_offsets != nullptr; }
+    bool is_text() const { return borrowed() ? borrowed_offsets != nullptr : !text.empty(); }
+    std::size_t size() const {
+        if (borrowed()) return borrowed_size;
+        return is_text() ? text.size() : numbers.size();
+    }
+    const double* number_data() const { return borrowed_numbers != nullptr ? borrowed_numbers : numbers.data(); }
+    std::string_view id_text(std::size_t row) const {
+        if (borrowed_offsets != nullptr)
+            return {borrowed_bytes + borrowed_offsets[row], borrowed_offsets[row + 1] - borrowed_offsets[row]};
+        return text[row];
+    }
+    // The mask, or null when nothing is missing; mask_size() its entries (0 = none).
+    const std::uint8_t* mask() const {
+        if (borrowed()) return borrowed_missing;
+        return missing.empty() ? nullptr : missing.data();
+    }
+    std::size_t mask_size() const { return borrowed() ? (borrowed_missing ? borrowed_size : 0) : missing.size(); }
     bool is_missing(std::size_t row) const {
-        if (!missing.empty() && missing[row] != 0) return true;
-        return is_text() && text[row].empty();
+        const std::uint8_t* m = mask();
+        if (m != nullptr && m[row] != 0) return true;
+        return is_text() && id_text(row).empty();
     }
 };
 

@@ -39,20 +39,28 @@ d <- d[order(d$firm, d$year), ]
 wmean <- function(v, g, w) ave(v * w, g, FUN = sum) / ave(w, g, FUN = sum)
 
 # Cameron, Gelbach & Miller (2011): V_unit + V_period - V_cells (CR0 each), one factor
-# Gmin/(Gmin-1) (N-1)/(N-K), negative eigenvalues of the matrix clipped to 0 (min_eig is
-# the smallest before clipping).
-clip_psd <- function(V) {
-  e <- eigen((V + t(V)) / 2, symmetric = TRUE)
-  W <- e$vectors %*% (pmax(e$values, 0) * t(e$vectors))
+# Gmin/(Gmin-1) (N-1)/(N-K); negative eigenvalues set to 0 in the scaled basis
+# S = D V D, D = diag(V_unit + V_period)^-1/2, and only when S's smallest eigenvalue is
+# below -1e-10 of its largest (weft's CONVENTIONS.md "Decisions that must not depend on
+# units of measure"; the same rule as tests/oracle/oracle_reference.R). min_eig is V's
+# smallest eigenvalue before clipping.
+clip_psd <- function(V, ref) {
+  D <- 1 / sqrt(abs(diag(ref)))
+  S <- D * t(D * V)
+  e <- eigen((S + t(S)) / 2, symmetric = TRUE)
+  W <- V
+  if (min(e$values) / max(abs(e$values)) < -1e-10)
+    W <- (e$vectors %*% (pmax(e$values, 0) * t(e$vectors))) / outer(D, D)
   dimnames(W) <- dimnames(V)
   W
 }
 cluster_both <- function(fit, unit, period) {
   N <- nobs(fit); K <- length(coef(fit))
-  v0 <- vcovCL(fit, cluster = unit, type = "HC0", cadjust = FALSE) +
-    vcovCL(fit, cluster = period, type = "HC0", cadjust = FALSE) - vcovHC(fit, type = "HC0")
+  vu <- vcovCL(fit, cluster = unit, type = "HC0", cadjust = FALSE)
+  vp <- vcovCL(fit, cluster = period, type = "HC0", cadjust = FALSE)
+  v0 <- vu + vp - vcovHC(fit, type = "HC0")
   Gmin <- min(length(unique(unit)), length(unique(period)))
-  v0 * Gmin / (Gmin - 1) * (N - 1) / (N - K)
+  list(V = v0 * Gmin / (Gmin - 1) * (N - 1) / (N - K), ref = vu + vp)
 }
 
 # One family: the covariance of the explicit equation `fit` (df as CONVENTIONS.md).
@@ -73,8 +81,8 @@ families <- function(fit, unit, period, absorbed = 0, dummy = NULL) {
     Tn <- length(unique(period))
     out[["cluster-period"]] <- list(V = vcovCL(fit, cluster = period, type = "HC1"), df = Tn - 1)
     both <- cluster_both(fit, unit, period)
-    out[["cluster-both"]] <- list(V = clip_psd(both), df = min(G, Tn) - 1,
-                                  min_eig = min(eigen(both, only.values = TRUE)$values))
+    out[["cluster-both"]] <- list(V = clip_psd(both$V, both$ref), df = min(G, Tn) - 1,
+                                  min_eig = min(eigen(both$V, only.values = TRUE)$values))
     # Driscoll & Kraay (1998) as sandwich's panel Newey-West: period sums of the scores,
     # Bartlett weights 1 - j/(L+1), L = floor(T^(1/4)), no finite-sample factor
     L <- floor(Tn^(1 / 4))
