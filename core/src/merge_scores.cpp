@@ -218,8 +218,12 @@ Fit finish_fit(const PartialSums& sums, const PartialScores& scores) {
     ysums.sum = sums.y_sum;
     ysums.raw = sums.y_raw;
     ysums.centred = sums.y_moments.caa;
+    // the index holds the global grid only (the rows stay in the partitions): the joint
+    // test of all regressors reads it to leave out the period terms
+    fit.index.grid = sums.grid;
     detail::term_inference(fit, ysums);
     detail::fit_statistics(fit, ysums);
+    detail::joint_statistics(fit);
     if (sums.spec.estimator == Estimator::within) {
         fit.r2_overall = squared_correlation(scores.level_rows);
         fit.r2_between = squared_correlation(scores.level_means);
