@@ -922,9 +922,12 @@ WEFT_API int weft_event_warning(const weft_event *event, size_t index, const cha
 /* ------------------------------------------------------------------------------
  * Fit over partitions (0.3.0): the same fit computed on partitions of whole units
  * (e.g. inside a distributed engine) and merged. Pooled, fd and within, with or
- * without period indicators; standard errors classical, hc0, hc1, cluster,
- * cluster0, cluster-period and dk. Other models are refused (WEFT_EMODEL) with a
- * message naming what to use.
+ * without period indicators, weighted or not; standard errors classical, hc0, hc1,
+ * cluster, cluster0, cluster-period and dk. Other models are refused (WEFT_EMODEL)
+ * with a message naming what to use. Weights come as for weft_model_new: the panel's
+ * weight column (weft_panel_set_weights) or the model word weights=NAME, the same way
+ * in every partition (merging a weighted partial with an unweighted one is WEFT_EDATA);
+ * a weighted within fit gives no squared correlations at levels, as on one machine.
  *
  *   grid    : sorted distinct periods of every row of every partition (the host
  *             merges them first; the periods as the panel holds them)

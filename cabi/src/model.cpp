@@ -86,7 +86,7 @@ std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
     if (cov.kind == weft::Covariance::dk && cov.dk_lag >= 0 && se.find("lag") == std::string::npos)
         se += ", lag " + std::to_string(cov.dk_lag);
     text("standard errors", se);
-    if (fit.equation.weights.size() != 0) {
+    if (fit.weighted) {
         text("weights", fit.spec.weights.empty() ? std::string("the panel's weight column")
                                                  : "regressor column " + fit.spec.weights);
         number("rows with weight 0", static_cast<double>(fit.rows_zero_weight));
@@ -212,7 +212,7 @@ std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
         return is_cluster(fit.covariance.kind) ? std::optional<double>(static_cast<double>(fit.covariance.clusters))
                                                : std::nullopt;
     if (what == "rows-dropped") return static_cast<double>(fit.rows_dropped);
-    if (what == "weighted") return fit.equation.weights.size() != 0 ? 1.0 : 0.0;
+    if (what == "weighted") return fit.weighted ? 1.0 : 0.0;
     if (what == "rows-zero-weight") return static_cast<double>(fit.rows_zero_weight);
     if (what == "sigma2-idiosyncratic" || what == "sigma2-unit" || what == "theta") {
         if (!fit.random_effects) return std::nullopt;

@@ -18,7 +18,7 @@ using Eigen::Index;
 namespace {
 
 constexpr char kMagic[8] = {'W', 'E', 'F', 'T', 'P', 'A', 'R', 'T'};
-constexpr std::uint32_t kFormatVersion = 1;
+constexpr std::uint32_t kFormatVersion = 2;  // 2: the weights (spec, label, zero-weight rows, weight sum, change squares)
 constexpr std::size_t kHeader = 8 + 4 + 4 + 8;
 
 std::uint64_t fnv1a(const std::uint8_t* p, std::size_t n) {
@@ -202,15 +202,21 @@ std::vector<std::uint8_t> to_bytes(const PartialSums& s) {
     w.u64(s.spec.period_effects ? 1 : 0);
     w.u64(s.spec.intercept ? 1 : 0);
     w.f64(s.spec.level);
+    w.text(s.spec.weights);
+    w.text(s.weight_label);
     w.numbers(s.grid);
     w.texts(s.regressor_names);
     w.texts(s.candidates);
     w.u64(static_cast<std::uint64_t>(static_cast<std::int64_t>(s.intercept_column)));
-    for (std::uint64_t v : {s.rows_input, s.rows_used, s.units_used, s.units_in_equation, s.pairs_lost, s.n}) w.u64(v);
+    for (std::uint64_t v : {s.rows_input, s.rows_used, s.units_used, s.units_in_equation, s.pairs_lost, s.n,
+                            s.rows_zero_weight})
+        w.u64(v);
+    w.ld(s.weight_sum);
     w.numbers(s.period_used);
     w.numbers(s.period_rows);
     w.numbers(s.raw_squares);
     w.numbers(s.level_squares);
+    w.numbers(s.change_squares);
     w.numbers(std::vector<double>(s.shift.data(), s.shift.data() + s.shift.size()));
     w.matrix(s.r);
     w.ld(s.y_sum);
@@ -255,16 +261,21 @@ PartialSums sums_from_bytes(const std::uint8_t* bytes, std::size_t size) {
     s.spec.period_effects = r.u64() != 0;
     s.spec.intercept = r.u64() != 0;
     s.spec.level = r.f64();
+    s.spec.weights = r.text();
+    s.weight_label = r.text();
     s.grid = r.numbers<double>();
     s.regressor_names = r.texts();
     s.candidates = r.texts();
     s.intercept_column = static_cast<int>(static_cast<std::int64_t>(r.u64()));
-    for (std::uint64_t* v : {&s.rows_input, &s.rows_used, &s.units_used, &s.units_in_equation, &s.pairs_lost, &s.n})
+    for (std::uint64_t* v : {&s.rows_input, &s.rows_used, &s.units_used, &s.units_in_equation, &s.pairs_lost, &s.n,
+                             &s.rows_zero_weight})
         *v = r.u64();
+    s.weight_sum = r.ld();
     s.period_used = r.numbers<std::uint8_t>();
     s.period_rows = r.numbers<std::uint64_t>();
     s.raw_squares = r.numbers<long double>();
     s.level_squares = r.numbers<long double>();
+    s.change_squares = r.numbers<long double>();
     const std::vector<double> shift = r.numbers<double>();
     s.shift = Eigen::Map<const Eigen::VectorXd>(shift.data(), static_cast<Index>(shift.size()));
     s.r = r.matrix();
@@ -277,7 +288,8 @@ PartialSums sums_from_bytes(const std::uint8_t* bytes, std::size_t size) {
                                  (s.spec.period_effects ? s.grid.size() : 0);
     if (s.intercept_column < -1 || s.intercept_column > 0 || p != expected || s.spec.dk_lag < -1 ||
         !(s.spec.level > 0 && s.spec.level < 1) ||
-        s.level_squares.size() != s.regressor_names.size() ||
+        s.level_squares.size() != s.regressor_names.size() || s.change_squares.size() != s.regressor_names.size() ||
+        (!s.spec.weights.empty() && s.weight_label.empty()) ||
         s.period_used.size() != s.grid.size() || s.period_rows.size() != s.grid.size() ||
         s.raw_squares.size() != p || static_cast<std::size_t>(s.shift.size()) != p + 1 ||
         static_cast<std::size_t>(s.r.rows()) != p + 1 || static_cast<std::size_t>(s.r.cols()) != p + 1)

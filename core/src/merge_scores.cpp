@@ -60,13 +60,22 @@ void level_moments(const PanelData& data, const detail::PartitionEquation& pe, c
 
 PartialScores accumulate_scores(const PanelData& data, const PartialSums& merged) {
     const detail::MergedEstimates est = detail::merged_estimates(merged);
-    const detail::PartitionEquation pe = detail::partition_equation(data, merged.spec, merged.grid);
+    detail::PartitionEquation pe = detail::partition_equation(data, merged.spec, merged.grid);
     if (pe.candidates != merged.candidates)
         throw Error("the partition's regressors differ from those of the merged sums; give every partition the same "
                     "columns in the same order");
+    if (pe.weight_label != merged.weight_label)
+        throw Error("the partition's weights (" + (pe.weight_label.empty() ? std::string("none") : pe.weight_label) +
+                    ") differ from those of the merged sums (" +
+                    (merged.weight_label.empty() ? std::string("none") : merged.weight_label) +
+                    "); give every partition the same weight column in both passes");
+    PartialScores out_levels;
+    // within at levels (unweighted only: a weighted fit gives no squared correlations there)
+    if (merged.spec.estimator == Estimator::within && pe.weight.size() == 0) level_moments(data, pe, est, out_levels);
+    detail::weigh_partition(pe);
     const Covariance kind = merged.spec.covariance;
     const Index N = pe.X.rows(), K = static_cast<Index>(est.kept.size());
-    PartialScores out;
+    PartialScores out = std::move(out_levels);
     out.n = static_cast<std::uint64_t>(N);
     out.gradient.assign(static_cast<std::size_t>(K), 0.0L);
     out.gram.assign(static_cast<std::size_t>(K * K), 0.0L);
@@ -78,7 +87,7 @@ PartialScores accumulate_scores(const PanelData& data, const PartialSums& merged
     VectorXd z(K), unit_sum = VectorXd::Zero(K);
     for (Index i = 0; i < N; ++i) {
         detail::working_row(est, pe.X, i, zl);
-        long double r = static_cast<long double>(pe.y[i]) - est.shift_y;
+        long double r = static_cast<long double>(pe.y[i]) - est.shift_y * detail::intercept_value(est, pe.X, i);
         for (Index k = 0; k < K; ++k) r -= est.c_work[k] * zl[k];
         out.ssr += r * r;
         for (Index k = 0; k < K; ++k) {
@@ -100,7 +109,6 @@ PartialScores accumulate_scores(const PanelData& data, const PartialSums& merged
             ++out.units;
         }
     }
-    if (merged.spec.estimator == Estimator::within) level_moments(data, pe, est, out);
     return out;
 }
 
@@ -199,7 +207,13 @@ Fit finish_fit(const PartialSums& sums, const PartialScores& scores) {
     const MatrixXd meat = merged_meat(sums.spec, scores, clusters, lag);
     fit.rows_input = static_cast<std::size_t>(sums.rows_input);
     fit.rows_used = static_cast<std::size_t>(sums.rows_used);
-    fit.rows_dropped = fit.rows_input - fit.rows_used;
+    fit.rows_zero_weight = static_cast<std::size_t>(sums.rows_zero_weight);
+    fit.rows_dropped = fit.rows_input - fit.rows_used - fit.rows_zero_weight;
+    fit.weighted = !sums.weight_label.empty();
+    if (sums.rows_zero_weight > 0)  // choose_rows' words
+        fit.warnings.push_back(sums.weight_label + ": " + std::to_string(sums.rows_zero_weight) +
+                               (sums.rows_zero_weight == 1 ? " row has" : " rows have") + " weight 0 and " +
+                               (sums.rows_zero_weight == 1 ? "is" : "are") + " left out of the estimated equation");
     fit.n_units = static_cast<std::size_t>(sums.units_used);
     for (std::uint8_t v : sums.period_used) fit.n_periods += v;
     fit.equation = std::move(eq);
@@ -224,7 +238,7 @@ Fit finish_fit(const PartialSums& sums, const PartialScores& scores) {
     detail::term_inference(fit, ysums);
     detail::fit_statistics(fit, ysums);
     detail::joint_statistics(fit);
-    if (sums.spec.estimator == Estimator::within) {
+    if (sums.spec.estimator == Estimator::within && !fit.weighted) {
         fit.r2_overall = squared_correlation(scores.level_rows);
         fit.r2_between = squared_correlation(scores.level_means);
     }

@@ -20,6 +20,9 @@ namespace {
 
 // Up-front refusals with the words fit_model uses.
 void check_sums(const PartialSums& s) {
+    if (s.rows_used == 0 && s.rows_zero_weight > 0)
+        throw Error("no usable rows: every row with its values present has weight 0 (" + s.weight_label +
+                    "); give at least some rows a positive weight");
     if (s.rows_used == 0)
         throw Error("no usable rows: every row misses the outcome, a regressor, the unit or the period");
     if (s.spec.estimator == Estimator::fd && s.n == 0)
@@ -39,7 +42,7 @@ std::vector<Index> builder_columns(const PartialSums& s, std::vector<DroppedTerm
     const bool transforms = spec.estimator == Estimator::fd || spec.estimator == Estimator::within;
     for (std::size_t j = 0; j < s.regressor_names.size(); ++j) {
         const Index col = c0 + static_cast<Index>(j);
-        const long double diffs = s.raw_squares[static_cast<std::size_t>(col)], levels = s.level_squares[j];
+        const long double diffs = s.change_squares[j], levels = s.level_squares[j];
         if (transforms && s.n > 0 && (diffs == 0 || std::sqrt(diffs) <= 1e-13L * std::sqrt(levels))) {
             const std::string& name = s.regressor_names[j];
             dropped.push_back({name, DropReason::no_within_variation,
@@ -91,7 +94,7 @@ std::vector<Index> drop_constant(const PartialSums& s, const MatrixXd& r, const 
         const std::string& name = s.candidates[static_cast<std::size_t>(j)];
         if (j == s.intercept_column) {
             keep.push_back(static_cast<Index>(k));
-            kept_scale.push_back(std::sqrt(static_cast<double>(s.n)));
+            kept_scale.push_back(std::sqrt(static_cast<double>(s.weight_sum)));  // the intercept column's length
             continue;
         }
         const double raw = static_cast<double>(s.raw_squares[static_cast<std::size_t>(j)]);

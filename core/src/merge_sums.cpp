@@ -16,14 +16,17 @@ using Eigen::Index;
 using Eigen::MatrixXd;
 using Eigen::VectorXd;
 
-void Comoments::add(long double a, long double b) {
-    n += 1;
+void Comoments::add(long double a, long double b, long double weight) {
+    // West (1979), the weighted form of the running update
+    if (weight == 0) return;
+    const long double total = static_cast<long double>(n) + weight;
     const long double da = a - mean_a, db = b - mean_b;
-    mean_a += da / static_cast<long double>(n);
-    mean_b += db / static_cast<long double>(n);
-    caa += da * (a - mean_a);
-    cbb += db * (b - mean_b);
-    cab += da * (b - mean_b);
+    mean_a += da * weight / total;
+    mean_b += db * weight / total;
+    caa += weight * da * (a - mean_a);
+    cbb += weight * db * (b - mean_b);
+    cab += weight * da * (b - mean_b);
+    n = static_cast<double>(total);
 }
 
 void Comoments::merge(const Comoments& o) {
@@ -45,9 +48,6 @@ void Comoments::merge(const Comoments& o) {
 
 std::string partition_refusal(const ModelSpec& spec) {
     const char* one_machine = "fit it on one machine (weft.fit, weft_model_new)";
-    if (!spec.weights.empty())
-        return "weights=" + spec.weights + ": observation weights are not fitted over partitions yet; fit without "
-               "weights there, or " + one_machine;
     if (spec.estimator == Estimator::between || spec.estimator == Estimator::random)
         return std::string(to_word(spec.estimator)) +
                " is not fitted over partitions (its equation needs every unit mean at once); use pooled, fd or "
@@ -99,8 +99,9 @@ PanelIndex global_index(const PanelData& data, const std::vector<double>& grid) 
     return index;
 }
 
-// Listwise row choice (as choose_rows, without its refusal of an empty partition).
-void choose_partition_rows(const PanelData& data, PartitionEquation& pe) {
+// Listwise row choice, then the weights' (as choose_rows, without its refusal of an
+// empty partition).
+void choose_partition_rows(const PanelData& data, const WeightSource& weights, PartitionEquation& pe) {
     const std::size_t n_rows = data.outcome.size();
     pe.used.assign(n_rows, 0);
     for (std::size_t i = 0; i < n_rows; ++i) pe.used[i] = pe.index.unit_of_row[i] >= 0 ? 1 : 0;
@@ -110,6 +111,10 @@ void choose_partition_rows(const PanelData& data, PartitionEquation& pe) {
     };
     drop(data.outcome);
     for (const Column& x : data.regressors) drop(x);
+    if (weights.column != nullptr) {
+        pe.weight_label = weights.label;
+        pe.rows_zero_weight = weigh_rows(*weights.column, weights.label, data.first_row_number, pe.used);
+    }
     pe.period_used.assign(pe.index.grid.size(), 0);
     std::vector<std::uint8_t> unit_seen(pe.index.n_units(), 0);
     for (std::size_t i = 0; i < n_rows; ++i) {
@@ -135,48 +140,64 @@ void name_candidates(const ModelSpec& spec, PartitionEquation& pe) {
 }
 
 // Rows (later, earlier) of the equation: pooled and within take the used rows; fd the
-// differences of adjacent grid periods.
-void fill_levels_or_differences(const PanelData& data, const ModelSpec& spec, const std::vector<std::size_t>& later,
+// differences of adjacent grid periods. Weighted: each row's weight (fd: the later row's).
+void fill_levels_or_differences(const Context& ctx, const std::vector<std::size_t>& later,
                                 const std::vector<std::size_t>* earlier, PartitionEquation& pe) {
     const Index N = static_cast<Index>(later.size());
     const Index c0 = pe.intercept_column >= 0 ? 1 : 0;
-    const Index k_reg = static_cast<Index>(pe.regressor_names.size());
+    const Index k_reg = static_cast<Index>(ctx.k_reg);
     pe.X = MatrixXd::Zero(N, static_cast<Index>(pe.candidates.size()));
     pe.y.resize(N);
     pe.unit.resize(static_cast<std::size_t>(N));
     pe.period.resize(static_cast<std::size_t>(N));
     pe.level_squares.assign(static_cast<std::size_t>(k_reg), 0.0L);
+    if (ctx.weights != nullptr) pe.weight.resize(N);
+    const Column& outcome = ctx.data.outcome;
     for (Index i = 0; i < N; ++i) {
         const std::size_t a = later[static_cast<std::size_t>(i)];
         if (c0) pe.X(i, 0) = 1.0;
         for (Index j = 0; j < k_reg; ++j) {
-            const double v = data.regressors[static_cast<std::size_t>(j)].value(a);
-            pe.X(i, c0 + j) = earlier ? v - data.regressors[static_cast<std::size_t>(j)].value((*earlier)[static_cast<std::size_t>(i)]) : v;
+            const Column& x = *ctx.regressors[static_cast<std::size_t>(j)];
+            const double v = x.value(a);
+            pe.X(i, c0 + j) = earlier ? v - x.value((*earlier)[static_cast<std::size_t>(i)]) : v;
             pe.level_squares[static_cast<std::size_t>(j)] += static_cast<long double>(v) * v;
         }
-        pe.y[i] = earlier ? data.outcome.value(a) - data.outcome.value((*earlier)[static_cast<std::size_t>(i)])
-                          : data.outcome.value(a);
+        pe.y[i] = earlier ? outcome.value(a) - outcome.value((*earlier)[static_cast<std::size_t>(i)]) : outcome.value(a);
         pe.unit[static_cast<std::size_t>(i)] = pe.index.unit_of_row[a];
         pe.period[static_cast<std::size_t>(i)] = pe.index.period_of_row[a];
-        if (spec.period_effects) pe.X(i, c0 + k_reg + pe.period[static_cast<std::size_t>(i)]) = 1.0;
+        if (ctx.spec.period_effects) pe.X(i, c0 + k_reg + pe.period[static_cast<std::size_t>(i)]) = 1.0;
+        if (ctx.weights != nullptr) pe.weight[i] = ctx.weights->value(a);
     }
 }
 
-// within: the levels rows demeaned by unit (period indicators too).
+// within: the levels rows demeaned by unit (period indicators too), with weighted unit
+// means when weighted (sum w v / sum w, as build_within).
 void demean_by_unit(PartitionEquation& pe) {
+    const bool weighted = pe.weight.size() != 0;
     for (std::size_t r = 0; r < pe.runs.begin.size(); ++r) {
         const Index b = static_cast<Index>(pe.runs.begin[r]), e = static_cast<Index>(pe.runs.end[r]);
-        for (Index j = 0; j < pe.X.cols(); ++j) {
+        long double total = 0;
+        for (Index i = b; i < e; ++i) total += weighted ? pe.weight[i] : 1.0;
+        auto demean = [&](auto&& column) {
             long double sum = 0;
-            for (Index i = b; i < e; ++i) sum += pe.X(i, j);
-            const double mean = static_cast<double>(sum / static_cast<long double>(e - b));
-            for (Index i = b; i < e; ++i) pe.X(i, j) -= mean;
-        }
-        long double sum = 0;
-        for (Index i = b; i < e; ++i) sum += pe.y[i];
-        const double mean = static_cast<double>(sum / static_cast<long double>(e - b));
-        for (Index i = b; i < e; ++i) pe.y[i] -= mean;
+            for (Index i = b; i < e; ++i) sum += (weighted ? pe.weight[i] : 1.0L) * column(i);
+            const double mean = static_cast<double>(sum / total);
+            for (Index i = b; i < e; ++i) column(i) -= mean;
+        };
+        for (Index j = 0; j < pe.X.cols(); ++j) demean([&](Index i) -> double& { return pe.X(i, j); });
+        demean([&](Index i) -> double& { return pe.y[i]; });
     }
+}
+
+// Per regressor: the sum of squares of its equation column before the weights.
+void note_change_squares(PartitionEquation& pe) {
+    const Index c0 = pe.intercept_column >= 0 ? 1 : 0;
+    pe.change_squares.assign(pe.regressor_names.size(), 0.0L);
+    for (std::size_t j = 0; j < pe.regressor_names.size(); ++j)
+        for (Index i = 0; i < pe.X.rows(); ++i) {
+            const long double v = pe.X(i, c0 + static_cast<Index>(j));
+            pe.change_squares[j] += v * v;
+        }
 }
 
 }  // namespace
@@ -184,14 +205,12 @@ void demean_by_unit(PartitionEquation& pe) {
 PartitionEquation partition_equation(const PanelData& data, const ModelSpec& spec, const std::vector<double>& grid) {
     const std::string refusal = partition_refusal(spec);
     if (!refusal.empty()) throw Error(refusal);
-    if (data.weights.size() > 0)
-        throw Error("observation weights are not fitted over partitions yet; leave the weights column out, or fit "
-                    "it on one machine (weft.fit, weft_model_new)");
     check_inputs(data, spec, false);
+    const WeightSource weights = weight_source(data, spec);
     PartitionEquation pe;
     pe.index = global_index(data, grid);
-    choose_partition_rows(data, pe);
-    const Context ctx = make_context(data, spec, pe.index, pe.used, weight_source(data, spec));
+    choose_partition_rows(data, weights, pe);
+    const Context ctx = make_context(data, spec, pe.index, pe.used, weights);
     pe.regressor_names = ctx.regressor_names;
     name_candidates(spec, pe);
     pe.rows = used_rows_in_order(ctx);
@@ -201,12 +220,20 @@ PartitionEquation partition_equation(const PanelData& data, const ModelSpec& spe
         std::size_t lost = 0;
         fd_pairs(ctx, later, earlier, lost);
         pe.pairs_lost = lost;
-        fill_levels_or_differences(data, spec, later, &earlier, pe);
+        fill_levels_or_differences(ctx, later, &earlier, pe);
     } else {
-        fill_levels_or_differences(data, spec, pe.rows, nullptr, pe);
+        fill_levels_or_differences(ctx, pe.rows, nullptr, pe);
         if (spec.estimator == Estimator::within) demean_by_unit(pe);
     }
+    note_change_squares(pe);
     return pe;
+}
+
+void weigh_partition(PartitionEquation& pe) {
+    if (pe.weight.size() == 0) return;
+    const Eigen::ArrayXd root = pe.weight.array().sqrt();
+    if (pe.X.cols() > 0) pe.X.array().colwise() *= root;
+    pe.y.array() *= root;
 }
 
 }  // namespace detail
@@ -232,6 +259,51 @@ void shift_factor(MatrixXd& r, const VectorXd& s_old, const VectorXd& s_new) {
 
 }  // namespace
 
+namespace {
+
+// The equation's outcome sums before the weights go into the rows: sum w y, sum w y^2
+// and the weighted centred moments (weight 1 each when unweighted; weighted_outcome_sums).
+void note_outcome(const detail::PartitionEquation& pe, PartialSums& s) {
+    const bool weighted = pe.weight.size() != 0;
+    for (Index i = 0; i < pe.y.size(); ++i) {
+        const long double w = weighted ? pe.weight[i] : 1.0L, y = pe.y[i];
+        s.y_sum += w * y;
+        s.y_raw += w * y * y;
+        s.weight_sum += w;
+        s.y_moments.add(y, y, w);
+    }
+}
+
+// The centred R factor of [X, y] (rows already times sqrt(w)): with an intercept column c,
+// column j is centred as x_j - s_j c with s_j = c'x_j / c'c (the solver's centring; the
+// mean when c is all ones).
+void centred_factor(const detail::PartitionEquation& pe, PartialSums& s) {
+    const Index N = pe.X.rows(), p = pe.X.cols();
+    s.raw_squares.assign(static_cast<std::size_t>(p), 0.0L);
+    MatrixXd w(N, p + 1);
+    w.leftCols(p) = pe.X;
+    w.col(p) = pe.y;
+    s.shift = VectorXd::Zero(p + 1);
+    const int c = s.intercept_column;
+    long double cc = 0;
+    if (c >= 0)
+        for (Index i = 0; i < N; ++i) cc += static_cast<long double>(w(i, c)) * w(i, c);
+    for (Index j = 0; j < p + 1; ++j) {
+        long double cross = 0, squares = 0;
+        for (Index i = 0; i < N; ++i) {
+            if (c >= 0) cross += static_cast<long double>(w(i, c)) * w(i, j);
+            squares += static_cast<long double>(w(i, j)) * w(i, j);
+        }
+        if (j < p) s.raw_squares[static_cast<std::size_t>(j)] = squares;
+        if (c >= 0 && j != c && N > 0) s.shift[j] = static_cast<double>(cross / cc);
+    }
+    if (c >= 0)
+        for (Index j = 1; j < p + 1; ++j) w.col(j) -= s.shift[j] * w.col(c);
+    s.r = r_of(w);
+}
+
+}  // namespace
+
 PartialSums accumulate_sums(const PanelData& data, const ModelSpec& spec, const std::vector<double>& grid) {
     detail::PartitionEquation pe = detail::partition_equation(data, spec, grid);
     PartialSums s;
@@ -242,11 +314,14 @@ PartialSums accumulate_sums(const PanelData& data, const ModelSpec& spec, const 
     s.intercept_column = pe.intercept_column;
     s.rows_input = data.outcome.size();
     s.rows_used = pe.rows_used;
+    s.rows_zero_weight = pe.rows_zero_weight;
+    s.weight_label = pe.weight_label;
     s.units_used = pe.units_used;
     s.pairs_lost = pe.pairs_lost;
     s.period_used = pe.period_used;
     s.level_squares = pe.level_squares;
-    const Index N = pe.X.rows(), p = pe.X.cols();
+    s.change_squares = pe.change_squares;
+    const Index N = pe.X.rows();
     s.n = static_cast<std::uint64_t>(N);
     s.period_rows.assign(grid.size(), 0);
     std::vector<std::uint8_t> unit_seen(pe.index.n_units(), 0);
@@ -255,29 +330,9 @@ PartialSums accumulate_sums(const PanelData& data, const ModelSpec& spec, const 
         unit_seen[static_cast<std::size_t>(pe.unit[static_cast<std::size_t>(i)])] = 1;
     }
     s.units_in_equation = static_cast<std::uint64_t>(std::count(unit_seen.begin(), unit_seen.end(), 1));
-    s.raw_squares.assign(static_cast<std::size_t>(p), 0.0L);
-    MatrixXd w(N, p + 1);
-    w.leftCols(p) = pe.X;
-    w.col(p) = pe.y;
-    s.shift = VectorXd::Zero(p + 1);
-    for (Index j = 0; j < p + 1; ++j) {
-        long double sum = 0, squares = 0;
-        for (Index i = 0; i < N; ++i) {
-            sum += w(i, j);
-            squares += static_cast<long double>(w(i, j)) * w(i, j);
-        }
-        if (j < p) s.raw_squares[static_cast<std::size_t>(j)] = squares;
-        if (j == p) {
-            s.y_sum = sum;
-            s.y_raw = squares;
-        }
-        if (s.intercept_column >= 0 && j != s.intercept_column && N > 0)
-            s.shift[j] = static_cast<double>(sum / static_cast<long double>(N));
-    }
-    for (Index i = 0; i < N; ++i) s.y_moments.add(pe.y[i], pe.y[i]);
-    if (s.intercept_column >= 0)
-        for (Index j = 1; j < p + 1; ++j) w.col(j).array() -= s.shift[j];
-    s.r = r_of(w);
+    note_outcome(pe, s);
+    detail::weigh_partition(pe);
+    centred_factor(pe, s);
     return s;
 }
 
@@ -289,7 +344,13 @@ void merge_sums(PartialSums& into, const PartialSums& o) {
         throw Error("the partials were made on different period grids; give every partition the same grid");
     if (into.candidates != o.candidates)
         throw Error("the partials have different regressors; give every partition the same columns in the same order");
-    const double n_a = static_cast<double>(into.n), n_b = static_cast<double>(o.n);
+    if (into.weight_label != o.weight_label)
+        throw Error("the partials were made with different weights (" +
+                    (into.weight_label.empty() ? std::string("none") : into.weight_label) + " and " +
+                    (o.weight_label.empty() ? std::string("none") : o.weight_label) +
+                    "); give every partition the same weight column");
+    // the centring points merge as means weighted by the weight sums (counts when unweighted)
+    const double n_a = static_cast<double>(into.weight_sum), n_b = static_cast<double>(o.weight_sum);
     if (o.n > 0) {
         if (into.n == 0) {
             into.shift = o.shift;
@@ -309,8 +370,10 @@ void merge_sums(PartialSums& into, const PartialSums& o) {
         }
     }
     into.n += o.n;
+    into.weight_sum += o.weight_sum;
     into.rows_input += o.rows_input;
     into.rows_used += o.rows_used;
+    into.rows_zero_weight += o.rows_zero_weight;
     into.units_used += o.units_used;
     into.units_in_equation += o.units_in_equation;
     into.pairs_lost += o.pairs_lost;
@@ -320,6 +383,7 @@ void merge_sums(PartialSums& into, const PartialSums& o) {
     }
     for (std::size_t j = 0; j < into.raw_squares.size(); ++j) into.raw_squares[j] += o.raw_squares[j];
     for (std::size_t j = 0; j < into.level_squares.size(); ++j) into.level_squares[j] += o.level_squares[j];
+    for (std::size_t j = 0; j < into.change_squares.size(); ++j) into.change_squares[j] += o.change_squares[j];
     into.y_sum += o.y_sum;
     into.y_raw += o.y_raw;
     into.y_moments.merge(o.y_moments);

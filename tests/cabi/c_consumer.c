@@ -1709,6 +1709,63 @@ static void test_partials(const grunfeld *g)
     for (i = 0; i < 3; ++i) weft_panel_free(parts[i]);
 }
 
+/* The weighted fit over partitions: Grunfeld with the weight column of
+ * grunfeld_weighted.csv, 3 partitions of whole firms, every partial through its bytes;
+ * within cluster against tests/data/panel/weights_reference.json (R lm(weights = ) with
+ * sandwich 3.0.2, within.cluster.se), and a weighted partial refuses an unweighted one. */
+static weft_partial *merged_pass(weft_panel *const *parts, const char *model, const double *grid,
+                                 const weft_partial *sums)
+{
+    weft_partial *merged = NULL, *one = NULL, *copy;
+    size_t i;
+    for (i = 0; i < 3; ++i) {
+        if (sums == NULL) OK(weft_partial_sums(&one, parts[i], model, grid, 20));
+        else OK(weft_partial_scores(&one, parts[i], sums));
+        copy = through_bytes(one);
+        weft_partial_free(one);
+        if (merged == NULL) merged = copy;
+        else { OK(weft_partial_merge(merged, copy)); weft_partial_free(copy); }
+    }
+    return merged;
+}
+
+static void test_partials_weighted(const grunfeld *g, const char *grunfeld_path)
+{
+    static const double within_se[] = {0.0173401463384039, 0.056109605975211};
+    static const size_t cuts[] = {0, 60, 100, 200};
+    static double w[MAX_ROWS];
+    double grid[20], table[2 * WEFT_COEF_COLUMNS];
+    weft_panel *parts[3], *plain;
+    weft_partial *sums, *scores, *other = NULL;
+    weft_model *m = NULL;
+    weft_summary_item item;
+    size_t i, needed = 0;
+    CHECK(read_weights(grunfeld_path, w));
+    for (i = 0; i < 20; ++i) grid[i] = 1935.0 + (double)i;
+    for (i = 0; i < 3; ++i) {
+        parts[i] = partition_panel(g, cuts[i], cuts[i + 1]);
+        OK(weft_panel_set_weights(parts[i], "w", w + cuts[i], NULL));
+    }
+    sums = merged_pass(parts, "within cluster", grid, NULL);
+    scores = merged_pass(parts, "within cluster", grid, sums);
+    OK(weft_partial_finish(&m, sums, scores));
+    OK(weft_model_coefficients(m, table, 2 * WEFT_COEF_COLUMNS, &needed));
+    for (i = 0; i < 2; ++i)
+        NEAR_TOL(table[i * WEFT_COEF_COLUMNS + WEFT_COEF_SE], within_se[i], 1e-9,
+                 "weights_reference within.cluster.se, over partitions");
+    CHECK(summary_find(m, "rows with weight 0", &item) > 0 && item.number == 2.0);
+    CHECK(value_of(m, "weighted", NULL) == 1.0);
+    weft_model_free(m);
+    plain = partition_panel(g, 0, 60);
+    OK(weft_partial_sums(&other, plain, "within cluster", grid, 20));
+    EXPECT_ERROR(weft_partial_merge(sums, other), WEFT_EDATA, "different weights");
+    weft_partial_free(other);
+    weft_panel_free(plain);
+    weft_partial_free(sums);
+    weft_partial_free(scores);
+    for (i = 0; i < 3; ++i) weft_panel_free(parts[i]);
+}
+
 int main(int argc, char **argv)
 {
     static grunfeld g;
@@ -1734,6 +1791,7 @@ int main(int argc, char **argv)
     test_weights(&g, argv[1]);
     test_event();
     test_partials(&g);
+    test_partials_weighted(&g, argv[1]);
     printf("c_consumer: %d checks, %d failed\n", checks, failures);
     return failures == 0 ? 0 : 1;
 }

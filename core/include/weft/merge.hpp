@@ -26,7 +26,8 @@
 // the per-unit cluster meat, per-period score sums (cluster-period, dk), and for within
 // the moments of the R-squared variants.
 //
-// Supported: pooled, fd, within, with or without period indicators; classical, hc0,
+// Supported: pooled, fd, within, with or without period indicators, with or without
+// weights; classical, hc0,
 // hc1, cluster, cluster0, cluster-period, dk; everything read from the fit afterwards
 // (t, p, intervals, F, Wald tests). Refused with a message naming what to use: between
 // and random (their second stage needs all unit means at once), hc2, hc3, cr2 (each
@@ -34,11 +35,16 @@
 // values and unit effects stay in the partitions (Fit::residuals is empty; a test that
 // needs the equation's rows refuses).
 //
-// Weights (issue 16 landed on main after this route; it refuses them for now, naming
-// what to use): a weight column w enters pass 1 by scaling each equation row by
-// sqrt(w) before the QR (the intercept column becomes sqrt(w), the centring point the
-// weighted mean, merged with weights in place of counts), and pass 2 by w in every
-// score sum; the byte format then gains a field under a new format version.
+// Weights (CONVENTIONS.md "Observation weights"; the rules of fit_weights.cpp): the
+// panel's weight column (PanelData::weights) or the regressor that weights=NAME names.
+// A blank weight drops the row (counted with the dropped rows), a weight of 0 leaves the
+// row out of the equation and N (counted apart), a negative weight is an error naming
+// the row; fd takes the later row's weight, within demeans with weighted unit means.
+// Each equation row is then multiplied by sqrt(w) before pass 1 (the intercept column
+// becomes sqrt(w); the centring point of column j is sum w x_j / sum w, merged with the
+// weight sums in place of counts), so that pass 2's residuals are sqrt(w) u and every
+// score sum is of w x u, as on one machine. A weighted within fit gives no squared
+// correlations at levels (as on one machine).
 //
 // Bytes: to_bytes/from_bytes write and read either partial with a magic tag, a format
 // version and a 64-bit FNV-1a check of the contents; from_bytes refuses a damaged,
@@ -62,7 +68,7 @@ namespace weft {
 struct Comoments {
     double n = 0;
     long double mean_a = 0, mean_b = 0, caa = 0, cbb = 0, cab = 0;
-    void add(long double a, long double b);
+    void add(long double a, long double b, long double weight = 1);  // n is then the sum of weights
     void merge(const Comoments& other);
 };
 
@@ -75,10 +81,15 @@ struct PartialSums {
     int intercept_column = -1;                 // 0 with an intercept, else -1
     std::uint64_t rows_input = 0, rows_used = 0, units_used = 0, units_in_equation = 0, pairs_lost = 0;
     std::uint64_t n = 0;                        // equation rows
+    std::uint64_t rows_zero_weight = 0;         // used rows left out by a weight of 0
+    std::string weight_label;                   // "weights \"w\"" of a weighted fit; empty: unweighted
+    long double weight_sum = 0;                 // sum of the equation rows' weights (n when unweighted)
     std::vector<std::uint8_t> period_used;      // per grid period: a used row there
     std::vector<std::uint64_t> period_rows;     // per grid period: equation rows there (fd: later period)
     std::vector<long double> raw_squares;       // per candidate: sum of squares of its equation column
     std::vector<long double> level_squares;     // per regressor (fd, within): sum of squares at levels
+    std::vector<long double> change_squares;    // per regressor: sum of squares of its fd or within column,
+                                                // before the weights (the no-variation decision)
     Eigen::VectorXd shift;                      // candidates + 1 (y last): centring point
     Eigen::MatrixXd r;                          // (candidates + 1)^2, upper triangular
     long double y_sum = 0, y_raw = 0;           // of the equation's y
