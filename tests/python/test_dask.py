@@ -148,9 +148,6 @@ class DaskCluster(unittest.TestCase):
                             period="year", model="fd periods hc1")
         assert_same(self, got, want, "text units, dates")
         self.assertIn("period 37622", got.coefficients.index)   # 2003-01-01 as a day number
-        with self.assertRaises(weft.WeftError) as caught:
-            weft.dask.fit(ddf, outcome="y", regressors=["x1"], unit="unit", period="year", weights="x1")
-        self.assertIn("weights", str(caught.exception))
 
     def test_errors_are_weft_errors(self):
         frame = panel(units=50, periods=5, seed=3)

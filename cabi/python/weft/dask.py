@@ -84,12 +84,12 @@ def _partial(lib, data):
     return _Handle(lib, lib.weft_partial_free, pointer)
 
 
-def _sums_task(frame, outcome, regressors, unit, period, model, grid, first_row):
+def _sums_task(frame, outcome, regressors, unit, period, weights, model, grid, first_row):
     """(1, bytes of the partition's pass-1 partial), or (1, None) for an empty partition."""
     if len(frame) == 0:
         return 1, None
     lib = _library()
-    panel = _panel(lib, frame, outcome, regressors, unit, period, first_row=first_row)
+    panel = _panel(lib, frame, outcome, regressors, unit, period, weights, first_row=first_row)
     pointer = ctypes.c_void_p()
     _check(lib, lib.weft_partial_sums(ctypes.byref(pointer), panel.pointer, _text(model, "model text"),
                                       grid.ctypes.data, grid.size))
@@ -97,11 +97,11 @@ def _sums_task(frame, outcome, regressors, unit, period, model, grid, first_row)
     return 1, _bytes_of(lib, partial.pointer)
 
 
-def _scores_task(frame, outcome, regressors, unit, period, sums, first_row):
+def _scores_task(frame, outcome, regressors, unit, period, weights, sums, first_row):
     if len(frame) == 0:
         return 1, None
     lib = _library()
-    panel = _panel(lib, frame, outcome, regressors, unit, period, first_row=first_row)
+    panel = _panel(lib, frame, outcome, regressors, unit, period, weights, first_row=first_row)
     merged = _partial(lib, sums[1])
     pointer = ctypes.c_void_p()
     _check(lib, lib.weft_partial_scores(ctypes.byref(pointer), panel.pointer, merged.pointer))
@@ -169,11 +169,8 @@ def fit(ddf, outcome, regressors, unit, period, model="pooled", repartition=True
     unit column first (True) or refuse (False). Runs on the current Dask scheduler (a
     distributed Client when one is active). Returns a weft Result whose residuals and
     fitted are None (they stay in the partitions). Raises WeftError with weft's message.
-    weights: not yet taken (observation weights are not in libweft yet); anything but
-    None is refused."""
-    if weights is not None:
-        raise WeftError("weft: weights are not fitted over partitions yet (libweft has no observation weights "
-                        "so far); fit without weights=")
+    weights: the name of a column of observation weights, with weft.fit's rules (NaN
+    drops the row, 0 leaves it out, a negative weight is an error), or None."""
     import dask
     import dask.dataframe as dd
 
@@ -183,10 +180,11 @@ def fit(ddf, outcome, regressors, unit, period, model="pooled", repartition=True
     regressors = [regressors] if isinstance(regressors, str) else list(regressors)
     model = "" if model is None else model
     _text(model, "model text")
-    for name, role in [(outcome, "outcome"), (unit, "unit"), (period, "period")] + [(r, "regressor") for r in regressors]:
+    named = [(outcome, "outcome"), (unit, "unit"), (period, "period")] + [(r, "regressor") for r in regressors]
+    for name, role in named + ([] if weights is None else [(weights, "weights")]):
         _columns.take(ddf._meta, name, role)
     lib = _library()
-    columns = list(dict.fromkeys([outcome, *regressors, unit, period]))
+    columns = list(dict.fromkeys([outcome, *regressors, unit, period] + ([] if weights is None else [weights])))
     ddf = ddf[columns]
     facts, parts = _facts(dask, ddf, unit, period)
     split = _split_units(facts)
@@ -208,7 +206,7 @@ def fit(ddf, outcome, regressors, unit, period, model="pooled", repartition=True
         raise WeftError(f"weft: no row has both a unit ({unit!r}) and a period ({period!r}); fill those columns")
     grid = np.unique(np.concatenate([g for _, _, g in facts])).astype(np.float64)
     first = np.concatenate([[0], np.cumsum(rows)[:-1]]).tolist()
-    args = (outcome, regressors, unit, period)
+    args = (outcome, regressors, unit, period, weights)
     sums = _tree(dask.delayed, [dask.delayed(_sums_task, pure=False)(part, *args, model, grid, f)
                                 for part, f in zip(parts, first)])
     (sums,) = _compute(dask, sums)
@@ -221,7 +219,7 @@ def fit(ddf, outcome, regressors, unit, period, model="pooled", repartition=True
     pointer = ctypes.c_void_p()
     _check(lib, lib.weft_partial_finish(ctypes.byref(pointer), sums_handle.pointer, scores_handle.pointer))
     result = Result(lib, _Handle(lib, lib.weft_model_free, pointer), None)
-    counted = result.summary.get("rows used", 0) + result.summary.get("rows dropped", 0)
+    counted = sum(result.summary.get(label, 0) for label in ("rows used", "rows dropped", "rows with weight 0"))
     if counted != sum(rows):
         raise WeftError(f"weft: the merged fit counts {counted:g} rows but the frame has {sum(rows)}; a partition "
                         "was lost or counted twice, so no result is given")
