@@ -108,9 +108,10 @@ class DaskCluster(unittest.TestCase):
         # (dk and cluster-period with period indicators are left to the small frames: there
         # the period terms' score sums are zero by construction and their SEs are rounding
         # noise on any route, which no second computation can match to 1e-10)
-        models = ["pooled", "pooled periods hc1", "pooled hc0", "pooled no-intercept cluster",
-                  "fd cluster", "fd periods cluster0", "fd dk",
-                  "within cluster-period", "within periods cluster", "within hc1", "within periods dk=3 level=0.9"]
+        families = ["classical", "hc0", "hc1", "cluster", "cluster0", "cluster-period", "dk"]
+        models = [f"{e} {f}" for e in ("pooled", "fd", "within") for f in families] + [
+            "pooled periods hc1", "pooled no-intercept cluster", "fd periods cluster0", "within periods cluster",
+            "within periods dk=3 level=0.9"]
         for model in models:
             with self.subTest(model=model):
                 start = time.perf_counter()
