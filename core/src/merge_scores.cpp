@@ -239,8 +239,8 @@ Fit finish_fit(const PartialSums& sums, const PartialScores& scores) {
     detail::fit_statistics(fit, ysums);
     detail::joint_statistics(fit);
     if (sums.spec.estimator == Estimator::within && !fit.weighted) {
-        fit.r2_overall = squared_correlation(scores.level_rows);
-        fit.r2_between = squared_correlation(scores.level_means);
+        fit.corr2_rows = squared_correlation(scores.level_rows);
+        fit.corr2_means = squared_correlation(scores.level_means);
     }
     return fit;
 }

@@ -199,8 +199,8 @@ void check_grunfeld(const GrunfeldCase& c) {
         }
         if (within) {
             CORE_CHECK_REL(*fit.r2, res["r_squared_within"].get<double>(), 1e-9, "r2 within");
-            CORE_CHECK_REL(*fit.r2_between, res["r_squared_between_corr2"].get<double>(), 1e-9, "corr2 means");
-            CORE_CHECK_REL(*fit.r2_overall, res["r_squared_overall_corr2"].get<double>(), 1e-9, "corr2 rows");
+            CORE_CHECK_REL(*fit.corr2_means, res["r_squared_between_corr2"].get<double>(), 1e-9, "corr2 means");
+            CORE_CHECK_REL(*fit.corr2_rows, res["r_squared_overall_corr2"].get<double>(), 1e-9, "corr2 rows");
         } else {
             CORE_CHECK_REL(*fit.r2, res["r_squared"].get<double>(), 1e-9, "r2");
         }

@@ -104,7 +104,7 @@ TEST_CASE("weights: unit effects, residuals, fitted values and the zero-weight r
     REQUIRE(within.unit_effects.size() == effects.size());
     for (std::size_t i = 0; i < effects.size(); ++i)
         CORE_CHECK_REL(within.unit_effects[i], effects[i], kTol, "unit effect (weighted dummy regression)");
-    CHECK_FALSE(within.r2_overall);  // not reported under weights
+    CHECK_FALSE(within.corr2_rows);  // not reported under weights
     const weft::Fit pooled = fit_text(data, "pooled weights=w");
     // residuals and fitted values in the outcome's units, as R's residuals(lm)
     CORE_CHECK_REL(pooled.residuals.value[0], ref["pooled"]["residual_first"].get<double>(), kTol, "residual row 2");
