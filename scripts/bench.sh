@@ -8,7 +8,9 @@
 #   2. tests/bench/compare.py: one 1M-row dataset through weft, R plm, R lm.fit +
 #      sandwich and statsmodels, with an agreement check;
 #   3. tests/bench/calc_bench.py: WEFT.ESTIMATES in headless Calc, and a second function
-#      over the ranges and over a fit cell (WEFT.FIT) (needs the add-in).
+#      over the ranges and over a fit cell (WEFT.FIT) (needs the add-in);
+#      tests/bench/calc_share_bench.py: the add-in's share of a cold 1,000,000 x 10
+#      call against the core fit alone on the same data.
 # Results land in $WEFT_BENCH_OUT (default out/bench/). Takes 5-15 minutes on 2 cores.
 #
 #   bash scripts/bench.sh                 everything
@@ -67,5 +69,7 @@ if [[ $calc -eq 1 ]]; then
   cmake --build "$build_dir" -j2
   /usr/bin/python3 tests/bench/calc_bench.py --build "$build_dir" \
     --json "$out_dir/calc_bench.json" | tee "$out_dir/calc_bench.txt"
+  /usr/bin/python3 tests/bench/calc_share_bench.py --build "$build_dir" \
+    --json "$out_dir/calc_share_bench.json" | tee "$out_dir/calc_share_bench.txt"
 fi
 echo "bench: results in $out_dir/"

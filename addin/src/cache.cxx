@@ -6,8 +6,6 @@ namespace weft_addin {
 
 namespace {
 
-std::uint64_t rotl(std::uint64_t x, int r) { return (x << r) | (x >> (64 - r)); }
-
 // The finaliser of splitmix64: every input bit affects every output bit.
 std::uint64_t mix(std::uint64_t z) {
     z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ull;
@@ -16,12 +14,6 @@ std::uint64_t mix(std::uint64_t z) {
 }
 
 }  // namespace
-
-void Hasher::add_u64(std::uint64_t w) {
-    a_ = rotl(a_ ^ (w * 0x87c37b91114253d5ull), 31) * 0x4cf5ad432745937full;
-    b_ = rotl(b_ + (w ^ 0x52dce729da3ed7b5ull), 27) * 0xff51afd7ed558ccdull + a_;
-    ++count_;
-}
 
 void Hasher::add_bytes(const char* data, std::size_t n) {
     std::size_t i = 0;
@@ -36,10 +28,12 @@ void Hasher::add_bytes(const char* data, std::size_t n) {
     add_u64(tail);
 }
 
+// Each output word takes every lane, through a different combination, and the count.
 Hash128 Hasher::digest() const {
+    const std::uint64_t l0 = mix(lanes_[0]), l1 = mix(lanes_[1]), l2 = mix(lanes_[2]), l3 = mix(lanes_[3]);
     Hash128 h;
-    h.a = mix(a_ ^ count_);
-    h.b = mix(b_ ^ rotl(count_, 17) ^ h.a);
+    h.a = mix(l0 ^ rotl(l1, 16) ^ rotl(l2, 32) ^ rotl(l3, 48) ^ count_);
+    h.b = mix(l3 + rotl(l2, 21) + rotl(l1, 42) + (l0 ^ rotl(count_, 17)) + h.a);
     return h;
 }
 

@@ -4,9 +4,70 @@
 
 #include <cctype>
 #include <cmath>
+#include <cstdlib>
+#include <iterator>
+#include <map>
+#include <mutex>
+#include <new>
 #include <utility>
 
 namespace weft_addin {
+
+namespace {
+
+// Freed blocks by size; at most kKeptBytes in all. Never destroyed: cached columns
+// may be freed while the library unloads, after other static objects are gone.
+constexpr std::size_t kKeptBytes = std::size_t{256} << 20;
+struct FreeBlocks {
+    std::mutex mutex;
+    std::multimap<std::size_t, void*> by_size;
+    std::size_t bytes = 0;
+};
+FreeBlocks& free_blocks() {
+    static FreeBlocks* const blocks = new FreeBlocks;
+    return *blocks;
+}
+
+}  // namespace
+
+void* take_block(std::size_t bytes) {
+    FreeBlocks& f = free_blocks();
+    {
+        const std::lock_guard<std::mutex> lock(f.mutex);
+        const auto it = f.by_size.find(bytes);
+        if (it != f.by_size.end()) {
+            void* p = it->second;
+            f.by_size.erase(it);
+            f.bytes -= bytes;
+            return p;
+        }
+    }
+    void* p = std::malloc(bytes);
+    if (p == nullptr) throw std::bad_alloc();
+    return p;
+}
+
+void give_block(void* p, std::size_t bytes) noexcept {
+    if (p == nullptr) return;
+    FreeBlocks& f = free_blocks();
+    try {
+        const std::lock_guard<std::mutex> lock(f.mutex);
+        if (bytes <= kKeptBytes) {
+            // Make room by freeing the largest kept blocks first.
+            while (f.bytes + bytes > kKeptBytes && !f.by_size.empty()) {
+                const auto last = std::prev(f.by_size.end());
+                f.bytes -= last->first;
+                std::free(last->second);
+                f.by_size.erase(last);
+            }
+            f.by_size.emplace(bytes, p);
+            f.bytes += bytes;
+            return;
+        }
+    } catch (...) {
+    }
+    std::free(p);
+}
 
 const Cell& Arg::scalar() const {
     static const Cell blank;

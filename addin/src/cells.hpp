@@ -3,8 +3,11 @@
 #pragma once
 
 #include <cstddef>
+#include <memory>
+#include <new>
 #include <stdexcept>
 #include <string>
+#include <utility>
 #include <vector>
 
 namespace weft_addin {
@@ -42,6 +45,53 @@ std::string cell_address(const Place& p, std::size_t r, std::size_t c);
 // "Data!D2:H632": the range of rows x cols at `p`.
 std::string range_address(const Place& p, std::size_t rows, std::size_t cols);
 
+// Blocks of at least a megabyte for column buffers: a freed block is kept (up to a
+// bound) and handed out again for the same size, so that the columns of the next call
+// land on memory the process already has. Fresh memory costs a page fault and the
+// kernel's zeroing per 4 KB page, which on 1,000,000 x 10 cells was more than reading
+// the cells. Thread-safe.
+void* take_block(std::size_t bytes);
+void give_block(void* p, std::size_t bytes) noexcept;
+constexpr std::size_t kPooledBlockBytes = std::size_t{1} << 20;
+
+// A vector whose resize leaves new elements unwritten: a column is filled once, by
+// the reader, instead of being zeroed first (a million-row column is 8 MB); large
+// buffers come from the blocks above.
+template <class T>
+struct UninitializedAllocator : std::allocator<T> {
+    template <class U>
+    struct rebind {
+        using other = UninitializedAllocator<U>;
+    };
+    UninitializedAllocator() = default;
+    template <class U>
+    UninitializedAllocator(const UninitializedAllocator<U>&) noexcept {}
+    T* allocate(std::size_t n) {
+        if (n * sizeof(T) < kPooledBlockBytes) return std::allocator<T>::allocate(n);
+        return static_cast<T*>(take_block(n * sizeof(T)));
+    }
+    void deallocate(T* p, std::size_t n) noexcept {
+        if (n * sizeof(T) < kPooledBlockBytes) std::allocator<T>::deallocate(p, n);
+        else give_block(p, n * sizeof(T));
+    }
+    template <class U>
+    void construct(U* p) noexcept {
+        ::new (static_cast<void*>(p)) U;
+    }
+    template <class U, class... Args>
+    void construct(U* p, Args&&... args) {
+        ::new (static_cast<void*>(p)) U(std::forward<Args>(args)...);
+    }
+};
+template <class T>
+using Buffer = std::vector<T, UninitializedAllocator<T>>;
+
+// One column read as numbers: values[i] with missing[i] == 0, or missing[i] == 1.
+struct NumericColumn {
+    Buffer<double> values;
+    Buffer<unsigned char> missing;
+};
+
 // A rectangular range read cell by cell: a Table, or the cells as the office
 // passed them, converted one at a time (so a large range is never copied whole
 // before its columns are built).
@@ -54,6 +104,27 @@ public:
     virtual Cell cell(std::size_t r, std::size_t c) const = 0;
     // Where the range is; nullptr when only its values were passed.
     virtual const Place* place() const { return nullptr; }
+
+    // A shortcut for reading numbers, where a grid has one: rows [start, end) of the
+    // columns first_col .. first_col + n_cols - 1 in one pass over the rows. A cell that
+    // holds a plain number goes to values[k][i] with missing[k][i] = 0 (i = r - start,
+    // k = c - first_col); every other cell gets values 0 and missing 1 and its (i, c)
+    // is appended to `others`, in row-major order, for the caller to read with cell().
+    // false (nothing written) when the grid has no shortcut.
+    virtual bool read_number_block(std::size_t /*first_col*/, std::size_t /*n_cols*/, std::size_t /*start*/,
+                                   std::size_t /*end*/, double* const* /*values*/,
+                                   unsigned char* const* /*missing*/,
+                                   std::vector<std::pair<std::size_t, std::size_t>>& /*others*/) const {
+        return false;
+    }
+    // A second shortcut, where a grid read its numbers already (while its cells were
+    // keyed): hands over column c, rows [start, end), as read_number_block would fill
+    // it, with the rows (i = r - start, ascending) left for cell() in `others`. Each
+    // column is handed over once; false when it is not there (then use the above).
+    virtual bool take_numbers(std::size_t /*c*/, std::size_t /*start*/, std::size_t /*end*/,
+                              NumericColumn& /*out*/, std::vector<std::size_t>& /*others*/) const {
+        return false;
+    }
 };
 
 // A rectangular range, row-major.

@@ -74,6 +74,12 @@ bool is_blank(const Any& a) {
     }
 }
 
+// A text cell as to_cell reads it: a non-empty string.
+bool is_text_value(const Any& a) {
+    return a.getValueTypeClass() == css::uno::TypeClass_STRING &&
+           !static_cast<const OUString*>(a.getValue())->isEmpty();
+}
+
 // Numeric type classes other than double (cells pass doubles; an API caller may not).
 bool other_number_class(css::uno::TypeClass t) {
     switch (t) {
@@ -191,19 +197,80 @@ std::vector<Table> to_tables(std::initializer_list<const AnyRows*> ranges) {
     return out;
 }
 
+// The numbers of a range, read while its cells are keyed (the cells are then in the
+// cache once, not fetched from memory again for the columns): CellGrid::take_numbers.
+struct ReadAhead {
+    std::size_t start = 0;                         // first row held (1 under a header)
+    std::vector<NumericColumn> columns;            // rows start .. start + held - 1
+    std::vector<std::vector<std::size_t>> others;  // per column: rows left for cell()
+    std::vector<bool> taken;
+
+    void prepare(std::size_t rows, std::size_t cols) {
+        const std::size_t held = rows > start ? rows - start : 0;
+        columns.resize(cols);
+        others.assign(cols, {});
+        taken.assign(cols, false);
+        for (NumericColumn& c : columns) {
+            c.values.resize(held);
+            c.missing.resize(held);
+        }
+    }
+    // Row r of the range (r >= start): its cells in cache already.
+    void note_row(std::size_t r, const Any* cells, std::size_t width) {
+        const std::size_t i = r - start;
+        for (std::size_t c = 0; c < columns.size(); ++c) {
+            if (c < width && cells[c].getValueTypeClass() == css::uno::TypeClass_DOUBLE) {
+                columns[c].values[i] = *static_cast<const double*>(cells[c].getValue());
+                columns[c].missing[i] = 0;
+            } else {
+                columns[c].values[i] = 0.0;
+                columns[c].missing[i] = 1;
+                others[c].push_back(i);
+            }
+        }
+    }
+    // Column c, rows [first, end) of the range, as CellGrid::take_numbers hands it over.
+    bool take(std::size_t c, std::size_t first, std::size_t end, NumericColumn& out,
+              std::vector<std::size_t>& rows_left) {
+        if (first != start || end < first || c >= columns.size() || taken[c]) return false;
+        taken[c] = true;
+        NumericColumn& col = columns[c];
+        std::vector<std::size_t>& left = others[c];
+        const std::size_t held = col.values.size(), n = end - first;
+        col.values.resize(n);
+        col.missing.resize(n);
+        if (n <= held) {
+            left.erase(std::lower_bound(left.begin(), left.end(), n), left.end());
+        } else {
+            for (std::size_t i = held; i < n; ++i) {  // below the rows read: blank to cell()
+                col.values[i] = 0.0;
+                col.missing[i] = 1;
+                left.push_back(i);
+            }
+        }
+        out = std::move(col);
+        rows_left.insert(rows_left.end(), left.begin(), left.end());
+        return true;
+    }
+};
+
 // A range as the office passed it, read one cell at a time: the model functions
 // build their columns straight from it, without a converted copy of every cell.
 // With `sheet`, the range came as the cells themselves: it knows its place and
 // the error values in it (sheet_ranges.hpp).
 class AnyGrid : public CellGrid {
 public:
-    AnyGrid(const AnyRows& rows, std::size_t keep, const SheetRange* sheet = nullptr)
-        : rows_(rows), keep_(keep), sheet_(sheet) {
+    AnyGrid(const AnyRows& rows, std::size_t keep, const SheetRange* sheet = nullptr,
+            ReadAhead* ahead = nullptr)
+        : rows_(rows), keep_(keep), sheet_(sheet), ahead_(ahead) {
+        if (sheet != nullptr) {  // its width is known: no pass over the rows
+            cols_ = sheet->cols;
+            return;
+        }
         const std::size_t have = std::min(keep, static_cast<std::size_t>(rows.getLength()));
         for (std::size_t r = 0; r < have; ++r)
             cols_ = std::max(cols_, static_cast<std::size_t>(rows[static_cast<sal_Int32>(r)].getLength()));
         if (keep == 0 && rows.getLength() > 0) cols_ = static_cast<std::size_t>(rows[0].getLength());
-        if (sheet != nullptr) cols_ = sheet->cols;
     }
     std::size_t row_count() const override { return keep_; }
     std::size_t col_count() const override { return cols_; }
@@ -222,6 +289,36 @@ public:
     }
     const Place* place() const override { return sheet_ != nullptr ? &sheet_->place : nullptr; }
 
+    // Numbers straight from the anys: no Cell per cell, no virtual call per cell.
+    bool read_number_block(std::size_t first_col, std::size_t n_cols, std::size_t start, std::size_t end,
+                           double* const* values, unsigned char* const* missing,
+                           std::vector<std::pair<std::size_t, std::size_t>>& others) const override {
+        const std::size_t have = static_cast<std::size_t>(rows_.getLength());
+        const Sequence<Any>* rows = rows_.getConstArray();
+        for (std::size_t r = start; r < end; ++r) {
+            const std::size_t i = r - start;
+            const std::size_t width = r < have ? static_cast<std::size_t>(rows[r].getLength()) : 0;
+            const Any* cells = r < have ? rows[r].getConstArray() : nullptr;
+            for (std::size_t k = 0; k < n_cols; ++k) {
+                const std::size_t c = first_col + k;
+                if (c < width && cells[c].getValueTypeClass() == css::uno::TypeClass_DOUBLE) {
+                    values[k][i] = *static_cast<const double*>(cells[c].getValue());
+                    missing[k][i] = 0;
+                } else {
+                    values[k][i] = 0.0;
+                    missing[k][i] = 1;
+                    others.emplace_back(i, c);
+                }
+            }
+        }
+        return true;
+    }
+
+    bool take_numbers(std::size_t c, std::size_t start, std::size_t end, NumericColumn& out,
+                      std::vector<std::size_t>& others) const override {
+        return ahead_ != nullptr && ahead_->take(c, start, end, out, others);
+    }
+
 private:
     Cell error_cell(std::size_t r, std::size_t c) const {
         Cell e;
@@ -235,6 +332,7 @@ private:
     const AnyRows& rows_;
     std::size_t keep_;
     const SheetRange* sheet_;
+    ReadAhead* ahead_;
     std::size_t cols_ = 0;
 };
 
@@ -336,29 +434,78 @@ void hash_payload(Hasher& h, const Any& a, CellTag tag) {
 // its length only, as the conversion sees it. The tags of up to 16 cells share
 // one word that comes before their values, so the words still decode to exactly
 // one sequence of cells (equal keys mean equal cells) at about one word per number.
-void hash_range(Hasher& h, const AnyRows& rows) {
+// One row: its length, then per group of up to 16 cells a word of their tags and
+// their values. saw_void, when given, is set when a cell is void (an error value, as
+// read_sheet_range leaves it before its errors are named).
+void hash_row(Hasher& h, const Sequence<Any>& row, bool* saw_void) {
     constexpr sal_Int32 group = 16;  // 4 bits per tag
+    CellTag tags[group];
+    const sal_Int32 n = row.getLength();
+    h.add_u64(static_cast<std::uint64_t>(n));
+    const Any* cells = row.getConstArray();
+    for (sal_Int32 g = 0; g < n; g += group) {
+        const sal_Int32 m = std::min(group, n - g);
+        std::uint64_t word = 0;
+        for (sal_Int32 i = 0; i < m; ++i) {
+            tags[i] = cell_tag(cells[g + i]);
+            word |= static_cast<std::uint64_t>(tags[i]) << (4 * i);
+            if (tags[i] == CellTag::none && saw_void != nullptr) *saw_void = true;
+        }
+        h.add_u64(word);
+        for (sal_Int32 i = 0; i < m; ++i) hash_payload(h, cells[g + i], tags[i]);
+    }
+}
+
+void hash_range(Hasher& h, const AnyRows& rows, bool* saw_void = nullptr) {
     h.add_u64(static_cast<std::uint64_t>(rows.getLength()));
     const std::size_t keep = used_rows(rows);
     h.add_u64(keep);
     if (rows.getLength() > 0) h.add_u64(static_cast<std::uint64_t>(rows[0].getLength()));
-    CellTag tags[group];
-    for (std::size_t r = 0; r < keep; ++r) {
-        const Sequence<Any>& row = rows[static_cast<sal_Int32>(r)];
-        const sal_Int32 n = row.getLength();
-        h.add_u64(static_cast<std::uint64_t>(n));
-        const Any* cells = row.getConstArray();
-        for (sal_Int32 g = 0; g < n; g += group) {
-            const sal_Int32 m = std::min(group, n - g);
-            std::uint64_t word = 0;
-            for (sal_Int32 i = 0; i < m; ++i) {
-                tags[i] = cell_tag(cells[g + i]);
-                word |= static_cast<std::uint64_t>(tags[i]) << (4 * i);
-            }
-            h.add_u64(word);
-            for (sal_Int32 i = 0; i < m; ++i) hash_payload(h, cells[g + i], tags[i]);
-        }
+    for (std::size_t r = 0; r < keep; ++r) hash_row(h, rows[static_cast<sal_Int32>(r)], saw_void);
+}
+
+// The same cells keyed through the numbers read ahead, in one pass over the cells:
+// the row count, the rows kept, the width and ahead.start; the rows above start as in
+// hash_range; then per column the cells left for cell() (count, then row, tag and
+// value of each) and every value read (0 where a cell was left), so the words still
+// decode to exactly one sequence of cells. Rows of another width than the first
+// (not seen from getDataArray) are keyed by hash_range instead, and nothing is read.
+void hash_range_ahead(Hasher& h, const AnyRows& rows, ReadAhead& ahead, bool* saw_void) {
+    const std::size_t keep = used_rows(rows);
+    const std::size_t width = rows.getLength() > 0 ? static_cast<std::size_t>(rows[0].getLength()) : 0;
+    const Sequence<Any>* row = rows.getConstArray();
+    Hasher local;
+    local.add_u64(static_cast<std::uint64_t>(rows.getLength()));
+    local.add_u64(keep);
+    local.add_u64(width);
+    local.add_u64(ahead.start);
+    ahead.prepare(keep, width);
+    bool regular = true;
+    for (std::size_t r = 0; r < keep && regular; ++r) {
+        regular = static_cast<std::size_t>(row[r].getLength()) == width;
+        if (r < ahead.start) hash_row(local, row[r], saw_void);
+        else if (regular) ahead.note_row(r, row[r].getConstArray(), width);
     }
+    if (!regular) {
+        ahead = ReadAhead{};  // nothing read: take_numbers declines
+        hash_range(h, rows, saw_void);
+        return;
+    }
+    for (std::size_t c = 0; c < ahead.columns.size(); ++c) {
+        local.add_u64(ahead.others[c].size());
+        for (const std::size_t i : ahead.others[c]) {
+            const Any& a = row[ahead.start + i].getConstArray()[c];
+            const CellTag tag = cell_tag(a);
+            if (tag == CellTag::none && saw_void != nullptr) *saw_void = true;
+            local.add_u64(i);
+            local.add_u64(static_cast<std::uint64_t>(tag));
+            hash_payload(local, a, tag);
+        }
+        local.add_doubles(ahead.columns[c].values.data(), ahead.columns[c].values.size());
+    }
+    const Hash128 d = local.digest();
+    h.add_u64(d.a);
+    h.add_u64(d.b);
 }
 
 // The four model ranges as the office passed them: keyed at once (one pass over
@@ -368,6 +515,7 @@ public:
     UnoPanelSource(const AnyRows& y, const AnyRows& x, const AnyRows& u, const AnyRows& t)
         : y_(y), x_(x), u_(u), t_(t) {
         Hasher h;
+        h.add_u64(1);  // kept apart from SheetPanelSource's keys
         for (const AnyRows* r : {&y, &x, &u, &t}) hash_range(h, *r);
         key_ = h.digest();
         CallTrace::mark("key");
@@ -401,14 +549,37 @@ public:
     using RangeRef = css::uno::Reference<css::table::XCellRange>;
     SheetPanelSource(const RangeRef& y, const RangeRef& x, const RangeRef& u, const RangeRef& t,
                      const char* x_name = "regressors")
-        : y_(read_sheet_range(y, "outcome")), x_(read_sheet_range(x, x_name)),
-          u_(read_sheet_range(u, "units")), t_(read_sheet_range(t, "periods")) {
-        CallTrace::mark("read");
+        : y_(read_sheet_range(y, "outcome", true)), x_(read_sheet_range(x, x_name, true)),
+          u_(read_sheet_range(u, "units", true)), t_(read_sheet_range(t, "periods", true)) {
+        CallTrace::mark("sheet");
+        // Error values are named only when the pass over the cells meets one (a void
+        // cell); then the key is made again over the marked cells (the numbers read
+        // ahead stay right: a void cell is left for cell(), which sees it marked).
+        const Any* first = y_.rows.getLength() > 0 && y_.rows[0].getLength() > 0 ? y_.rows[0].getConstArray()
+                                                                                 : nullptr;
+        const std::size_t start = first != nullptr && is_text_value(*first) ? 1 : 0;  // read_panel's header
+        for (ReadAhead& a : ahead_) a.start = start;
+        if (!make_key(true)) {
+            for (SheetRange* r : {&y_, &x_, &u_, &t_}) mark_error_cells(*r);
+            make_key(false);
+        }
+        CallTrace::mark("key");
+    }
+    // The key of every cell, place and error value (a tag first keeps it apart from
+    // UnoPanelSource's keys); false when check_voids and a cell is void.
+    bool make_key(bool check_voids) {
+        bool saw_void = false;
         Hasher h;
-        for (const SheetRange* r : {&y_, &x_, &u_, &t_}) {
+        h.add_u64(check_voids ? 2 : 3);  // two layouts of the words, kept apart
+        const SheetRange* const ranges[4] = {&y_, &x_, &u_, &t_};
+        for (std::size_t k = 0; k < 4; ++k) {
+            const SheetRange* r = ranges[k];
             h.add_u64(r->given_rows);
             h.add_u64(r->cols);
-            hash_range(h, r->rows);
+            if (check_voids)
+                hash_range_ahead(h, r->rows, ahead_[k], &saw_void);
+            else
+                hash_range(h, r->rows);
             h.add_string(r->place.sheet);
             h.add_u64(r->place.row);
             h.add_u64(r->place.col);
@@ -422,24 +593,32 @@ public:
             }
         }
         key_ = h.digest();
-        CallTrace::mark("key");
+        return !saw_void;
+    }
+    // Freeing the office's converted values (one any per cell) is the office's
+    // conversion undone, traced apart from the add-in's own work.
+    ~SheetPanelSource() override {
+        CallTrace::mark("compute");
+        for (SheetRange* r : {&y_, &x_, &u_, &t_}) r->rows = css::uno::Sequence<Sequence<Any>>();
+        CallTrace::mark("release");
     }
     const Hash128* cells_key() const override { return &key_; }
     PanelRanges ranges() const override {
         if (grids_.empty()) {
             const std::vector<std::size_t> keep = kept_sheet_rows({&y_, &x_, &u_, &t_});
             grids_.reserve(4);  // the references handed out must stay valid
-            grids_.emplace_back(y_.rows, keep[0], &y_);
-            grids_.emplace_back(x_.rows, keep[1], &x_);
-            grids_.emplace_back(u_.rows, keep[2], &u_);
-            grids_.emplace_back(t_.rows, keep[3], &t_);
+            grids_.emplace_back(y_.rows, keep[0], &y_, &ahead_[0]);
+            grids_.emplace_back(x_.rows, keep[1], &x_, &ahead_[1]);
+            grids_.emplace_back(u_.rows, keep[2], &u_, &ahead_[2]);
+            grids_.emplace_back(t_.rows, keep[3], &t_, &ahead_[3]);
             CallTrace::mark("trim");
         }
         return {grids_[0], grids_[1], grids_[2], grids_[3]};
     }
 
 private:
-    SheetRange y_, x_, u_, t_;
+    SheetRange y_, x_, u_, t_;  // in this order: ahead_[k] belongs to the k-th
+    mutable ReadAhead ahead_[4];  // handed over once by the grids
     Hash128 key_;
     mutable std::vector<AnyGrid> grids_;
 };

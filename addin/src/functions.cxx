@@ -77,17 +77,40 @@ using ModelPtr = std::unique_ptr<weft_model, ModelDeleter>;
 
 // ------------------------------------------------------------- reading columns
 
-struct NumericColumn {
-    std::vector<double> values;
-    std::vector<unsigned char> missing;
-};
-
+// Text ids are kept as one buffer of bytes with offsets, as weft_panel_borrow_units_text
+// takes them (no string and no pointer per row): id i is bytes[offsets[i], offsets[i + 1]).
+// An id ends at a NUL byte of its own, as the C strings given to weft did before.
 struct UnitColumn {
     bool text = false;
-    std::vector<std::string> ids;  // when text
-    std::vector<double> numbers;   // when numbers
-    std::vector<unsigned char> missing;
+    std::string bytes;                    // when text
+    std::vector<std::size_t> offsets{0};  // when text: one more than the rows
+    Buffer<double> numbers;               // when numbers
+    Buffer<unsigned char> missing;
+
+    void add_id(const std::string& id) {
+        bytes.append(id.c_str());
+        offsets.push_back(bytes.size());
+    }
+    std::string id(std::size_t i) const { return bytes.substr(offsets[i], offsets[i + 1] - offsets[i]); }
 };
+
+// The cells a grid's shortcut left (read_number_block): read one by one, in row-major order.
+using OtherCells = std::vector<std::pair<std::size_t, std::size_t>>;
+
+// Rows start..end-1 of column c through the grid's shortcuts (numbers only); the
+// rows of `others` are left for cell(). false when the grid has no shortcut.
+bool shortcut_numbers(const CellGrid& t, std::size_t c, std::size_t start, std::size_t end,
+                      NumericColumn& col, std::vector<std::size_t>& others) {
+    if (t.take_numbers(c, start, end, col, others)) return true;
+    col.values.resize(end - start);
+    col.missing.resize(end - start);
+    double* values = col.values.data();
+    unsigned char* missing = col.missing.data();
+    OtherCells block;
+    if (!t.read_number_block(c, 1, start, end, &values, &missing, block)) return false;
+    for (const auto& o : block) others.push_back(o.first);
+    return true;
+}
 
 // Rows start..end-1 of column c; anything but a number (blank, text) is missing.
 // With `scan`, an error value or a number stored as text is refused and other
@@ -96,9 +119,14 @@ NumericColumn read_numbers(const CellGrid& t, std::size_t c, std::size_t start, 
                            TextCells* scan = nullptr, const char* name = "") {
     NumericColumn col;
     const std::size_t n = end - start;
-    col.values.assign(n, 0.0);
-    col.missing.assign(n, 1);
-    for (std::size_t i = 0; i < n; ++i) {
+    std::vector<std::size_t> others;
+    if (!shortcut_numbers(t, c, start, end, col, others)) {
+        col.values.assign(n, 0.0);
+        col.missing.assign(n, 1);
+        others.resize(n);
+        for (std::size_t i = 0; i < n; ++i) others[i] = i;
+    }
+    for (const std::size_t i : others) {
         const Cell cell = t.cell(start + i, c);
         if (cell.is_number()) {
             col.values[i] = cell.number;
@@ -115,20 +143,43 @@ NumericColumn read_numbers(const CellGrid& t, std::size_t c, std::size_t start, 
 UnitColumn read_units(const CellGrid& t, std::size_t start, std::size_t end) {
     UnitColumn col;
     const std::size_t n = end - start;
+    // Numbers first, through the grid's shortcut: the ids are text only when one of
+    // the cells it left is.
+    NumericColumn numbers;
+    std::vector<std::size_t> others;
+    if (shortcut_numbers(t, 0, start, end, numbers, others)) {
+        for (const std::size_t i : others)
+            if (t.cell(start + i, 0).is_text()) col.text = true;
+        if (!col.text) {
+            col.numbers = std::move(numbers.values);
+            col.missing = std::move(numbers.missing);
+            for (const std::size_t i : others) {
+                const Cell cell = t.cell(start + i, 0);
+                TextCells::note_error({"units", &t}, start + i, 0, cell);
+                if (cell.is_number()) {
+                    col.numbers[i] = cell.number;
+                    col.missing[i] = 0;
+                }
+            }
+            return col;
+        }
+    }
     for (std::size_t i = 0; i < n && !col.text; ++i)
         if (t.cell(start + i, 0).is_text()) col.text = true;
     col.missing.assign(n, 1);
     if (col.text) {
-        col.ids.assign(n, std::string());
+        col.offsets.reserve(n + 1);
         for (std::size_t i = 0; i < n; ++i) {
-            Cell cell = t.cell(start + i, 0);
+            const Cell cell = t.cell(start + i, 0);
             TextCells::note_error({"units", &t}, start + i, 0, cell);
             if (cell.is_text()) {
-                col.ids[i] = std::move(cell.text);
+                col.add_id(cell.text);
                 col.missing[i] = 0;
             } else if (cell.is_number()) {
-                col.ids[i] = format_number(cell.number);
+                col.add_id(format_number(cell.number));
                 col.missing[i] = 0;
+            } else {
+                col.add_id(std::string());
             }
         }
     } else {
@@ -147,8 +198,12 @@ UnitColumn read_units(const CellGrid& t, std::size_t start, std::size_t end) {
 
 void set_units(weft_panel* p, const UnitColumn& u) {
     if (u.text) {
-        std::vector<const char*> ptrs(u.ids.size());
-        for (std::size_t i = 0; i < u.ids.size(); ++i) ptrs[i] = u.ids[i].c_str();
+        std::vector<std::string> ids(u.missing.size());
+        std::vector<const char*> ptrs(ids.size());
+        for (std::size_t i = 0; i < ids.size(); ++i) {
+            ids[i] = u.id(i);
+            ptrs[i] = ids[i].c_str();
+        }
         check(weft_panel_set_units_text(p, ptrs.data(), u.missing.data()));
     } else {
         check(weft_panel_set_units_number(p, u.numbers.data(), u.missing.data()));
@@ -170,7 +225,7 @@ void hash_units(Hasher& h, const UnitColumn& u) {
         h.add_u64(u.missing[i]);
         if (u.missing[i]) continue;
         if (u.text)
-            h.add_string(u.ids[i]);
+            h.add_string(u.id(i));
         else
             h.add_double(u.numbers[i]);
     }
@@ -198,6 +253,15 @@ void require_data_rows(std::size_t rows, bool header) {
 
 // ------------------------------------------------------------ the model input
 
+// The columns read from the four model ranges. A panel borrows them (weft.h): they
+// live, shared, as long as the panel and every model made from it.
+struct PanelColumns {
+    NumericColumn outcome;
+    std::vector<NumericColumn> regressors;
+    UnitColumn units;
+    NumericColumn periods;
+};
+
 // The four model ranges read into columns, with their names and a hash that
 // identifies them for the cache.
 struct PanelInput {
@@ -206,11 +270,8 @@ struct PanelInput {
     std::size_t first_row = 1;  // position of the first data row within the ranges
     std::string outcome_name;
     std::vector<std::string> regressor_names;
-    NumericColumn outcome;
-    std::vector<NumericColumn> regressors;
+    std::shared_ptr<PanelColumns> columns = std::make_shared<PanelColumns>();
     std::vector<std::string> text_cell;  // per regressor: the first cell holding text (empty: none), for weights=
-    UnitColumn units;
-    NumericColumn periods;
     Hash128 hash;
     std::vector<std::string> warnings;  // about the cells (sheet_checks.hpp)
     // The ranges came as cells (the sheet* methods): results show warnings in view
@@ -218,21 +279,22 @@ struct PanelInput {
     bool placed = false;
 };
 
-bool all_missing(const std::vector<unsigned char>& missing) {
+bool all_missing(const Buffer<unsigned char>& missing) {
     return std::all_of(missing.begin(), missing.end(), [](unsigned char m) { return m != 0; });
 }
 
 // A column without a single usable value drops every row; name that column
 // rather than leave the user with "no usable rows".
-void require_some_values(const PanelInput& p) {
-    const char* where = p.header ? " below the header" : "";
+void require_some_values(const PanelInput& in) {
+    const PanelColumns& p = *in.columns;
+    const char* where = in.header ? " below the header" : "";
     if (all_missing(p.outcome.missing))
         fail(std::string("outcome holds no numbers") + where +
              "; select the column of the dependent variable");
     for (std::size_t k = 0; k < p.regressors.size(); ++k) {
         if (!all_missing(p.regressors[k].missing)) continue;
         const std::string name =
-            p.regressor_names[k].empty() ? "x" + std::to_string(k + 1) : p.regressor_names[k];
+            in.regressor_names[k].empty() ? "x" + std::to_string(k + 1) : in.regressor_names[k];
         fail("regressor " + quoted(name) + " (column " + std::to_string(k + 1) +
              " of regressors) holds no numbers" + where + "; fill it or leave it out of the range");
     }
@@ -245,13 +307,14 @@ void require_some_values(const PanelInput& p) {
 
 // A regressor column equal to the outcome in every row (the outcome's range
 // selected among the regressors too) gives a coefficient of 1 and nothing else.
-std::vector<std::string> same_as_outcome_warnings(const PanelInput& p) {
+std::vector<std::string> same_as_outcome_warnings(const PanelInput& in) {
+    const PanelColumns& p = *in.columns;
     std::vector<std::string> out;
     for (std::size_t k = 0; k < p.regressors.size(); ++k) {
         const NumericColumn& x = p.regressors[k];
         if (x.missing != p.outcome.missing || x.values != p.outcome.values) continue;
         const std::string name =
-            p.regressor_names[k].empty() ? "x" + std::to_string(k + 1) : p.regressor_names[k];
+            in.regressor_names[k].empty() ? "x" + std::to_string(k + 1) : in.regressor_names[k];
         out.push_back("regressor " + quoted(name) + " (column " + std::to_string(k + 1) +
                       " of regressors) equals the outcome in every row; leave the outcome's "
                       "column out of regressors");
@@ -259,9 +322,102 @@ std::vector<std::string> same_as_outcome_warnings(const PanelInput& p) {
     return out;
 }
 
+// Every regressor column from the grid's second shortcut (take_numbers), with the
+// cells left for cell() in row-major order; false (xs untouched in size) when a
+// column is not there.
+bool take_regressors(const CellGrid& regressors, std::size_t start, std::size_t n,
+                     std::vector<NumericColumn>& xs, OtherCells& others) {
+    std::vector<NumericColumn> taken(xs.size());
+    OtherCells left;
+    for (std::size_t c = 0; c < xs.size(); ++c) {
+        std::vector<std::size_t> rows;
+        if (!regressors.take_numbers(c, start, start + n, taken[c], rows)) return false;
+        for (const std::size_t i : rows) left.emplace_back(i, c);
+    }
+    std::sort(left.begin(), left.end());
+    xs = std::move(taken);
+    others = std::move(left);
+    return true;
+}
+
+// The regressor columns from the grid's first shortcut, in one pass over the rows (the
+// grid is row-major: a pass per column would touch every row once per column), or,
+// without one, every cell left for cell().
+void read_regressor_block(const CellGrid& regressors, std::size_t start, std::size_t n,
+                          std::vector<NumericColumn>& xs, OtherCells& others) {
+    std::vector<double*> values(xs.size());
+    std::vector<unsigned char*> missing(xs.size());
+    for (std::size_t c = 0; c < xs.size(); ++c) {
+        xs[c].values.resize(n);
+        xs[c].missing.resize(n);
+        values[c] = xs[c].values.data();
+        missing[c] = xs[c].missing.data();
+    }
+    if (regressors.read_number_block(0, xs.size(), start, start + n, values.data(), missing.data(), others))
+        return;
+    for (NumericColumn& x : xs) {
+        std::fill(x.values.begin(), x.values.end(), 0.0);
+        std::fill(x.missing.begin(), x.missing.end(), 1);
+    }
+    others.clear();
+    for (std::size_t i = 0; i < n; ++i)
+        for (std::size_t c = 0; c < xs.size(); ++c) others.emplace_back(i, c);
+}
+
+// The regressor columns, rows start..start+n-1: taken as read while the cells were
+// keyed, or read now. A cell
+// that is not a number is read as the cells were before the shortcut: in row-major
+// order, so the first error or text found is the same.
+void read_regressors(PanelInput& p, const CellGrid& regressors, std::size_t start, TextCells& scan) {
+    const std::size_t n_regressors = regressors.col_count();
+    std::vector<NumericColumn>& xs = p.columns->regressors;
+    xs.resize(n_regressors);
+    p.text_cell.assign(n_regressors, std::string());
+    OtherCells others;
+    if (!take_regressors(regressors, start, p.n, xs, others)) read_regressor_block(regressors, start, p.n, xs, others);
+    for (const auto& o : others) {
+        const std::size_t i = o.first, c = o.second;
+        const Cell cell = regressors.cell(start + i, c);
+        if (!cell.is_number()) {
+            if (cell.is_text() && p.text_cell[c].empty())
+                p.text_cell[c] = located({"regressors", &regressors}, start + i, c);
+            if (!cell.is_blank()) scan.note({"regressors", &regressors}, start + i, c, cell);
+            continue;
+        }
+        xs[c].values[i] = cell.number;
+        xs[c].missing[i] = 0;
+    }
+}
+
+// The key of the input for the caches. The input is a function of the cells as the
+// office passed them, so a source's key of those cells identifies it too, without a
+// second pass over every value; a source without one hashes the columns read.
+Hash128 input_hash(const PanelInput& p, const Hash128* cells_key, bool regressors_optional) {
+    Hasher h;
+    if (cells_key != nullptr) {
+        h.add_u64(0x63656c6c73ull);  // kept apart from the column hashes below
+        h.add_u64(cells_key->a);
+        h.add_u64(cells_key->b);
+        h.add_u64(regressors_optional ? 1 : 0);
+        return h.digest();
+    }
+    const PanelColumns& c = *p.columns;
+    h.add_u64(p.first_row);
+    h.add_string(p.outcome_name);
+    h.add_u64(p.regressor_names.size());
+    for (const std::string& name : p.regressor_names) h.add_string(name);
+    hash_numbers(h, c.outcome);
+    for (const NumericColumn& x : c.regressors) hash_numbers(h, x);
+    for (const std::string& cell : p.text_cell) h.add_string(cell);
+    hash_units(h, c.units);
+    hash_numbers(h, c.periods);
+    return h.digest();
+}
+
 // regressors_optional: a grid of no columns means no regressors (the controls of the
-// event functions); otherwise it is refused.
-PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
+// event functions); otherwise it is refused. cells_key: the source's key of the cells.
+PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false,
+                      const Hash128* cells_key = nullptr) {
     require_one_column(in.outcome, "outcome", "the dependent variable");
     require_one_column(in.units, "units", "the unit id of each row");
     require_one_column(in.periods, "periods", "the period of each row");
@@ -302,30 +458,10 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
         p.regressor_names.assign(n_regressors, std::string());
     }
     TextCells scan;
-    p.outcome = read_numbers(outcome, 0, start, rows, &scan, "outcome");
-    // One pass over the rows for all regressors: the table is row-major, so a pass
-    // per column would touch every row once per column.
-    p.regressors.resize(n_regressors);
-    p.text_cell.assign(n_regressors, std::string());
-    for (NumericColumn& x : p.regressors) {
-        x.values.assign(p.n, 0.0);
-        x.missing.assign(p.n, 1);
-    }
-    for (std::size_t i = 0; i < p.n; ++i) {
-        for (std::size_t c = 0; c < n_regressors; ++c) {
-            const Cell cell = regressors.cell(start + i, c);
-            if (!cell.is_number()) {
-                if (cell.is_text() && p.text_cell[c].empty())
-                    p.text_cell[c] = located({"regressors", &regressors}, start + i, c);
-                if (!cell.is_blank()) scan.note({"regressors", &regressors}, start + i, c, cell);
-                continue;
-            }
-            p.regressors[c].values[i] = cell.number;
-            p.regressors[c].missing[i] = 0;
-        }
-    }
-    p.units = read_units(units, start, rows);
-    p.periods = read_numbers(periods, 0, start, rows, &scan, "periods");
+    p.columns->outcome = read_numbers(outcome, 0, start, rows, &scan, "outcome");
+    read_regressors(p, regressors, start, scan);
+    p.columns->units = read_units(units, start, rows);
+    p.columns->periods = read_numbers(periods, 0, start, rows, &scan, "periods");
     require_some_values(p);
     p.warnings = scan.warnings();
     p.placed = in.outcome.place() != nullptr;
@@ -333,32 +469,41 @@ PanelInput read_panel(const PanelRanges& in, bool regressors_optional = false) {
         p.warnings.push_back(std::move(w));
     for (std::string& w : same_as_outcome_warnings(p)) p.warnings.push_back(std::move(w));
 
-    Hasher h;
-    h.add_u64(p.first_row);
-    h.add_string(p.outcome_name);
-    h.add_u64(p.regressor_names.size());
-    for (const std::string& name : p.regressor_names) h.add_string(name);
-    hash_numbers(h, p.outcome);
-    for (const NumericColumn& x : p.regressors) hash_numbers(h, x);
-    for (const std::string& cell : p.text_cell) h.add_string(cell);
-    hash_units(h, p.units);
-    hash_numbers(h, p.periods);
-    p.hash = h.digest();
+    CallTrace::mark("read");
+    p.hash = input_hash(p, cells_key, regressors_optional);
+    CallTrace::mark("hash");
     return p;
 }
 
-PanelPtr make_panel(const PanelInput& in) {
+// The missing mask to hand over: NULL when no row is missing (weft.h), which spares
+// the fit a look at every row's flag.
+const unsigned char* mask_or_null(const Buffer<unsigned char>& missing) {
+    return std::find(missing.begin(), missing.end(), 1) == missing.end() ? nullptr : missing.data();
+}
+
+// A panel over the columns read: borrowed in place (the caller keeps in.columns alive
+// as long as the panel and its models), or copied when `borrow` is false.
+PanelPtr make_panel(const PanelInput& in, bool borrow = true) {
     weft_panel* raw = nullptr;
     check(weft_panel_new(&raw, in.n, in.first_row));
     PanelPtr p(raw);
-    set_units(p.get(), in.units);
-    check(weft_panel_set_periods(p.get(), in.periods.values.data(), in.periods.missing.data()));
-    check(weft_panel_set_outcome(p.get(), in.outcome_name.empty() ? nullptr : in.outcome_name.c_str(),
-                                 in.outcome.values.data(), in.outcome.missing.data()));
-    for (std::size_t k = 0; k < in.regressors.size(); ++k)
-        check(weft_panel_add_regressor(p.get(), in.regressor_names[k].c_str(),
-                                       in.regressors[k].values.data(),
-                                       in.regressors[k].missing.data()));
+    const PanelColumns& c = *in.columns;
+    if (borrow && c.units.text)
+        check(weft_panel_borrow_units_text(p.get(), c.units.bytes.data(), c.units.offsets.data(),
+                                           mask_or_null(c.units.missing)));
+    else if (borrow)
+        check(weft_panel_borrow_units_number(p.get(), c.units.numbers.data(), mask_or_null(c.units.missing)));
+    else
+        set_units(p.get(), c.units);
+    const auto periods = borrow ? weft_panel_borrow_periods : weft_panel_set_periods;
+    const auto outcome = borrow ? weft_panel_borrow_outcome : weft_panel_set_outcome;
+    const auto regressor = borrow ? weft_panel_borrow_regressor : weft_panel_add_regressor;
+    check(periods(p.get(), c.periods.values.data(), mask_or_null(c.periods.missing)));
+    check(outcome(p.get(), in.outcome_name.empty() ? nullptr : in.outcome_name.c_str(), c.outcome.values.data(),
+                  mask_or_null(c.outcome.missing)));
+    for (std::size_t k = 0; k < c.regressors.size(); ++k)
+        check(regressor(p.get(), in.regressor_names[k].c_str(), c.regressors[k].values.data(),
+                        mask_or_null(c.regressors[k].missing)));
     return p;
 }
 
@@ -381,12 +526,16 @@ void log_line(const std::string& line) {
 
 namespace {
 
+// A panel borrows its columns, and a model made from it may read them again
+// (weft.h): each entry keeps them alive. Declared first, so freed last.
 struct PanelEntry {
+    std::shared_ptr<const PanelColumns> columns;
     PanelPtr panel;
     std::string error;  // the "weft: " text when the panel was rejected
 };
 
 struct ModelEntry {
+    std::shared_ptr<const PanelColumns> columns;
     ModelPtr model;
     std::string error;
 };
@@ -401,6 +550,7 @@ std::shared_ptr<PanelEntry> cached_panel(const PanelInput& in) {
     if (auto hit = panel_cache.find(in.hash)) return hit;
     auto entry = std::make_shared<PanelEntry>();
     try {
+        entry->columns = in.columns;
         entry->panel = make_panel(in);
     } catch (const UserError& e) {
         entry->error = e.what();
@@ -487,10 +637,14 @@ std::shared_ptr<ModelEntry> cached_model(const PanelInput& in, const std::string
     auto entry = std::make_shared<ModelEntry>();
     try {
         check_weight_cells(in, text);
-        const weft_panel* panel = panel_or_throw(*cached_panel(in));
+        const std::shared_ptr<PanelEntry> panel_entry = cached_panel(in);
+        const weft_panel* panel = panel_or_throw(*panel_entry);
+        entry->columns = panel_entry->columns;
+        CallTrace::mark("panel");
         weft_model* raw = nullptr;
         check(weft_model_new_text(&raw, panel, text.c_str()));
         entry->model.reset(raw);
+        CallTrace::mark("fit");
     } catch (const UserError& e) {
         entry->error = e.what();
     }
@@ -599,7 +753,7 @@ struct Fitted {
         }
         CallTrace::mark("lookup");
         if (!entry) {
-            input = read_panel(source.ranges());
+            input = read_panel(source.ranges(), false, cells);
             input_read = true;
             CallTrace::mark("read");
             entry = cached_model(input, model_text(model_arg), model_key);
@@ -618,7 +772,7 @@ struct Fitted {
     std::shared_ptr<PanelEntry> panel_entry(const PanelSource& source) {
         if (input_read) return cached_panel(input);
         if (auto hit = panel_cache.find(input.hash)) return hit;
-        input = read_panel(source.ranges());
+        input = read_panel(source.ranges(), false, source.cells_key());
         input_read = true;
         return cached_panel(input);
     }
@@ -1388,7 +1542,8 @@ std::string fn_version() {
 PanelRead read_panel_ranges(const PanelRanges& in, bool regressors_optional) {
     const PanelInput p = read_panel(in, regressors_optional);
     PanelRead out;
-    out.panel = std::shared_ptr<weft_panel>(make_panel(p).release(), weft_panel_free);
+    // copied: the event functions' models outlive this input
+    out.panel = std::shared_ptr<weft_panel>(make_panel(p, false).release(), weft_panel_free);
     out.header = p.header;
     out.n = p.n;
     out.first_row = p.first_row;

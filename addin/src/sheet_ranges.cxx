@@ -1,5 +1,7 @@
 #include "sheet_ranges.hpp"
 
+#include "trace.hpp"
+
 #include <com/sun/star/container/XNamed.hpp>
 #include <com/sun/star/sheet/FormulaResult.hpp>
 #include <com/sun/star/sheet/XCellRangeData.hpp>
@@ -87,30 +89,40 @@ std::string error_name(sal_Int32 code) {
     }
 }
 
-// Every formula cell of `kept` whose result is an error: its value in out.rows
-// becomes a Type any (never read as blank) and its name goes to out.errors.
-void mark_errors(const Reference<css::table::XCellRange>& kept, const css::table::CellRangeAddress& a,
-                 SheetRange& out) {
-    Reference<css::sheet::XCellRangesQuery> query(kept, UNO_QUERY);
+// getDataArray leaves the value of an error cell empty (void); nothing else is void.
+bool has_void_cell(const Sequence<Sequence<Any>>& rows) {
+    for (const Sequence<Any>& row : rows)
+        for (const Any& a : row)
+            if (a.getValueTypeClass() == css::uno::TypeClass_VOID) return true;
+    return false;
+}
+
+}  // namespace
+
+// Every formula cell of the rows read whose result is an error: its value in
+// out.rows becomes a Type any (never read as blank) and its name goes to out.errors.
+void mark_error_cells(SheetRange& out) {
+    Reference<css::sheet::XCellRangesQuery> query(out.kept, UNO_QUERY);
     if (!query.is()) return;
     const Sequence<css::table::CellRangeAddress> blocks =
         query->queryFormulaCells(css::sheet::FormulaResult::ERROR)->getRangeAddresses();
     const Any error_mark(cppu::UnoType<void>::get());
     Sequence<Any>* rows = out.rows.getArray();
+    const sal_Int32 first_row = static_cast<sal_Int32>(out.place.row),
+                    first_col = static_cast<sal_Int32>(out.place.col);
     for (const css::table::CellRangeAddress& b : blocks)
         for (sal_Int32 r = b.StartRow; r <= b.EndRow; ++r)
             for (sal_Int32 c = b.StartColumn; c <= b.EndColumn; ++c) {
-                const sal_Int32 rr = r - a.StartRow, cc = c - a.StartColumn;
+                const sal_Int32 rr = r - first_row, cc = c - first_col;
                 if (rr >= out.rows.getLength() || cc >= rows[rr].getLength()) continue;
-                const sal_Int32 code = kept->getCellByPosition(cc, rr)->getError();
+                const sal_Int32 code = out.kept->getCellByPosition(cc, rr)->getError();
                 out.errors[{static_cast<std::size_t>(rr), static_cast<std::size_t>(cc)}] = error_name(code);
                 rows[rr].getArray()[cc] = error_mark;
             }
 }
 
-}  // namespace
-
-SheetRange read_sheet_range(const Reference<css::table::XCellRange>& range, const char* name) {
+SheetRange read_sheet_range(const Reference<css::table::XCellRange>& range, const char* name,
+                            bool defer_errors) {
     Reference<css::sheet::XCellRangeAddressable> addressable(range, UNO_QUERY);
     Reference<css::sheet::XSheetCellRange> sheet_range(range, UNO_QUERY);
     if (!addressable.is() || !sheet_range.is())
@@ -133,10 +145,16 @@ SheetRange read_sheet_range(const Reference<css::table::XCellRange>& range, cons
     Reference<css::table::XCellRange> kept =
         range->getCellRangeByPosition(0, 0, a.EndColumn - a.StartColumn, rows - 1);
     Reference<css::sheet::XCellRangeData> data(kept, UNO_QUERY);
+    CallTrace::mark("sheet");
     out.rows = data->getDataArray();
+    // The office's own conversion of the cells, apart from the add-in's share.
+    CallTrace::mark("cells");
     find_hidden(kept, a.StartRow, static_cast<std::size_t>(rows), out.place);
+    CallTrace::mark("hidden");
 
-    mark_errors(kept, a, out);
+    out.kept = kept;
+    if (!defer_errors && has_void_cell(out.rows)) mark_error_cells(out);
+    CallTrace::mark("errors");
     return out;
 }
 

@@ -26,10 +26,19 @@ struct SheetRange {
     std::size_t cols = 0;
     Place place;
     std::map<std::pair<std::size_t, std::size_t>, std::string> errors;  // (row, col) -> "#DIV/0!"
+    // The rows read, for naming the error values later (mark_error_cells).
+    com::sun::star::uno::Reference<com::sun::star::table::XCellRange> kept;
 };
 
 // `name` is the argument's name for the message when the office passed no range.
+// The office hands an error value as an empty (void) any; only a range holding one is
+// asked which cells hold errors, since asking costs more than reading the cells.
+// With defer_errors, the caller does that itself (mark_error_cells) when it finds a
+// void any while passing over the cells anyway.
 SheetRange read_sheet_range(const com::sun::star::uno::Reference<com::sun::star::table::XCellRange>& range,
-                            const char* name);
+                            const char* name, bool defer_errors = false);
+
+// Names every error value of `range` (see SheetRange::rows and errors).
+void mark_error_cells(SheetRange& range);
 
 }  // namespace weft_addin

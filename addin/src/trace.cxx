@@ -2,12 +2,21 @@
 
 #include <cstdio>
 #include <cstdlib>
+#include <ctime>
 
 namespace weft_addin {
 
 namespace {
 
 using Clock = std::chrono::steady_clock;
+
+// The calling thread's CPU time in ms: on a shared machine the wall clock also
+// counts waiting for a core, so each phase is given in both.
+double thread_cpu_ms() {
+    timespec t{};
+    if (clock_gettime(CLOCK_THREAD_CPUTIME_ID, &t) != 0) return 0.0;
+    return static_cast<double>(t.tv_sec) * 1e3 + static_cast<double>(t.tv_nsec) * 1e-6;
+}
 
 const char* trace_path() {
     static const char* const path = [] {
@@ -21,7 +30,9 @@ const char* trace_path() {
 struct State {
     bool active = false;
     Clock::time_point start, last;
+    double start_cpu = 0.0, last_cpu = 0.0;
     std::string line;
+    std::string cpu_line;
 };
 thread_local State state;
 
@@ -36,7 +47,9 @@ CallTrace::CallTrace(const char* function) : on_(trace_path() != nullptr && !sta
     try {
         state.active = true;
         state.start = state.last = Clock::now();
+        state.start_cpu = state.last_cpu = thread_cpu_ms();
         state.line = function;
+        state.cpu_line.clear();
     } catch (...) {
         on_ = false;
         state.active = false;
@@ -46,9 +59,11 @@ CallTrace::CallTrace(const char* function) : on_(trace_path() != nullptr && !sta
 CallTrace::~CallTrace() {
     if (!on_) return;
     try {
-        char buf[48];
-        std::snprintf(buf, sizeof buf, " total=%.1f\n", ms_between(state.start, Clock::now()));
+        char buf[80];
+        std::snprintf(buf, sizeof buf, " total=%.1f", ms_between(state.start, Clock::now()));
         state.line += buf;
+        std::snprintf(buf, sizeof buf, " total.cpu=%.1f\n", thread_cpu_ms() - state.start_cpu);
+        state.line += state.cpu_line + buf;
         if (std::FILE* f = std::fopen(trace_path(), "a")) {
             std::fputs(state.line.c_str(), f);
             std::fclose(f);
@@ -62,10 +77,14 @@ void CallTrace::mark(const char* phase) {
     if (!state.active) return;
     try {
         const Clock::time_point now = Clock::now();
+        const double cpu = thread_cpu_ms();
         char buf[64];
         std::snprintf(buf, sizeof buf, " %s=%.1f", phase, ms_between(state.last, now));
         state.line += buf;
+        std::snprintf(buf, sizeof buf, " %s.cpu=%.1f", phase, cpu - state.last_cpu);
+        state.cpu_line += buf;
         state.last = now;
+        state.last_cpu = cpu;
     } catch (...) {
     }
 }

@@ -1,8 +1,11 @@
 // An off-by-default timing trace of every cell-function call: with the
 // environment variable WEFT_ADDIN_TRACE=<file> set for the office, each call
-// appends one line "<function> <phase>=<ms> ... total=<ms>" to that file, so the
-// time the add-in spends can be told apart from the office's own conversion
-// (the office's part is what a recalculation takes beyond the traced totals).
+// appends one line "<function> <phase>=<ms> ... total=<ms> <phase>.cpu=<ms> ...
+// total.cpu=<ms>" to that file (wall time, then the calling thread's CPU time), so
+// the time the add-in spends can be told apart from the office's own conversion:
+// the phase `cells` is the office converting a range passed as cells into values
+// (XCellRangeData.getDataArray), and the office's part of a value-array call is what
+// a recalculation takes beyond the traced totals. A phase marked twice is summed.
 // Without the variable every call costs one branch on a cached flag.
 #pragma once
 

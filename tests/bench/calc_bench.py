@@ -18,9 +18,13 @@ regressors, from weft_bench's seeded generator, with a header row), measures wit
 The add-in's log (WEFT_ADDIN_LOG) is read to check that `first` fitted and that
 `cached` and the second function did not. Medians over --reps runs.
 The add-in's timing trace (WEFT_ADDIN_TRACE) splits each recalculation into the
-add-in's own phases (convert: cells to plain tables; read: columns, checks and the
-input hash; model: cache lookup or fit; compute, out: result cells) and the rest,
-which is the office's own work (converting the ranges to arguments, storing results).
+add-in's own phases (sheet: where the ranges are and their hidden rows; key: the
+cache key over every cell; read: columns and checks; hash: the input's key; panel,
+fit: the panel over the columns and the fit; compute, out: result cells), the
+office's conversion of ranges passed as cells (cells: getDataArray; release: freeing
+its values) and the rest, which is the office's own work (converting value-array
+arguments, storing results). Each phase is also traced in thread CPU time
+(`<phase>.cpu`); tests/bench/calc_share_bench.py reads those.
 
 Usage: /usr/bin/python3 tests/bench/calc_bench.py [--build build-bench]
            [--oxt PATH] [--bench PATH] [--rows 100000,1000000] [--reps 3] [--json OUT]
@@ -345,7 +349,8 @@ def main():
             ph = r["phases"].get(name, {})
             print("%-9d %-7s " % (r["rows"], name) +
                   " ".join("%s=%.3f" % (k, ph[k]) for k in
-                           ("office", "total", "key", "lookup", "trim", "convert", "read", "model", "compute", "out") if k in ph))
+                           ("office", "total", "cells", "release", "sheet", "key", "lookup", "trim", "convert", "read",
+                            "hash", "panel", "fit", "model", "compute", "out") if k in ph))
     if args.json:
         with open(args.json, "w") as f:
             json.dump({"results": results, "failures": failures}, f, indent=1)

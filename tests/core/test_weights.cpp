@@ -233,7 +233,6 @@ TEST_CASE("weights: bad weights and refused combinations are named in words", "[
     CHECK_THAT_MESSAGE(fit_text(data, "pooled weights=pop"), "no regressor column is named \"pop\"");
     CHECK_THAT_MESSAGE(fit_text(data, "pooled weights=pop"), "(the columns are: value, capital, w)");
     CHECK_THAT_MESSAGE(fit_text(data, "random weights=w"), "use within with weights");
-    CHECK_THAT_MESSAGE(fit_text(data, "pooled cr2 weights=w"), "use cluster");
     CHECK_THAT_MESSAGE(weft::hausman_test(data, weft::parse_model_text("within weights=w")), "Hausman test");
     const weft::Fit fit = fit_text(data, "within weights=w");
     CHECK_THAT_MESSAGE(weft::hetero_test(fit, weft::HeteroForm::koenker), "not defined for a weighted fit");
