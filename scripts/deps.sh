@@ -44,6 +44,8 @@ python_packages=(
   python3-pandas       # the package's frames and results
   python3-pip          # python.install: pip install of cabi/python from the source tree
   python3-setuptools   # its build backend, used offline (--no-build-isolation)
+  python3-dask         # weft.dask.fit: the fit of a dask dataframe (label dask)
+  python3-distributed  # the local Dask cluster the dask tests and benchmark start
 )
 
 # --- tools: sanitizers, fuzzing, memory checks, benchmarks, the demo's PDF text dump

@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # The test command (README): installs what is missing, configures a Release build with
 # warnings as errors, builds with two jobs and runs every CTest group (core, spec, cabi,
-# oracle, calc, sample, fuzz, python). Exits non-zero on any failure and ends with a summary.
+# oracle, calc, sample, fuzz, python, dask). Exits non-zero on any failure and ends with a summary.
 #
 #   bash scripts/test.sh            build dir: build/
 #   WEFT_BUILD_DIR=build-me bash scripts/test.sh
@@ -14,8 +14,8 @@ jobs=${WEFT_JOBS:-2}
 log_dir="$build_dir/logs"
 # Test groups every run must contain; a group with no registered test fails the run,
 # because a silently missing group would look like a pass.
-required_labels=(core spec event cabi hostile oracle calc sample fuzz python)
-all_labels=(core spec event cabi hostile oracle calc sample fuzz python bench)
+required_labels=(core spec event cabi hostile oracle calc sample fuzz python dask)
+all_labels=(core spec event cabi hostile oracle calc sample fuzz python dask bench)
 
 start_all=$(date +%s)
 declare -a step_names=() step_results=() step_secs=()

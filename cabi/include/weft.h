@@ -923,6 +923,81 @@ WEFT_API int weft_event_warning_count(const weft_event *event, size_t *n_warning
 /** Warning `index` as a borrowed string into *text. Errors: WEFT_EINVAL, WEFT_ERANGE. */
 WEFT_API int weft_event_warning(const weft_event *event, size_t index, const char **text);
 
+/* ------------------------------------------------------------------------------
+ * Fit over partitions (0.3.0): the same fit computed on partitions of whole units
+ * (e.g. inside a distributed engine) and merged. Pooled, fd and within, with or
+ * without period indicators, weighted or not; standard errors classical, hc0, hc1,
+ * cluster, cluster0, cluster-period and dk. Other models are refused (WEFT_EMODEL)
+ * with a message naming what to use. Weights come as for weft_model_new: the panel's
+ * weight column (weft_panel_set_weights) or the model word weights=NAME, the same way
+ * in every partition (merging a weighted partial with an unweighted one is WEFT_EDATA);
+ * a weighted within fit gives no squared correlations at levels, as on one machine.
+ *
+ *   grid    : sorted distinct periods of every row of every partition (the host
+ *             merges them first; the periods as the panel holds them)
+ *   pass 1  : weft_partial_sums per partition, merged with weft_partial_merge
+ *   pass 2  : weft_partial_scores per partition with the merged sums, merged
+ *   finish  : weft_partial_finish(sums, scores) -> a weft_model
+ *
+ * A partition must hold every row of each of its units; a unit split across
+ * partitions gives wrong numbers that weft cannot detect (the host checks it).
+ * Partials travel as bytes (weft_partial_bytes / weft_partial_from_bytes): a format
+ * version and a check sum make a damaged or foreign buffer an error, never a number.
+ * Handles from weft_partial_sums, weft_partial_scores and weft_partial_from_bytes are
+ * the caller's, freed with weft_partial_free; they keep nothing of the panel.
+ * A model from weft_partial_finish answers every weft_model_* getter and
+ * weft_test_joint / weft_test_linear; what needs the equation's rows (residuals,
+ * fitted values, unit effects, weft_test_hetero, weft_test_serial,
+ * weft_test_bootstrap) gives WEFT_ECOMPUTE.
+ * --------------------------------------------------------------------------- */
+
+/** An opaque partial result of a fit over partitions: pass-1 sums or pass-2 scores. */
+typedef struct weft_partial weft_partial;
+
+/** Kinds of partial (weft_partial_kind). */
+enum weft_partial_kind { WEFT_PARTIAL_SUMS = 1, WEFT_PARTIAL_SCORES = 2 };
+
+/** Pass 1 on one partition: the panel's rows under the model text, with the global
+ *  period grid (n_grid sorted distinct values). *out receives a new partial of kind
+ *  WEFT_PARTIAL_SUMS (NULL on failure). Errors: WEFT_EINVAL (NULL out, panel or grid,
+ *  columns not set), WEFT_EMODEL (a model word, or a model the route refuses),
+ *  WEFT_EDATA (the data as weft_model_new; a period not on the grid; a grid not
+ *  sorted), WEFT_ENOMEM. */
+WEFT_API int weft_partial_sums(weft_partial **out, const weft_panel *panel, const char *model_text,
+                               const double *grid, size_t n_grid);
+
+/** Pass 2 on one partition, with the sums of every partition merged. *out receives a
+ *  new partial of kind WEFT_PARTIAL_SCORES. Errors: WEFT_EINVAL (NULL, or sums not of
+ *  kind WEFT_PARTIAL_SUMS), WEFT_EDATA (the data, or no estimate can be made from the
+ *  sums: the message says why), WEFT_ENOMEM. */
+WEFT_API int weft_partial_scores(weft_partial **out, const weft_panel *panel, const weft_partial *sums);
+
+/** into += other (same kind, same model, grid and columns; any order and grouping
+ *  gives the same fit to rounding). other is unchanged. Errors: WEFT_EINVAL (NULL,
+ *  kinds differ), WEFT_EDATA (made for different models, grids or columns). */
+WEFT_API int weft_partial_merge(weft_partial *into, const weft_partial *other);
+
+/** The partial as bytes. *needed = their count. Buffer convention as at the top.
+ *  Errors: WEFT_EINVAL, WEFT_EBUFFER. */
+WEFT_API int weft_partial_bytes(const weft_partial *partial, unsigned char *buf, size_t capacity,
+                                size_t *needed);
+
+/** A new partial read from bytes written by weft_partial_bytes (copied; the bytes may
+ *  be freed after). Errors: WEFT_EINVAL (NULL), WEFT_EDATA (not a partial, another
+ *  format version, truncated, or a check sum that does not match). */
+WEFT_API int weft_partial_from_bytes(weft_partial **out, const unsigned char *bytes, size_t size);
+
+/** The kind of a partial (enum weft_partial_kind) into *kind. Errors: WEFT_EINVAL. */
+WEFT_API int weft_partial_kind(const weft_partial *partial, int *kind);
+
+/** The fitted model from the merged sums and scores; free it with weft_model_free.
+ *  Errors: WEFT_EINVAL (NULL, wrong kinds), WEFT_EDATA (scores not made from these
+ *  sums, fewer than 2 clusters, too few rows...), WEFT_ENOMEM. */
+WEFT_API int weft_partial_finish(weft_model **out, const weft_partial *sums, const weft_partial *scores);
+
+/** Release a partial. NULL does nothing. */
+WEFT_API void weft_partial_free(weft_partial *partial);
+
 #ifdef __cplusplus
 }
 #endif

@@ -42,6 +42,7 @@ struct weft_model {
     weft_options options{};
     std::vector<double> table;                     // K x WEFT_COEF_COLUMNS, row-major
     std::vector<SummaryEntry> summary;
+    bool partitioned = false;                      // made over partitions (weft_partial_finish): no rows
 };
 
 namespace weft_cabi {
@@ -53,4 +54,8 @@ void require_model(const weft_model* model, const char* function);
 // The model's fit with the estimated equation's rows: the fit itself, or (for a lean
 // fit) a full refit of the same data and options, made once and kept.
 const weft::Fit& full_fit(const weft_model* model);
+// A model of a fit made elsewhere (weft_partial_finish): table and summary built.
+weft_model* package_fit(weft::Fit fit);
+// Refuses (WEFT_ECOMPUTE) what a model fitted over partitions cannot give.
+void require_rows_here(const weft_model* model, const char* what);
 }  // namespace weft_cabi

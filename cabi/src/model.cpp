@@ -21,8 +21,15 @@ void require_model(const weft_model* model, const char* function) {
     require(model, function, "model");
 }
 
+void require_rows_here(const weft_model* model, const char* what) {
+    if (model->partitioned)
+        fail(WEFT_ECOMPUTE, std::string(what) + " needs the rows of the estimated equation, and a model fitted over "
+                            "partitions keeps none of them; fit the data on one machine (weft_model_new) for it");
+}
+
 const weft::Fit& full_fit(const weft_model* model) {
     if (model->fit.equation.rows_held()) return model->fit;
+    require_rows_here(model, "this test");
     std::lock_guard<std::mutex> lock(model->full_mutex);
     if (!model->full) model->full = std::make_shared<const weft::Fit>(weft::fit_model(*model->data, model->fit.spec));
     return *model->full;
@@ -79,7 +86,7 @@ std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
     if (cov.kind == weft::Covariance::dk && cov.dk_lag >= 0 && se.find("lag") == std::string::npos)
         se += ", lag " + std::to_string(cov.dk_lag);
     text("standard errors", se);
-    if (fit.equation.weighted()) {
+    if (fit.weighted) {
         text("weights", fit.spec.weights.empty() ? std::string("the panel's weight column")
                                                  : "regressor column " + fit.spec.weights);
         number("rows with weight 0", static_cast<double>(fit.rows_zero_weight));
@@ -205,7 +212,7 @@ std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
         return is_cluster(fit.covariance.kind) ? std::optional<double>(static_cast<double>(fit.covariance.clusters))
                                                : std::nullopt;
     if (what == "rows-dropped") return static_cast<double>(fit.rows_dropped);
-    if (what == "weighted") return fit.equation.weighted() ? 1.0 : 0.0;
+    if (what == "weighted") return fit.weighted ? 1.0 : 0.0;
     if (what == "rows-zero-weight") return static_cast<double>(fit.rows_zero_weight);
     if (what == "sigma2-idiosyncratic" || what == "sigma2-unit" || what == "theta") {
         if (!fit.random_effects) return std::nullopt;
@@ -244,9 +251,14 @@ weft_model* new_model(const weft_panel* panel, const weft::ModelSpec& spec, cons
                 throw weft::Error("regressors " + std::to_string(j + 1) + " and " + std::to_string(i + 1) +
                                   " are both named \"" + name + "\"; give each regressor its own name");
     }
-    auto model = std::make_unique<weft_model>();
-    model->fit = lean ? weft::fit_model_lean(*panel->data, spec) : weft::fit_model(*panel->data, spec);
+    weft_model* model = package_fit(lean ? weft::fit_model_lean(*panel->data, spec) : weft::fit_model(*panel->data, spec));
     if (!model->fit.equation.rows_held()) model->data = panel->data;
+    return model;
+}
+
+weft_model* package_fit(weft::Fit fit) {
+    auto model = std::make_unique<weft_model>();
+    model->fit = std::move(fit);
     model->options = from_spec(model->fit.spec);
     model->table = build_table(model->fit);
     model->summary = build_summary(model->fit);
@@ -354,6 +366,7 @@ int weft_model_unit_effects(const weft_model* model, double* buf, unsigned char*
     return guarded(WEFT_ECOMPUTE, [&] {
         const char* fn = "weft_model_unit_effects";
         require_model(model, fn);
+        require_rows_here(model, fn);
         const weft::Fit& fit = model->fit;
         if (fit.spec.estimator != weft::Estimator::within || fit.unit_effects.empty())
             fail(WEFT_ECOMPUTE, std::string("unit effects are estimated by within only; this model is ") +
@@ -503,6 +516,7 @@ int weft_model_residuals(const weft_model* model, double* buf, unsigned char* un
                          size_t* needed) {
     return guarded(WEFT_EINVAL, [&] {
         require_model(model, "weft_model_residuals");
+        require_rows_here(model, "weft_model_residuals");
         return write_aligned(model->fit.residuals, buf, unused, capacity, needed, "weft_model_residuals");
     });
 }
@@ -511,6 +525,7 @@ int weft_model_fitted(const weft_model* model, double* buf, unsigned char* unuse
                       size_t* needed) {
     return guarded(WEFT_EINVAL, [&] {
         require_model(model, "weft_model_fitted");
+        require_rows_here(model, "weft_model_fitted");
         return write_aligned(model->fit.fitted, buf, unused, capacity, needed, "weft_model_fitted");
     });
 }

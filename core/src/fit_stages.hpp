@@ -10,6 +10,9 @@
 //                                           pass (lean.cpp); both end in covariance_from_meat
 //   inference, fit stats fit_inference.cpp  term_inference, fit_statistics, aligned_series
 //
+//   over partitions    merge_*.cpp        the same stages per partition of whole units,
+//                                           merged (weft/merge.hpp)
+//
 // model.cpp runs them in order (fit_model, fit_model_lean). A new capability is a new
 // stage or a new implementation of one, not a branch inside another.
 #pragma once

@@ -125,6 +125,7 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     fit.index = build_index(data.units, data.periods, data.first_row_number);
     const detail::RowChoice choice = detail::choose_rows(data, fit.index, weights, fit);
     const detail::Context ctx = detail::make_context(data, spec, fit.index, choice.used, weights);
+    fit.weighted = weights.column != nullptr;
 
     // ---- form the equation, accumulate and solve, scores and covariance
     std::vector<std::size_t> rows;   // full route: the used rows in unit order, by unit

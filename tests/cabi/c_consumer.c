@@ -1569,6 +1569,205 @@ static void test_event(void)
     weft_panel_free(p);
 }
 
+/* The fit over partitions (weft_partial_*): Grunfeld cut into 3 partitions of whole
+ * firms (D: rows sorted by firm, 20 a firm), every partial sent through its bytes. The
+ * merged fd fit must give F's numbers. */
+static weft_panel *partition_panel(const grunfeld *g, size_t begin, size_t end)
+{
+    weft_panel *p = NULL;
+    OK(weft_panel_new(&p, end - begin, 2 + begin));
+    if (p == NULL) return NULL;
+    OK(weft_panel_set_units_number(p, g->firm + begin, NULL));
+    OK(weft_panel_set_periods(p, g->year + begin, NULL));
+    OK(weft_panel_set_outcome(p, "inv", g->inv + begin, NULL));
+    OK(weft_panel_add_regressor(p, "value", g->value + begin, NULL));
+    OK(weft_panel_add_regressor(p, "capital", g->capital + begin, NULL));
+    return p;
+}
+
+static weft_partial *through_bytes(const weft_partial *partial)
+{
+    size_t needed = 0;
+    unsigned char *bytes;
+    weft_partial *copy = NULL;
+    OK(weft_partial_bytes(partial, NULL, 0, &needed));
+    bytes = (unsigned char *)malloc(needed);
+    OK(weft_partial_bytes(partial, bytes, needed, &needed));
+    OK(weft_partial_from_bytes(&copy, bytes, needed));
+    free(bytes);
+    return copy;
+}
+
+/* FNV-1a 64 of the partial's bytes before its last 8 (the layout in core's
+ * merge_bytes.cpp), so that a changed payload can be re-sealed and reach the reader. */
+static void reseal(unsigned char *bytes, size_t size)
+{
+    unsigned long long h = 14695981039346656037ULL;
+    size_t i;
+    for (i = 0; i + 8 < size; ++i) {
+        h ^= bytes[i];
+        h *= 1099511628211ULL;
+    }
+    memcpy(bytes + size - 8, &h, 8);
+}
+
+/* Every truncation and every one-byte change of a partial's bytes (re-sealed, so the
+ * reader sees it) is refused or read, never a crash (valgrind runs this too). */
+static void partial_bytes_hostile(const weft_partial *partial)
+{
+    size_t needed = 0, i;
+    unsigned char *bytes, *copy;
+    weft_partial *read = NULL;
+    int status;
+    OK(weft_partial_bytes(partial, NULL, 0, &needed));
+    bytes = (unsigned char *)malloc(needed);
+    copy = (unsigned char *)malloc(needed);
+    OK(weft_partial_bytes(partial, bytes, needed, &needed));
+    for (i = 0; i < needed; ++i) {
+        status = weft_partial_from_bytes(&read, bytes, i);
+        CHECK(status == WEFT_EDATA && read == NULL);
+    }
+    for (i = 24; i + 8 < needed; ++i) {
+        memcpy(copy, bytes, needed);
+        copy[i] ^= 0x5a;
+        reseal(copy, needed);
+        status = weft_partial_from_bytes(&read, copy, needed);
+        CHECK(status == WEFT_OK || status == WEFT_EDATA);
+        weft_partial_free(read);
+        read = NULL;
+    }
+    free(copy);
+    free(bytes);
+}
+
+static void test_partials(const grunfeld *g)
+{
+    static const char *const terms[] = {"intercept", "value", "capital"};
+    /* F results.coef, results.se.classical */
+    static const double fd_coef[] = {-1.81889015858514, 0.0897624949908166, 0.29176671969407};
+    static const double fd_se[] = {3.56559313557045, 0.00836358501627507, 0.0537515976408947};
+    static const size_t cuts[] = {0, 60, 100, 200};
+    double grid[20], resid[MAX_ROWS];
+    weft_panel *parts[3];
+    weft_partial *sums = NULL, *scores = NULL, *one = NULL, *copy = NULL;
+    weft_model *m = NULL;
+    unsigned char small[8], *bytes;
+    size_t i, needed = 0;
+    int kind = 0;
+    const char *terms_joint[] = {"value", "capital"};
+    weft_wald_result w;
+
+    for (i = 0; i < 20; ++i) grid[i] = 1935.0 + (double)i;  /* D: years 1935-1954 */
+    for (i = 0; i < 3; ++i) parts[i] = partition_panel(g, cuts[i], cuts[i + 1]);
+    for (i = 0; i < 3; ++i) {
+        OK(weft_partial_sums(&one, parts[i], "fd", grid, 20));
+        copy = through_bytes(one);
+        weft_partial_free(one);
+        if (sums == NULL) sums = copy;
+        else { OK(weft_partial_merge(sums, copy)); weft_partial_free(copy); }
+    }
+    OK(weft_partial_kind(sums, &kind));
+    CHECK(kind == WEFT_PARTIAL_SUMS);
+    for (i = 0; i < 3; ++i) {
+        OK(weft_partial_scores(&one, parts[i], sums));
+        copy = through_bytes(one);
+        weft_partial_free(one);
+        if (scores == NULL) scores = copy;
+        else { OK(weft_partial_merge(scores, copy)); weft_partial_free(copy); }
+    }
+    OK(weft_partial_kind(scores, &kind));
+    CHECK(kind == WEFT_PARTIAL_SCORES);
+    partial_bytes_hostile(sums);
+    partial_bytes_hostile(scores);
+    OK(weft_partial_finish(&m, sums, scores));
+    check_table(m, terms, fd_coef, fd_se, 3, "F results.coef / se.classical, over partitions");
+    NEAR(value_of(m, "ssr", NULL), 345455.886220664, "F results.rss");
+    NEAR(value_of(m, "n", NULL), 190, "F sample.nobs");
+    OK(weft_test_joint(m, terms_joint, 2, &w));
+    CHECK(w.f_df1 == 2 && w.f_df2 == 187);
+    /* what needs the equation's rows is refused by name */
+    EXPECT_ERROR(weft_model_residuals(m, resid, NULL, MAX_ROWS, NULL), WEFT_ECOMPUTE, "over partitions");
+    weft_model_free(m);
+
+    /* misuse and damaged bytes */
+    EXPECT_ERROR(weft_partial_sums(&one, parts[0], "between", grid, 20), WEFT_EMODEL, "one machine");
+    CHECK(one == NULL);
+    EXPECT_ERROR(weft_partial_sums(&one, parts[0], "fd cr2", grid, 20), WEFT_EMODEL, "use cluster");
+    EXPECT_ERROR(weft_partial_sums(&one, parts[0], "fd", grid, 3), WEFT_EDATA, "not on the period grid");
+    EXPECT_ERROR(weft_partial_sums(&one, parts[0], "fd", NULL, 20), WEFT_EINVAL, "grid is NULL");
+    EXPECT_ERROR(weft_partial_merge(sums, scores), WEFT_EINVAL, "pass-1 sums");
+    EXPECT_ERROR(weft_partial_finish(&m, scores, sums), WEFT_EINVAL, "sums");
+    EXPECT_ERROR(weft_partial_scores(&one, parts[0], scores), WEFT_EINVAL, "pass-1 sums");
+    EXPECT_ERROR(weft_partial_bytes(sums, small, sizeof small, &needed), WEFT_EBUFFER, "pass a buffer");
+    bytes = (unsigned char *)malloc(needed);
+    OK(weft_partial_bytes(sums, bytes, needed, &needed));
+    bytes[needed / 2] ^= 0x01;
+    EXPECT_ERROR(weft_partial_from_bytes(&one, bytes, needed), WEFT_EDATA, "check sum");
+    EXPECT_ERROR(weft_partial_from_bytes(&one, bytes, needed - 3), WEFT_EDATA, "truncated");
+    free(bytes);
+    weft_partial_free(NULL);
+    weft_partial_free(sums);
+    weft_partial_free(scores);
+    for (i = 0; i < 3; ++i) weft_panel_free(parts[i]);
+}
+
+/* The weighted fit over partitions: Grunfeld with the weight column of
+ * grunfeld_weighted.csv, 3 partitions of whole firms, every partial through its bytes;
+ * within cluster against tests/data/panel/weights_reference.json (R lm(weights = ) with
+ * sandwich 3.0.2, within.cluster.se), and a weighted partial refuses an unweighted one. */
+static weft_partial *merged_pass(weft_panel *const *parts, const char *model, const double *grid,
+                                 const weft_partial *sums)
+{
+    weft_partial *merged = NULL, *one = NULL, *copy;
+    size_t i;
+    for (i = 0; i < 3; ++i) {
+        if (sums == NULL) OK(weft_partial_sums(&one, parts[i], model, grid, 20));
+        else OK(weft_partial_scores(&one, parts[i], sums));
+        copy = through_bytes(one);
+        weft_partial_free(one);
+        if (merged == NULL) merged = copy;
+        else { OK(weft_partial_merge(merged, copy)); weft_partial_free(copy); }
+    }
+    return merged;
+}
+
+static void test_partials_weighted(const grunfeld *g, const char *grunfeld_path)
+{
+    static const double within_se[] = {0.0173401463384039, 0.056109605975211};
+    static const size_t cuts[] = {0, 60, 100, 200};
+    static double w[MAX_ROWS];
+    double grid[20], table[2 * WEFT_COEF_COLUMNS];
+    weft_panel *parts[3], *plain;
+    weft_partial *sums, *scores, *other = NULL;
+    weft_model *m = NULL;
+    weft_summary_item item;
+    size_t i, needed = 0;
+    CHECK(read_weights(grunfeld_path, w));
+    for (i = 0; i < 20; ++i) grid[i] = 1935.0 + (double)i;
+    for (i = 0; i < 3; ++i) {
+        parts[i] = partition_panel(g, cuts[i], cuts[i + 1]);
+        OK(weft_panel_set_weights(parts[i], "w", w + cuts[i], NULL));
+    }
+    sums = merged_pass(parts, "within cluster", grid, NULL);
+    scores = merged_pass(parts, "within cluster", grid, sums);
+    OK(weft_partial_finish(&m, sums, scores));
+    OK(weft_model_coefficients(m, table, 2 * WEFT_COEF_COLUMNS, &needed));
+    for (i = 0; i < 2; ++i)
+        NEAR_TOL(table[i * WEFT_COEF_COLUMNS + WEFT_COEF_SE], within_se[i], 1e-9,
+                 "weights_reference within.cluster.se, over partitions");
+    CHECK(summary_find(m, "rows with weight 0", &item) > 0 && item.number == 2.0);
+    CHECK(value_of(m, "weighted", NULL) == 1.0);
+    weft_model_free(m);
+    plain = partition_panel(g, 0, 60);
+    OK(weft_partial_sums(&other, plain, "within cluster", grid, 20));
+    EXPECT_ERROR(weft_partial_merge(sums, other), WEFT_EDATA, "different weights");
+    weft_partial_free(other);
+    weft_panel_free(plain);
+    weft_partial_free(sums);
+    weft_partial_free(scores);
+    for (i = 0; i < 3; ++i) weft_panel_free(parts[i]);
+}
+
 int main(int argc, char **argv)
 {
     static grunfeld g;
@@ -1593,6 +1792,8 @@ int main(int argc, char **argv)
     test_cr2(&g);
     test_weights(&g, argv[1]);
     test_event();
+    test_partials(&g);
+    test_partials_weighted(&g, argv[1]);
     printf("c_consumer: %d checks, %d failed\n", checks, failures);
     return failures == 0 ? 0 : 1;
 }

@@ -11,3 +11,7 @@ class WeftError(ValueError):
         super().__init__(message)
         self.message = message
         self.status = status
+
+    def __reduce__(self):
+        # keeps the status when the error travels between processes (a Dask worker)
+        return type(self), (self.message, self.status)

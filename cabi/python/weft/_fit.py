@@ -41,9 +41,11 @@ class _Handle:
         self._finalizer = weakref.finalize(self, free, pointer)
 
 
-def _panel(lib, frame, outcome, regressors, unit, period, weights=None):
+def _panel(lib, frame, outcome, regressors, unit, period, weights=None, first_row=0):
     """A new weft panel with the frame's columns (outcome, regressors, periods and weights
-    borrowed in place, units copied) and the arrays it borrows."""
+    borrowed in place, units copied) and the arrays it borrows. first_row: the number
+    weft's messages give the frame's first row (a partition's position in the whole
+    frame)."""
     regressors = [regressors] if isinstance(regressors, str) else list(regressors)
     columns = {"outcome": _columns.take(frame, outcome, "outcome"),
                "unit": _columns.take(frame, unit, "unit"),
@@ -56,7 +58,7 @@ def _panel(lib, frame, outcome, regressors, unit, period, weights=None):
     pointer = ctypes.c_void_p()
     # first_row 0: a row number in weft's messages is the row's position in the frame
     # (frame.iloc[n]), whatever the frame's index.
-    _check(lib, lib.weft_panel_new(ctypes.byref(pointer), len(frame), 0))
+    _check(lib, lib.weft_panel_new(ctypes.byref(pointer), len(frame), first_row))
     handle = _Handle(lib, lib.weft_panel_free, pointer)
     kind, ids, missing = _columns.units(columns["unit"])
     if kind == "number":
@@ -161,8 +163,10 @@ class Result:
                   model's standard errors
     summary       dict of the summary items (WEFT.SUMMARY), label -> number or text
     residuals     Series on the frame's index: residual of the estimated equation, NaN
-                  where a row is not in it (missing value; fd: first period of a unit)
+                  where a row is not in it (missing value; fd: first period of a unit);
+                  None for a fit over partitions (weft.dask.fit: they stay there)
     fitted        Series on the frame's index, fitted values of the estimated equation
+                  (None as residuals)
     dropped       dict term -> why it was dropped (collinear, no variation within units)
     warnings      list of weft's warnings about the fit
     model         the canonical model text
@@ -179,8 +183,9 @@ class Result:
         self.covariance = pd.DataFrame(matrix, index=term_index, columns=pd.Index(terms, name="term"))
         self.summary = _summary(lib, pointer)
         self.model = self.summary.get("model")
-        self.residuals = _by_row(lib, lib.weft_model_residuals, pointer, index, "residual")
-        self.fitted = _by_row(lib, lib.weft_model_fitted, pointer, index, "fitted")
+        # index None: a model fitted over partitions, which holds no rows
+        self.residuals = None if index is None else _by_row(lib, lib.weft_model_residuals, pointer, index, "residual")
+        self.fitted = None if index is None else _by_row(lib, lib.weft_model_fitted, pointer, index, "fitted")
         self.dropped = dict(_borrowed_texts(lib, lib.weft_model_dropped, pointer,
                                             lib.weft_model_dropped_count, 2))
         self.warnings = _borrowed_texts(lib, lib.weft_model_warning, pointer,

@@ -212,6 +212,7 @@ struct Fit {
     std::size_t rows_used = 0;          // input rows used (levels rows)
     std::size_t rows_dropped = 0;       // rows dropped for a missing value (listwise; a blank weight too)
     std::size_t rows_zero_weight = 0;   // rows left out because their weight is 0 (not in rows_used)
+    bool weighted = false;              // a weighted fit (Equation::weights is empty over partitions)
     std::size_t nobs = 0;               // equation rows N (fd: differences; between: units)
     std::size_t n_units = 0;
     std::size_t n_periods = 0;
