@@ -176,7 +176,7 @@ void unweigh_series(const std::vector<std::size_t>& rows, const UnitRuns& runs, 
 }
 
 void refuse_weighted(const Equation& eq, const char* what, const char* instead) {
-    if (eq.weights.size() != 0)
+    if (eq.weighted())
         throw Error(std::string(what) + ": not defined for a weighted fit in weft; " + instead);
 }
 

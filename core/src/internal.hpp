@@ -133,6 +133,12 @@ struct LeanInput {
     bool units_in_order = true;   // their unit numbers never decrease (else the score pass holds every unit's sums)
     std::size_t units = 0;    // distinct units among them
     std::size_t periods = 0;  // distinct grid periods among them
+    // The regressor columns (null: every column of data.regressors; weights=NAME leaves
+    // the weight column out) and, for a weighted fit, the weight column: each equation
+    // row (fd: the later row's weight) is read times sqrt(w), as weigh_equation scales
+    // the full route's rows.
+    const std::vector<const Column*>* regressors = nullptr;
+    const Column* weights = nullptr;
 };
 
 struct LeanResult {

@@ -1,5 +1,9 @@
 // Lean fits: the estimated equation of pooled or fd in streaming passes over the
 // caller's columns, never holding its N x K design (see fit_model_lean in model.hpp).
+// A weighted fit (CONVENTIONS.md "Observation weights") reads every equation row times
+// sqrt(w) (fd: the later row's w), as fit_weights.cpp scales the full route's rows: the
+// row weight below is then sqrt(w), the count N becomes sum w, and every step is the
+// unweighted one on the scaled rows.
 //
 // The steps are the solver's Gram route (solver.cpp), in the same working basis
 // (columns centred against the intercept and scaled to unit length):
@@ -141,12 +145,22 @@ struct Piece {
 struct Block {
     Index rows = 0;                    // block rows
     std::size_t first = 0;             // sorted input: the input row of block row 0 (rows are consecutive)
-    const double* keep = nullptr;      // per block row: 1 for an equation row, 0 for a row to skip
+    const double* keep = nullptr;      // per block row: 1 (weighted: sqrt(w)) for an equation row, 0 for a row to skip
     const std::size_t* input = nullptr;  // unsorted input: the input row of each block row
     std::size_t input_row(Index i) const { return input != nullptr ? input[i] : first + static_cast<std::size_t>(i); }
 };
 
+// The regressor columns the equation reads (LeanInput::regressors, else all).
+std::vector<const Column*> regressor_columns(const LeanInput& in) {
+    std::vector<const Column*> out;
+    if (in.regressors != nullptr) return *in.regressors;
+    for (const Column& x : in.data.regressors) out.push_back(&x);
+    return out;
+}
+
 // Reads [X, y] of the estimated equation (original scale; fd: differences) in blocks.
+// Weighted (LeanInput::weights): every row times sqrt(w), the block's keep then holding
+// sqrt(w) (0 for a row to skip).
 // Sorted input (LeanInput::is_row): a block is a range of input rows, read by
 // whole-column vector operations; rows that are not equation rows (a unit's first row,
 // a row with a missing value) are written as 0 and have weight 0. Otherwise the
@@ -174,10 +188,11 @@ public:
             }
             keep_.assign(static_cast<std::size_t>(block), 1.0);
         }
-        for (const Column& x : in.data.regressors) {
-            columns_.push_back(x.data());
-            masks_.push_back(x.mask());
+        for (const Column* x : regressor_columns(in)) {
+            columns_.push_back(x->data());
+            masks_.push_back(x->mask());
         }
+        if (in.weights != nullptr) weights_ = in.weights->data();
         columns_.push_back(in.data.outcome.data());
         masks_.push_back(in.data.outcome.mask());
     }
@@ -211,6 +226,7 @@ public:
             // the block's weights from the row marks (0 or 1)
             for (Index i = 0; i < b; ++i) keep_[static_cast<std::size_t>(i)] = marks_[a + static_cast<std::size_t>(i)] != 0 ? 1.0 : 0.0;
             blk.keep = keep_.data();
+            if (weights_ != nullptr) root_weights(blk);
             for (Index c = 0; c < width(); ++c) {
                 const double* x = columns_[static_cast<std::size_t>(c)];
                 // a column without a mask is checked in the same loop that reads it
@@ -220,8 +236,9 @@ public:
                 // a > 0 for fd: the first equation row has its earlier row before it
                 double squares = 0;
                 bool finite = true;
-                kept_column(x + a, fd_ ? x + a - 1 : nullptr, blk.keep, shift[c], mult[c], out.col(col0 + c).data(), b,
-                            levels != nullptr ? &squares : nullptr, check_values && finite_ && unmasked ? &finite : nullptr);
+                kept_column(x + a, fd_ ? x + a - 1 : nullptr, blk.keep, weights_ != nullptr, shift[c], mult[c],
+                            out.col(col0 + c).data(), b, levels != nullptr ? &squares : nullptr,
+                            check_values && finite_ && unmasked ? &finite : nullptr);
                 if (levels != nullptr) (*levels)[c] += squares;
                 if (!finite) finite_ = false;
             }
@@ -233,6 +250,7 @@ public:
         blk.rows = end - first;
         blk.keep = keep_.data();
         blk.input = later.data() + first;
+        if (weights_ != nullptr) root_weights(blk);
         while (cursor_ < pieces_.size() && pieces_[cursor_].at + pieces_[cursor_].length <= first) ++cursor_;
         for (std::size_t q_i = cursor_; q_i < pieces_.size() && pieces_[q_i].at < end; ++q_i) {
             const Piece& q = pieces_[q_i];
@@ -250,11 +268,35 @@ public:
                 }
             }
         }
+        if (weights_ != nullptr) weigh_block(out, col0, blk.rows);
         return blk;
     }
 
+    // Weighted: the largest sqrt(w) read so far (the fd threshold test's bound).
+    double max_root_weight() const { return max_root_; }
+
 private:
     bool sorted() const { return in_.is_row != nullptr; }
+
+    // Weighted: the block's keep becomes sqrt(w) of each equation row's input row (fd:
+    // the later row), 0 elsewhere as before (a select: a row that is not an equation row
+    // may hold any weight, NaN or negative included).
+    void root_weights(const Block& blk) {
+        Eigen::Map<Eigen::ArrayXd> keep(keep_.data(), blk.rows);
+        if (blk.input == nullptr) {
+            const Eigen::Map<const Eigen::ArrayXd> w(weights_ + blk.first, blk.rows);
+            keep = (keep != 0.0).select(w.sqrt(), 0.0);
+        } else {
+            for (Index i = 0; i < blk.rows; ++i) keep[i] = std::sqrt(weights_[blk.input[i]]);
+        }
+        if (blk.rows > 0) max_root_ = std::max(max_root_, keep.maxCoeff());
+    }
+
+    // Weighted, unsorted input: the block's rows times sqrt(w).
+    void weigh_block(MatrixXd& out, Index col0, Index b) const {
+        const Eigen::Map<const Eigen::ArrayXd> root(keep_.data(), b);
+        for (Index c = 0; c < width(); ++c) out.col(col0 + c).head(b).array() *= root;
+    }
 
     // Ask for the start of the next block of a column ahead of time, every
     // kPrefetchStride values: hardware prefetchers stop at each 4 KiB page of a host's
@@ -267,27 +309,32 @@ private:
 
     // dest[i] = ((now[i] - before[i]) - shift) * mult where keep[i] != 0, else 0 (a
     // select, not a product: a missing cell may hold any value, NaN included); before
-    // null: no difference. squares (optional) gets the sum of now[i]^2 over kept rows
-    // (a threshold test only: partial sums, in any order); finite (optional) is set to
-    // false if some now[i] is not a finite number (inf * 0 and NaN * 0 are NaN). One
-    // loop does all three, so that each value is loaded once.
+    // null: no difference; weigh: the kept value times keep[i] (sqrt(w)). squares
+    // (optional) gets the sum of now[i]^2 over kept rows (a threshold test only: partial
+    // sums, in any order); finite (optional) is set to false if some now[i] is not a
+    // finite number (inf * 0 and NaN * 0 are NaN). One loop does all of it, so that each
+    // value is loaded once.
     static void kept_column(const double* __restrict now, const double* __restrict before,
-                            const double* __restrict keep, double shift, double mult, double* __restrict dest,
-                            Index b, double* squares, bool* finite) {
-        const bool diff = before != nullptr, sq = squares != nullptr, check = finite != nullptr;
+                            const double* __restrict keep, bool weigh, double shift, double mult,
+                            double* __restrict dest, Index b, double* squares, bool* finite) {
         using Loop = void (*)(const double*, const double*, const double*, double, double, double*, Index, double*,
                               bool*);
-        static constexpr Loop loops[8] = {
-            kept_loop<false, false, false>, kept_loop<false, false, true>, kept_loop<false, true, false>,
-            kept_loop<false, true, true>,   kept_loop<true, false, false>,  kept_loop<true, false, true>,
-            kept_loop<true, true, false>,   kept_loop<true, true, true>};
-        loops[(diff ? 4 : 0) + (sq ? 2 : 0) + (check ? 1 : 0)](now, before, keep, shift, mult, dest, b, squares, finite);
+        static constexpr Loop loops[16] = {kept_loop<0>, kept_loop<1>, kept_loop<2>,  kept_loop<3>,
+                                           kept_loop<4>, kept_loop<5>, kept_loop<6>,  kept_loop<7>,
+                                           kept_loop<8>, kept_loop<9>, kept_loop<10>, kept_loop<11>,
+                                           kept_loop<12>, kept_loop<13>, kept_loop<14>, kept_loop<15>};
+        const int flags = (weigh ? kWeigh : 0) | (before != nullptr ? kDiff : 0) | (squares != nullptr ? kSquares : 0) |
+                          (finite != nullptr ? kCheck : 0);
+        loops[flags](now, before, keep, shift, mult, dest, b, squares, finite);
     }
+    static constexpr int kCheck = 1, kSquares = 2, kDiff = 4, kWeigh = 8;
 
-    template <bool Diff, bool Squares, bool Check>
+    template <int Flags>
     static void kept_loop(const double* __restrict now, const double* __restrict before,
                           const double* __restrict keep, double shift, double mult, double* __restrict dest, Index b,
                           double* squares, bool* finite) {
+        constexpr bool Check = (Flags & kCheck) != 0, Squares = (Flags & kSquares) != 0, Diff = (Flags & kDiff) != 0,
+                       Weigh = (Flags & kWeigh) != 0;
         Index i = 0;
         double sq = 0, probe = 0;
 #if defined(__SSE2__)
@@ -296,10 +343,12 @@ private:
         __m128d sq2 = zero, probe2 = zero;
         for (; i + 2 <= b; i += 2) {
             const __m128d x = _mm_loadu_pd(now + i);
-            const __m128d kept = _mm_cmpneq_pd(_mm_loadu_pd(keep + i), zero);
+            const __m128d k = _mm_loadu_pd(keep + i);
+            const __m128d kept = _mm_cmpneq_pd(k, zero);
             __m128d v = x;
             if constexpr (Diff) v = _mm_sub_pd(v, _mm_loadu_pd(before + i));
             v = _mm_mul_pd(_mm_sub_pd(v, s), m);
+            if constexpr (Weigh) v = _mm_mul_pd(v, k);
             _mm_storeu_pd(dest + i, _mm_and_pd(v, kept));
             if constexpr (Squares) {
                 const __m128d xk = _mm_and_pd(x, kept);
@@ -315,7 +364,7 @@ private:
 #endif
         for (; i < b; ++i) {
             const double v = ((Diff ? now[i] - before[i] : now[i]) - shift) * mult;
-            dest[i] = keep[i] != 0.0 ? v : 0.0;
+            dest[i] = keep[i] != 0.0 ? (Weigh ? v * keep[i] : v) : 0.0;
             if constexpr (Squares) {
                 const double xk = keep[i] != 0.0 ? now[i] : 0.0;
                 sq += xk * xk;
@@ -351,12 +400,14 @@ private:
     Index block_;
     std::size_t lo_ = 0, hi_ = 0;          // sorted: the input rows [lo_, hi_) hold every equation row
     const std::uint8_t* marks_ = nullptr;  // sorted: LeanInput::is_row
-    std::vector<double> keep_;             // sorted: weights of the block's rows; unsorted: ones
+    std::vector<double> keep_;             // row weights of the block (sorted: 0 or 1, unsorted: 1; weighted: sqrt(w) for 1)
     std::vector<Piece> pieces_;
     std::vector<const double*> columns_;
     std::vector<const std::uint8_t*> masks_;
     bool finite_ = true;
     std::size_t cursor_ = 0;
+    const double* weights_ = nullptr;      // weighted: the weight column
+    double max_root_ = 0;
 };
 
 }  // namespace
@@ -371,12 +422,13 @@ struct LeanShape {
     Index c0 = 0;        // working column of the first regressor
     Index N = 0;         // equation rows
     Index block = kLeanBlockRows;
-    bool intercept = false, fd = false;
-    double n_d = 0;
+    bool intercept = false, fd = false, weighted = false;
+    double n_d = 0;       // N; weighted: sum w (the intercept's scale and the means' divisor)
+    double max_w = 0;     // weighted: the largest w
 };
 
 // What the accumulating pass gathers: SE, the Gram matrix of B = [w, v - s0, e, 0...]
-// (w the row weight: 1, or 0 for a row that is not an equation row; e the start's
+// (w the row weight: 1 or sqrt(w), 0 for a row that is not an equation row; e the start's
 // residual), s0, the fd levels' sums of squares, and the start y ~ start_constant +
 // x' start_slopes with the sums h = sum [w, v - s0] e of its refinement step.
 struct FirstPass {
@@ -451,8 +503,12 @@ FirstPass accumulate_gram(BlockReader& reader, const LeanShape& sh, MatrixXd& B)
             const double count = keep.sum();
             if (count > 0) {
                 fp.s0 = B.block(0, 1, b, m).colwise().sum().transpose() / count;
-                B.block(0, 1, b, m).rowwise() -= fp.s0.transpose();
-                B.block(0, 1, b, m).array().colwise() *= keep.array();
+                if (sh.weighted) {
+                    B.block(0, 1, b, m).noalias() -= keep * fp.s0.transpose();   // sqrt(w) (v - s0)
+                } else {
+                    B.block(0, 1, b, m).rowwise() -= fp.s0.transpose();
+                    B.block(0, 1, b, m).array().colwise() *= keep.array();
+                }
                 shifted = true;
             }
         }
@@ -466,6 +522,14 @@ FirstPass accumulate_gram(BlockReader& reader, const LeanShape& sh, MatrixXd& B)
     }
     fp.h += fp.SE.row(m + 1).head(m + 1).transpose();
     return fp;
+}
+
+// Weighted: the intercept's scale and the means' divisor become sum w (the Gram
+// matrix's count, the sum of the squared weight column sqrt(w)), and the largest w is
+// kept for the fd threshold test.
+void weighted_count(const BlockReader& reader, const FirstPass& fp, LeanShape& sh) {
+    sh.n_d = fp.SE(0, 0);
+    sh.max_w = reader.max_root_weight() * reader.max_root_weight();
 }
 
 // The working system of the accumulated sums, or empty when the full route must
@@ -486,7 +550,8 @@ std::optional<WorkingSystem> lean_system(const LeanShape& sh, const FirstPass& f
     if (!sys.usable) return std::nullopt;
     for (Index j = 0; j < k_reg; ++j) {
         // fd: a column whose differences vanish (no variation within units)
-        if (sh.fd && !(std::sqrt(raw[j]) > kLeanDropMargin * kConstantTolerance * std::sqrt(fp.levels[j]))) return std::nullopt;
+        // (weighted: raw / max w bounds the unweighted sum the full route tests)
+        if (sh.fd && !(std::sqrt(sh.weighted ? raw[j] / sh.max_w : raw[j]) > kLeanDropMargin * kConstantTolerance * std::sqrt(fp.levels[j]))) return std::nullopt;
         // a column that centring reduces to noise (a multiple of the intercept)
         if (!(sys.scale[j] > kLeanDropMargin * kConstantTolerance * std::sqrt(raw[j]))) return std::nullopt;
     }
@@ -510,6 +575,7 @@ Equation lean_shell(const LeanInput& in, const LeanShape& sh, const WorkingSyste
     eq.scale.tail(k_reg) = sys.scale.head(k_reg);
     eq.r_factor = R;
     eq.lean_rows = static_cast<std::size_t>(sh.N);
+    eq.lean_weighted = sh.weighted;
     return eq;
 }
 
@@ -562,6 +628,7 @@ public:
         g_ = VectorXd::Zero(p);
         no_unit_ = VectorXd::Zero(p);
         u_.resize(block);
+        if (sh.weighted) ru_.resize(block);
     }
 
     // The whole pass; false when the full route must take over (units out of order).
@@ -572,14 +639,20 @@ public:
             const Block blk = reader.read(k, B, 0, shift_, mult);
             const Index b = blk.rows;
             residual(blk, B);
+            if (sh_.weighted) root_residual(blk);
             // by unit, the gradient is the sum of the unit score sums (taken below)
             if (!by_unit_) add_gradient(b, B);
             // per block in double (vectorised; a block's sum of 512 squares loses at most
             // a few units in the 14th digit), across blocks in long double
             ssr += static_cast<long double>(u_.head(b).squaredNorm());
-            y_sum += static_cast<long double>(B.col(sh_.k_reg).head(b).sum());
+            y_sum += static_cast<long double>(sh_.weighted ? B.col(sh_.k_reg).head(b).dot(
+                                                                  Eigen::Map<const VectorXd>(blk.keep, b))
+                                                            : B.col(sh_.k_reg).head(b).sum());
             y_squares += static_cast<long double>(B.col(sh_.k_reg).head(b).squaredNorm());
-            write_series(blk, B, out);
+            if (sh_.weighted)
+                write_weighted_series(blk, B, out);
+            else
+                write_series(blk, B, out);
             if (kind_ == Covariance::classical) continue;
             if (per_row_)
                 add_row_scores(b, B);
@@ -622,7 +695,7 @@ public:
         return meat_;
     }
 
-    long double ssr = 0, y_sum = 0, y_squares = 0;   // y here is y - t_y
+    long double ssr = 0, y_sum = 0, y_squares = 0;   // y here is y - t_y (weighted: sums of w y, w y^2)
 
 private:
     void prepare_series(LeanResult& out) const {
@@ -643,15 +716,51 @@ private:
 
     // u = y - t_y - Z c, the residual of working solution c (0 in rows that are not
     // equation rows)
+    // weighted: the intercept's column is sqrt(w) / sqrt(sum w) and the rows of B are
+    // already times sqrt(w) (0 in rows that are not equation rows)
     void residual(const Block& blk, const MatrixXd& B) {
         const Index b = blk.rows, k_reg = sh_.k_reg;
-        u_.head(b) = B.col(k_reg).head(b).array() - (sh_.intercept ? c_[0] / scale_c_ : 0.0);
+        const Eigen::Map<const Eigen::ArrayXd> keep(blk.keep, b);
+        const double constant = sh_.intercept ? c_[0] / scale_c_ : 0.0;
+        if (sh_.weighted)
+            u_.head(b) = B.col(k_reg).head(b).array() - constant * keep;
+        else
+            u_.head(b) = B.col(k_reg).head(b).array() - constant;
         u_.head(b).noalias() -= B.topLeftCorner(b, k_reg) * c_.tail(k_reg);
-        u_.head(b).array() *= Eigen::Map<const Eigen::ArrayXd>(blk.keep, b);
+        if (!sh_.weighted) u_.head(b).array() *= keep;
+    }
+
+    // weighted: ru_ = sqrt(w) u, what the intercept's column takes of each residual
+    void root_residual(const Block& blk) {
+        const Index b = blk.rows;
+        ru_.head(b) = u_.head(b).cwiseProduct(Eigen::Map<const VectorXd>(blk.keep, b));
+    }
+    const double* intercept_u() const { return sh_.weighted ? ru_.data() : u_.data(); }
+
+    // weighted: residuals in the outcome's units, u / sqrt(w), fitted y - u / sqrt(w)
+    // (as unweigh_series does on the full route)
+    void write_weighted_series(const Block& blk, const MatrixXd& B, LeanResult& out) const {
+        const Index b = blk.rows, k_reg = sh_.k_reg;
+        if (blk.input == nullptr) {
+            // consecutive input rows (a select: 0 / 0 in a row of weight 0 is dropped)
+            const Eigen::Map<const Eigen::ArrayXd> root(blk.keep, b);
+            const auto u = u_.head(b).array();
+            Eigen::Map<Eigen::ArrayXd>(out.residuals.value.data() + blk.first, b) = (root != 0.0).select(u / root, 0.0);
+            Eigen::Map<Eigen::ArrayXd>(out.fitted.value.data() + blk.first, b) =
+                (root != 0.0).select((B.col(k_reg).head(b).array() - u) / root + shift_y_, 0.0);
+            return;
+        }
+        for (Index i = 0; i < b; ++i) {   // every listed row is an equation row
+            const double root = blk.keep[i];
+            const std::size_t row = blk.input[i];
+            out.residuals.value[row] = u_[i] / root;
+            out.fitted.value[row] = (B(i, k_reg) - u_[i]) / root + shift_y_;
+            out.residuals.defined[row] = out.fitted.defined[row] = 1;
+        }
     }
 
     void add_gradient(Index b, const MatrixXd& B) {
-        if (sh_.intercept) g_[0] += u_.head(b).sum() / scale_c_;
+        if (sh_.intercept) g_[0] += Eigen::Map<const VectorXd>(intercept_u(), b).sum() / scale_c_;
         g_.tail(sh_.k_reg).noalias() += B.topLeftCorner(b, sh_.k_reg).transpose() * u_.head(b);
     }
 
@@ -676,7 +785,7 @@ private:
 
     // hc0/hc1: scores z_i u_i in the working basis (0 in rows of weight 0)
     void add_row_scores(Index b, const MatrixXd& B) {
-        if (sh_.intercept) W_.col(0).head(b) = u_.head(b) / scale_c_;
+        if (sh_.intercept) W_.col(0).head(b) = Eigen::Map<const VectorXd>(intercept_u(), b) / scale_c_;
         W_.block(0, sh_.c0, b, sh_.k_reg) = B.topLeftCorner(b, sh_.k_reg).array().colwise() * u_.head(b).array();
         meat_.selfadjointView<Eigen::Lower>().rankUpdate(W_.topRows(b).transpose());
     }
@@ -686,6 +795,7 @@ private:
     void add_period_scores(const Block& blk, const MatrixXd& B) {
         const Index b = blk.rows, c0 = sh_.c0, k_reg = sh_.k_reg;
         double* sums_t = period_sums_.data();
+        const double* iu = intercept_u();
         for (Index i = 0; i < b; ++i) ids_[static_cast<std::size_t>(i)] = id_of_row_[blk.input_row(i)];
         for (Index col = -c0; col < k_reg; ++col) {
             double* target = sums_t + (col + c0) * static_cast<Index>(periods_);
@@ -693,7 +803,7 @@ private:
             for (Index i = 0; i < b; ++i) {
                 const std::int32_t id = ids_[static_cast<std::size_t>(i)];
                 if (id < 0) continue;
-                target[id] += (z != nullptr ? z[i] : 1.0 / scale_c_) * u_[i];
+                target[id] += z != nullptr ? z[i] * u_[i] : (1.0 / scale_c_) * iu[i];
             }
         }
     }
@@ -733,8 +843,9 @@ private:
         const Index c0 = sh_.c0, k_reg = sh_.k_reg;
         const double* ui = u_.data() + i;
         if (sh_.intercept) {
+            const double* iu = intercept_u() + i;
             double t = 0;
-            for (Index r = 0; r < len; ++r) t += ui[r];
+            for (Index r = 0; r < len; ++r) t += iu[r];
             sum[0] += t / scale_c_;
         }
         // four columns at a time: four independent sums keep the adder busy
@@ -795,6 +906,7 @@ private:
     VectorXd g_;
     VectorXd no_unit_;      // by unit: score sums of rows without a unit
     VectorXd u_;
+    VectorXd ru_;           // weighted: sqrt(w) u
     bool units_in_order_ = true;
 };
 
@@ -808,7 +920,8 @@ private:
 std::optional<LeanResult> lean_equation(const LeanInput& in) {
     LeanShape sh;
     sh.fd = in.spec.estimator == Estimator::fd;
-    sh.k_reg = static_cast<Index>(in.data.regressors.size());
+    sh.k_reg = static_cast<Index>(in.regressor_names.size());
+    sh.weighted = in.weights != nullptr;
     if (sh.k_reg == 0) return std::nullopt;
     sh.N = static_cast<Index>(in.count);
     sh.m = sh.k_reg + 1;
@@ -823,6 +936,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     const FirstPass fp = accumulate_gram(reader, sh, B);
     // a NaN or infinity outside the masks: the full route words the message
     if (!reader.values_finite()) return std::nullopt;
+    if (sh.weighted) weighted_count(reader, fp, sh);
     MatrixXd R;
     const std::optional<WorkingSystem> sys = lean_system(sh, fp, R);
     if (!sys) return std::nullopt;
@@ -852,7 +966,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     eq.n_units = in.units;
     eq.n_periods = in.periods;
     {
-        const long double n_l = static_cast<long double>(sh.N);
+        const long double n_l = static_cast<long double>(sh.n_d);   // N exactly; weighted: sum w
         const long double shift_y_l = shift_y;
         const long double mean = pass.y_sum / n_l;           // of y - t_y
         out.outcome.sum = pass.y_sum + n_l * shift_y_l;

@@ -92,6 +92,8 @@ std::optional<detail::OutcomeSums> solve_streaming(const detail::Context& ctx, F
     in.units_in_order = rows.units_in_order;
     in.units = rows.units;
     in.periods = rows.periods;
+    in.regressors = &ctx.regressors;
+    in.weights = ctx.weights;
     std::optional<detail::LeanResult> result = detail::lean_equation(in);
     if (!result) return std::nullopt;
     fit.equation = std::move(result->equation);
@@ -130,7 +132,7 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     detail::UnitRuns runs;
     detail::OutcomeSums ysums;
     if (lean) {
-        if (!detail::lean_applies(spec) || ctx.weights != nullptr) return std::nullopt;
+        if (!detail::lean_applies(spec)) return std::nullopt;
         std::size_t pairs_lost = 0;
         std::optional<detail::OutcomeSums> sums = solve_streaming(ctx, fit, pairs_lost);
         if (!sums) return std::nullopt;
@@ -163,10 +165,7 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
 Fit fit_model(const PanelData& data, const ModelSpec& spec) { return *fit_model_impl(data, spec, false); }
 
 Fit fit_model_lean(const PanelData& data, const ModelSpec& spec) {
-    // weighted fits take the full route (the streaming route has no weights yet): go
-    // there directly rather than index the panel twice
-    const bool weighted = !spec.weights.empty() || data.weights.size() != 0;
-    if (detail::lean_applies(spec) && !weighted) {
+    if (detail::lean_applies(spec)) {
         try {
             if (std::optional<Fit> fit = fit_model_impl(data, spec, true)) return std::move(*fit);
         } catch (const Error&) {

@@ -1458,6 +1458,8 @@ static void test_weights(const grunfeld *g, const char *grunfeld_path)
     NEAR_TOL(value_of(m, "estimate", "value"), 0.116314750309544, 1e-9, "weights_reference pooled.estimate[value]");
     CHECK(summary_find(m, "rows with weight 0", &item) > 0 && item.number == 2.0);
     CHECK(value_of(m, "n", NULL) == 198.0);
+    /* taken by the streaming route, still reported as weighted */
+    CHECK(value_of(m, "weighted", NULL) == 1.0);
     weft_model_free(m);
     /* both ways at once is refused; random refuses weights */
     EXPECT_ERROR(weft_model_new_text(&m, p, "pooled weights=capital"), WEFT_EDATA, "not both");

@@ -12,6 +12,7 @@
 #include <vector>
 
 #include "core_support.hpp"
+#include "weft/spec.hpp"
 
 namespace {
 
@@ -92,15 +93,18 @@ void close_opt(const std::optional<double>& a, const std::optional<double>& b, d
 }
 
 // Lean and full fits of one model: the same terms, facts, warnings, labels, and numbers
-// to rounding (1e-11 relative; the two accumulate the same sums in another order).
-void compare(const weft::PanelData& data, const std::string& text, bool expect_lean) {
+// to rounding (tol relative, 1e-11 unless given; the two accumulate the same sums in
+// another order; t, p and F to 1e-10 or tol, whichever is larger).
+void compare(const weft::PanelData& data, const std::string& text, bool expect_lean, double tol = 1e-11) {
     INFO("model \"" << text << "\"");
     const weft::ModelSpec spec = weft::parse_model_text(text);
     const weft::Fit full = weft::fit_model(data, spec);
     const weft::Fit lean = weft::fit_model_lean(data, spec);
     CHECK(full.equation.rows_held());
     CHECK(lean.equation.rows_held() == !expect_lean);
-    const double tol = 1e-11;
+    CHECK(lean.equation.weighted() == full.equation.weighted());
+    CHECK(lean.rows_zero_weight == full.rows_zero_weight);
+    const double tol_t = std::max(tol, 1e-10);
     REQUIRE(lean.equation.terms == full.equation.terms);
     CHECK(lean.nobs == full.nobs);
     CHECK(lean.equation.nobs() == full.equation.nobs());
@@ -124,8 +128,8 @@ void compare(const weft::PanelData& data, const std::string& text, bool expect_l
         INFO("term " << full.equation.terms[static_cast<std::size_t>(k)]);
         close(lean.coef[k], full.coef[k], tol, "estimate");
         close(lean.se[k], full.se[k], tol, "se");
-        close(lean.t[k], full.t[k], 1e-10, "t");
-        close(lean.p[k], full.p[k], 1e-10, "p");
+        close(lean.t[k], full.t[k], tol_t, "t");
+        close(lean.p[k], full.p[k], tol_t, "p");
         close(lean.ci_low[k], full.ci_low[k], tol, "ci low");
         close(lean.ci_high[k], full.ci_high[k], tol, "ci high");
         for (Eigen::Index j = 0; j < full.coef.size(); ++j)
@@ -139,9 +143,27 @@ void compare(const weft::PanelData& data, const std::string& text, bool expect_l
     close_opt(lean.tss, full.tss, tol, "tss");
     close_opt(lean.r2, full.r2, tol, "r2");
     close_opt(lean.adj_r2, full.adj_r2, tol, "adj r2");
-    close_opt(lean.f, full.f, 1e-10, "F");
-    close_opt(lean.f_p, full.f_p, 1e-10, "F p");
+    close_opt(lean.f, full.f, tol_t, "F");
+    close_opt(lean.f_p, full.f_p, tol_t, "F p");
     CHECK(lean.f_rule == full.f_rule);
+    // the model's joint test and a Wald test of the first two regressors, both under the
+    // fit's own covariance
+    REQUIRE(lean.joint.has_value() == full.joint.has_value());
+    if (full.joint) {
+        CHECK(lean.joint->available == full.joint->available);
+        close(lean.joint->f, full.joint->f, tol_t, "joint F");
+        close(lean.joint->p, full.joint->p, tol_t, "joint p");
+        close(lean.joint->chi2, full.joint->chi2, tol_t, "joint chi-square");
+        CHECK(lean.joint->df2 == full.joint->df2);
+    }
+    const std::size_t first = full.equation.intercept_column >= 0 ? 1 : 0;
+    if (full.equation.terms.size() >= first + 2) {
+        const std::vector<std::string> tested{full.equation.terms[first], full.equation.terms[first + 1]};
+        const weft::WaldResult a = weft::wald_test_terms(lean, tested), b = weft::wald_test_terms(full, tested);
+        close(a.chi2, b.chi2, tol_t, "Wald chi-square");
+        close(a.f_p, b.f_p, tol_t, "Wald F p");
+        CHECK(a.f_df2 == b.f_df2);
+    }
     REQUIRE(lean.residuals.size() == full.residuals.size());
     double scale = 0;
     for (double v : full.fitted.value) scale = std::max(scale, std::abs(v));
@@ -156,6 +178,31 @@ void compare(const weft::PanelData& data, const std::string& text, bool expect_l
 }
 
 const char* const kLeanWords[] = {"classical", "hc0", "hc1", "cluster", "cluster0", "cluster-period", "dk", "dk=2"};
+
+// Random observation weights (uniform on 0.2..5, every 17th row 0, every 19th blank),
+// as the panel's weight column or, named "w", as one more regressor for weights=w
+// (inserted first, so that the equation's regressors are not its neighbours).
+void add_weights(weft::PanelData& d, unsigned seed, bool as_regressor) {
+    std::mt19937_64 rng(seed);
+    std::uniform_real_distribution<double> uniform(0.2, 5.0);
+    const std::size_t n = d.outcome.size();
+    weft::Column w;
+    w.name = "w";
+    w.missing.assign(n, 0);
+    for (std::size_t i = 0; i < n; ++i) {
+        double v = uniform(rng);
+        if (i % 17 == 4) v = 0.0;
+        if (i % 19 == 6) {
+            w.missing[i] = 1;
+            v = std::nan("");
+        }
+        w.values.push_back(v);
+    }
+    if (as_regressor)
+        d.regressors.insert(d.regressors.begin(), w);
+    else
+        d.weights = w;
+}
 
 }  // namespace
 
@@ -284,4 +331,118 @@ TEST_CASE("lean fit gives the full fit's message for bad input", "[lean]") {
             CHECK(full != "(no error)");
             CHECK(message(bad[b], text, true) == full);
         }
+}
+
+TEST_CASE("lean fit equals the full fit with observation weights: pooled and fd, every covariance it computes",
+          "[lean][weights]") {
+    // the weighted full route is checked against R elsewhere (test_weights.cpp, the
+    // oracle); here the streaming route must give its numbers, residuals and fitted
+    // values (in the outcome's units) to 1e-12 relative, on sorted panels and on
+    // unbalanced, gapped, shuffled ones with missing cells, weights 0 and blank weights
+    Shape sorted;
+    sorted.seed = 51;
+    Shape all;
+    all.shuffle = all.gaps = all.missing = true;
+    all.seed = 53;
+    all.units = 60;
+    all.periods = 9;
+    all.k = 4;
+    Shape gapped_sorted = all;
+    gapped_sorted.shuffle = false;
+    gapped_sorted.seed = 55;
+    for (const Shape& s : {sorted, all, gapped_sorted})
+        for (bool as_regressor : {false, true}) {
+            weft::PanelData d = make_data(s);
+            add_weights(d, s.seed + 1, as_regressor);
+            INFO("shuffle " << s.shuffle << ", gaps " << s.gaps << ", weights as regressor " << as_regressor);
+            const std::string word = as_regressor ? " weights=w" : "";
+            for (const char* estimator : {"pooled", "fd"}) {
+                for (const char* cov : kLeanWords)
+                    for (const char* intercept : {"", " no-intercept"})
+                        compare(d, std::string(estimator) + " " + cov + intercept + word, true, 1e-12);
+                // period indicators: the full route, weighted as unweighted
+                compare(d, std::string(estimator) + " periods cluster" + word, false, 1e-12);
+            }
+        }
+}
+
+TEST_CASE("lean fit equals the full fit with observation weights on a panel larger than its starting sample",
+          "[lean][weights]") {
+    // more rows than the 64 blocks of the starting fit, so that both refinement steps
+    // work on rows the start did not see
+    Shape big;
+    big.units = 5000;
+    big.periods = 10;
+    big.k = 4;
+    big.seed = 61;
+    Shape big_shuffled = big;
+    big_shuffled.shuffle = true;
+    big_shuffled.gaps = true;
+    big_shuffled.missing = true;
+    big_shuffled.seed = 63;
+    for (const Shape& s : {big, big_shuffled}) {
+        weft::PanelData d = make_data(s);
+        add_weights(d, s.seed + 1, s.shuffle);
+        INFO("shuffle " << s.shuffle);
+        const std::string word = s.shuffle ? " weights=w" : "";
+        for (const char* text : {"pooled cluster", "fd cluster", "fd classical no-intercept", "pooled dk",
+                                 "fd hc1", "pooled cluster-period"})
+            compare(d, text + word, true, 1e-12);
+    }
+}
+
+TEST_CASE("lean fit with observation weights hands back to the full fit where it cannot decide", "[lean][weights]") {
+    Shape s;
+    s.shuffle = s.gaps = true;
+    s.seed = 57;
+    weft::PanelData d = make_data(s);
+    add_weights(d, 58, false);
+    // fd: a regressor without variation within units (dropped by the full route)
+    weft::PanelData invariant = d;
+    for (std::size_t i = 0; i < invariant.units.numbers.size(); ++i)
+        invariant.regressors[1].values[i] = invariant.units.numbers[i] * 0.01;
+    compare(invariant, "fd cluster", false, 1e-12);
+    compare(invariant, "pooled cluster", true, 1e-12);
+    // weights that leave fewer equation rows than terms: every weight 0 but four
+    weft::PanelData few = d;
+    for (std::size_t i = 4; i < few.weights.values.size(); ++i) {
+        few.weights.values[i] = 0.0;
+        few.weights.missing[i] = 0;
+    }
+    for (const char* text : {"pooled hc1", "fd classical"}) {
+        INFO(text);
+        const weft::ModelSpec spec = weft::parse_model_text(text);
+        std::string full, lean;
+        try { (void)weft::fit_model(few, spec); } catch (const weft::Error& e) { full = e.what(); }
+        try { (void)weft::fit_model_lean(few, spec); } catch (const weft::Error& e) { lean = e.what(); }
+        CHECK(!full.empty());
+        CHECK(lean == full);
+    }
+}
+
+TEST_CASE("lean fit with weights all 1 equals the unweighted lean fit", "[lean][weights]") {
+    // identity: w = 1 everywhere is the unweighted fit (CONVENTIONS.md "Observation weights")
+    Shape s;
+    s.shuffle = s.missing = true;
+    s.seed = 71;
+    weft::PanelData d = make_data(s);
+    const weft::PanelData plain = d;
+    d.weights.name = "w";
+    d.weights.values.assign(d.outcome.size(), 1.0);
+    for (const char* text : {"pooled cluster", "fd hc1", "pooled dk", "fd cluster-period no-intercept"}) {
+        INFO(text);
+        const weft::ModelSpec spec = weft::parse_model_text(text);
+        const weft::Fit a = weft::fit_model_lean(d, spec);
+        const weft::Fit b = weft::fit_model_lean(plain, spec);
+        CHECK(!a.equation.rows_held());
+        CHECK(!b.equation.rows_held());
+        CHECK(a.equation.weighted());
+        CHECK(!b.equation.weighted());
+        for (Eigen::Index k = 0; k < b.coef.size(); ++k) {
+            close(a.coef[k], b.coef[k], 1e-12, "estimate");
+            close(a.se[k], b.se[k], 1e-12, "se");
+        }
+        close(a.ssr, b.ssr, 1e-12, "ssr");
+        close_opt(a.r2, b.r2, 1e-12, "r2");
+    }
 }

@@ -38,6 +38,8 @@
 //
 // Stability: fields may be added; existing names and meanings do not change. Changes
 // are announced here:
+//   2026-12-05: Equation::lean_weighted and Equation::weighted(): fit_model_lean takes
+//   weighted pooled and fd fits on its streaming route (their equation holds no weights).
 //   2026-12-05: observation weights: ModelSpec::weights, PanelData::weights,
 //   Equation::weights, Fit::rows_zero_weight.
 //   2026-12-04: Covariance::cr2 and CovarianceResult::term_df (per-term df: t, p and
@@ -107,7 +109,9 @@ struct Equation {
     std::size_t n_periods = 0;          // distinct periods among the equation rows
     std::size_t absorbed = 0;           // effects absorbed by the transform, counted in df (within: n_units)
     Eigen::VectorXd weights;            // N equation-row weights of a weighted fit (X, y, residual,
-                                        // fitted are then scaled by sqrt(w)); empty: unweighted
+                                        // fitted are then scaled by sqrt(w)); empty: unweighted,
+                                        // or a lean equation (which holds no rows)
+    bool lean_weighted = false;         // a lean equation of a weighted fit
 
     // A lean equation (fit_model_lean) holds no per-row arrays: X has 0 rows (but its K
     // columns), y, residual, fitted, input_row, unit and period are empty, and
@@ -117,6 +121,9 @@ struct Equation {
     bool rows_held() const { return lean_rows == 0; }
 
     std::size_t nobs() const { return rows_held() ? static_cast<std::size_t>(X.rows()) : lean_rows; }
+    // A weighted fit, on either route (ask this, not weights.size(): a lean equation holds
+    // no weights).
+    bool weighted() const { return weights.size() != 0 || lean_weighted; }
     std::size_t n_terms() const { return static_cast<std::size_t>(X.cols()); }
     // N - K - absorbed
     double df_residual() const {
@@ -244,7 +251,8 @@ Fit fit_model(const PanelData& data, const ModelSpec& spec);
 // The same Fit as fit_model, computed where possible in streaming passes over the
 // columns that never hold the estimated equation's rows: pooled and fd without period
 // indicators, covariance classical, hc0, hc1, cluster, cluster0, cluster-period or dk,
-// a well-conditioned design (the solver's Gram route) with no term to drop. Its
+// a well-conditioned design (the solver's Gram route) with no term to drop, weighted
+// or not (a weighted lean equation holds no weights: Equation::weighted() says so). Its
 // Fit::equation is then lean (Equation::rows_held() is false); Fit::residuals and
 // Fit::fitted are filled as always. Anywhere else it is fit_model(data, spec). The tests
 // that need the equation's rows (heteroskedasticity, serial correlation, unit effects,
