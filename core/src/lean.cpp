@@ -52,8 +52,12 @@ OutcomeSums outcome_sums(const VectorXd& y) {
 }
 
 bool lean_applies(const ModelSpec& spec) {
-    if (spec.estimator != Estimator::pooled && spec.estimator != Estimator::fd) return false;
     if (spec.period_effects) return false;
+    // between: the unit means' small design, solved and covered as on the full route
+    if (spec.estimator == Estimator::between) return true;
+    if (spec.estimator != Estimator::pooled && spec.estimator != Estimator::fd &&
+        spec.estimator != Estimator::within)
+        return false;
     switch (spec.covariance) {
         case Covariance::classical:
         case Covariance::hc0:
@@ -162,6 +166,7 @@ public:
             while (hi_ > lo_ && !is_row[hi_ - 1]) --hi_;
             marks_ = is_row.data();
             keep_.assign(static_cast<std::size_t>(block), 0.0);
+            if (in.unit_means != nullptr) centre_.assign(static_cast<std::size_t>(block), 0.0);
         } else {
             const std::vector<std::size_t>& later = *in.later;
             for (std::size_t i = 0; i < later.size(); ++i) {
@@ -217,10 +222,13 @@ public:
                 const bool unmasked = masks_[static_cast<std::size_t>(c)] == nullptr;
                 if (check_values && finite_ && !unmasked) finite_ = finite_block(c, a, b);
                 prefetch_next(x, a + static_cast<std::size_t>(b));
-                // a > 0 for fd: the first equation row has its earlier row before it
+                // a > 0 for fd: the first equation row has its earlier row before it;
+                // within: each row's unit mean is taken off as fd takes off the earlier row
+                const double* before = fd_ ? x + a - 1 : nullptr;
+                if (!centre_.empty()) before = unit_means_of(c, a, b);
                 double squares = 0;
                 bool finite = true;
-                kept_column(x + a, fd_ ? x + a - 1 : nullptr, blk.keep, shift[c], mult[c], out.col(col0 + c).data(), b,
+                kept_column(x + a, before, blk.keep, shift[c], mult[c], out.col(col0 + c).data(), b,
                             levels != nullptr ? &squares : nullptr, check_values && finite_ && unmasked ? &finite : nullptr);
                 if (levels != nullptr) (*levels)[c] += squares;
                 if (!finite) finite_ = false;
@@ -255,6 +263,19 @@ public:
 
 private:
     bool sorted() const { return in_.is_row != nullptr; }
+
+    // within: the unit means of column c for the block's rows [a, a + b) (0 for a row
+    // that is not an equation row), into centre_
+    const double* unit_means_of(Index c, std::size_t a, Index b) {
+        const Eigen::MatrixXd& means = *in_.unit_means;
+        const double* mean_c = means.col(c).data();
+        const std::int32_t* unit = in_.index.unit_of_row.data() + a;
+        for (Index i = 0; i < b; ++i) {
+            const std::int32_t u = unit[i];
+            centre_[static_cast<std::size_t>(i)] = keep_[static_cast<std::size_t>(i)] != 0.0 && u >= 0 ? mean_c[u] : 0.0;
+        }
+        return centre_.data();
+    }
 
     // Ask for the start of the next block of a column ahead of time, every
     // kPrefetchStride values: hardware prefetchers stop at each 4 KiB page of a host's
@@ -352,6 +373,7 @@ private:
     std::size_t lo_ = 0, hi_ = 0;          // sorted: the input rows [lo_, hi_) hold every equation row
     const std::uint8_t* marks_ = nullptr;  // sorted: LeanInput::is_row
     std::vector<double> keep_;             // sorted: weights of the block's rows; unsorted: ones
+    std::vector<double> centre_;           // within: the block's unit means of one column
     std::vector<Piece> pieces_;
     std::vector<const double*> columns_;
     std::vector<const std::uint8_t*> masks_;
@@ -372,6 +394,7 @@ struct LeanShape {
     Index N = 0;         // equation rows
     Index block = kLeanBlockRows;
     bool intercept = false, fd = false;
+    bool within = false;   // [X, y] less each row's unit mean (LeanInput::unit_means)
     double n_d = 0;
 };
 
@@ -443,7 +466,7 @@ FirstPass accumulate_gram(BlockReader& reader, const LeanShape& sh, MatrixXd& B)
     reader.restart();
     bool shifted = !sh.intercept;
     for (Index k = 0; k < reader.blocks(); ++k) {
-        const Block blk = reader.read(k, B, 1, fp.s0, ones, sh.fd ? &fp.levels : nullptr, true);
+        const Block blk = reader.read(k, B, 1, fp.s0, ones, sh.fd || sh.within ? &fp.levels : nullptr, true);
         const Index b = blk.rows;
         const Eigen::Map<const VectorXd> keep(blk.keep, b);
         if (!shifted) {
@@ -485,8 +508,9 @@ std::optional<WorkingSystem> lean_system(const LeanShape& sh, const FirstPass& f
     WorkingSystem sys = working_system(S, fp.s0, sh.intercept, k_reg);
     if (!sys.usable) return std::nullopt;
     for (Index j = 0; j < k_reg; ++j) {
-        // fd: a column whose differences vanish (no variation within units)
-        if (sh.fd && !(std::sqrt(raw[j]) > kLeanDropMargin * kConstantTolerance * std::sqrt(fp.levels[j]))) return std::nullopt;
+        // fd, within: a column whose differences or deviations from the unit means
+        // vanish (no variation within units)
+        if ((sh.fd || sh.within) && !(std::sqrt(raw[j]) > kLeanDropMargin * kConstantTolerance * std::sqrt(fp.levels[j]))) return std::nullopt;
         // a column that centring reduces to noise (a multiple of the intercept)
         if (!(sys.scale[j] > kLeanDropMargin * kConstantTolerance * std::sqrt(raw[j]))) return std::nullopt;
     }
@@ -808,14 +832,17 @@ private:
 std::optional<LeanResult> lean_equation(const LeanInput& in) {
     LeanShape sh;
     sh.fd = in.spec.estimator == Estimator::fd;
+    sh.within = in.unit_means != nullptr;
+    // within reads its rows by input row marks only
+    if (sh.within && in.is_row == nullptr) return std::nullopt;
     sh.k_reg = static_cast<Index>(in.data.regressors.size());
     if (sh.k_reg == 0) return std::nullopt;
     sh.N = static_cast<Index>(in.count);
     sh.m = sh.k_reg + 1;
-    sh.intercept = in.spec.intercept;
+    sh.intercept = in.spec.intercept && !sh.within;   // within: the unit means take its place
     sh.p = sh.k_reg + (sh.intercept ? 1 : 0);
     sh.c0 = sh.intercept ? 1 : 0;
-    if (sh.N <= sh.p) return std::nullopt;
+    if (sh.N <= sh.p + static_cast<Index>(in.absorbed)) return std::nullopt;
     sh.n_d = static_cast<double>(sh.N);
     BlockReader reader(in, sh.block);
     MatrixXd B = MatrixXd::Zero(sh.block, (sh.m + 2 + 3) / 4 * 4);
@@ -829,6 +856,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     LeanResult out;
     Equation& eq = out.equation;
     eq = lean_shell(in, sh, *sys, R);
+    eq.absorbed = in.absorbed;
     VectorXd c = first_step(sh, fp, *sys, R);
 
     // Blocks of the working design: columns 0..k_reg-1 the slopes' Z = (x - t) / scale,
