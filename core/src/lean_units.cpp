@@ -74,13 +74,16 @@ UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& i
         Eigen::Matrix<long double, Eigen::Dynamic, Eigen::Dynamic>::Zero(static_cast<Index>(n_units), m);
     const std::int32_t* unit = index.unit_of_row.data();
     const std::int32_t* period = index.period_of_row.data();
-    std::vector<std::size_t> block;
+    std::vector<std::size_t> block, run_end;   // the block's used rows; where each run of one unit ends
     block.reserve(kSumsBlockRows);
+    run_end.reserve(kSumsBlockRows);
     for (std::size_t a = 0; a < n_rows; a += kSumsBlockRows) {
         const std::size_t end = std::min(n_rows, a + kSumsBlockRows);
         block.clear();
+        run_end.clear();
         for (std::size_t r = a; r < end; ++r) {
             if (!is_row[r]) continue;
+            if (!block.empty() && unit[block.back()] != unit[r]) run_end.push_back(block.size());
             block.push_back(r);
             const std::size_t u = static_cast<std::size_t>(unit[r]);
             ++out.count[u];
@@ -88,10 +91,19 @@ UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& i
             const std::size_t first = out.first_row[u];
             if (first == std::numeric_limits<std::size_t>::max() || period[r] < period[first]) out.first_row[u] = r;
         }
+        if (!block.empty()) run_end.push_back(block.size());
+        // a run's sum in a register, then into its unit's sum (a unit whose rows form
+        // one run, as in input sorted by unit, gets exactly the sequential sum)
         for (Index c = 0; c < m; ++c) {
             const double* x = columns[static_cast<std::size_t>(c)];
             long double* s = sums.col(c).data();
-            for (std::size_t r : block) s[unit[r]] += x[r];
+            std::size_t i = 0;
+            for (std::size_t stop : run_end) {
+                long double acc = 0;
+                const std::int32_t u = unit[block[i]];
+                for (; i < stop; ++i) acc += x[block[i]];
+                s[u] += acc;
+            }
         }
     }
     out.means.resize(static_cast<Index>(n_units), m);
