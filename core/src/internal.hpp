@@ -133,8 +133,9 @@ struct LeanInput {
     bool units_in_order = true;   // their unit numbers never decrease (else the score pass holds every unit's sums)
     std::size_t units = 0;    // distinct units among them
     std::size_t periods = 0;  // distinct grid periods among them
-    // within: the unit means of [X, y] (unit numbers x (regressors + 1)), taken off each
-    // equation row as it is read (no intercept then), and the unit effects counted in df
+    // within: the unit means of [X, y] ((unit numbers + 1) x (regressors + 1), the last
+    // row zeros), taken off each equation row as it is read (no intercept then), and the
+    // unit effects counted in df
     const Eigen::MatrixXd* unit_means = nullptr;
     std::size_t absorbed = 0;
 };

@@ -166,7 +166,10 @@ public:
             while (hi_ > lo_ && !is_row[hi_ - 1]) --hi_;
             marks_ = is_row.data();
             keep_.assign(static_cast<std::size_t>(block), 0.0);
-            if (in.unit_means != nullptr) centre_.assign(static_cast<std::size_t>(block), 0.0);
+            if (in.unit_means != nullptr) {
+                centre_.assign(static_cast<std::size_t>(block), 0.0);
+                slot_.assign(static_cast<std::size_t>(block), 0);
+            }
         } else {
             const std::vector<std::size_t>& later = *in.later;
             for (std::size_t i = 0; i < later.size(); ++i) {
@@ -216,6 +219,7 @@ public:
             // the block's weights from the row marks (0 or 1)
             for (Index i = 0; i < b; ++i) keep_[static_cast<std::size_t>(i)] = marks_[a + static_cast<std::size_t>(i)] != 0 ? 1.0 : 0.0;
             blk.keep = keep_.data();
+            if (!centre_.empty()) unit_slots(a, b);
             for (Index c = 0; c < width(); ++c) {
                 const double* x = columns_[static_cast<std::size_t>(c)];
                 // a column without a mask is checked in the same loop that reads it
@@ -225,7 +229,7 @@ public:
                 // a > 0 for fd: the first equation row has its earlier row before it;
                 // within: each row's unit mean is taken off as fd takes off the earlier row
                 const double* before = fd_ ? x + a - 1 : nullptr;
-                if (!centre_.empty()) before = unit_means_of(c, a, b);
+                if (!centre_.empty()) before = unit_means_of(c, b);
                 double squares = 0;
                 bool finite = true;
                 kept_column(x + a, before, blk.keep, shift[c], mult[c], out.col(col0 + c).data(), b,
@@ -264,17 +268,22 @@ public:
 private:
     bool sorted() const { return in_.is_row != nullptr; }
 
-    // within: the unit means of column c for the block's rows [a, a + b) (0 for a row
-    // that is not an equation row), into centre_
-    const double* unit_means_of(Index c, std::size_t a, Index b) {
-        const Eigen::MatrixXd& means = *in_.unit_means;
-        const double* mean_c = means.col(c).data();
+    // within: the row of LeanInput::unit_means for each of the block's rows [a, a + b)
+    // (its last row, zeros, for a row that is not an equation row), once per block
+    void unit_slots(std::size_t a, Index b) {
+        const std::int32_t zeros = static_cast<std::int32_t>(in_.unit_means->rows() - 1);
         const std::int32_t* unit = in_.index.unit_of_row.data() + a;
-        for (Index i = 0; i < b; ++i) {
-            const std::int32_t u = unit[i];
-            centre_[static_cast<std::size_t>(i)] = keep_[static_cast<std::size_t>(i)] != 0.0 && u >= 0 ? mean_c[u] : 0.0;
-        }
-        return centre_.data();
+        for (Index i = 0; i < b; ++i)
+            slot_[static_cast<std::size_t>(i)] = keep_[static_cast<std::size_t>(i)] != 0.0 ? unit[i] : zeros;
+    }
+
+    // within: the unit means of column c for the block's rows, into centre_
+    const double* unit_means_of(Index c, Index b) {
+        const double* mean_c = in_.unit_means->col(c).data();
+        const std::int32_t* slot = slot_.data();
+        double* centre = centre_.data();
+        for (Index i = 0; i < b; ++i) centre[i] = mean_c[slot[i]];
+        return centre;
     }
 
     // Ask for the start of the next block of a column ahead of time, every
@@ -374,6 +383,7 @@ private:
     const std::uint8_t* marks_ = nullptr;  // sorted: LeanInput::is_row
     std::vector<double> keep_;             // sorted: weights of the block's rows; unsorted: ones
     std::vector<double> centre_;           // within: the block's unit means of one column
+    std::vector<std::int32_t> slot_;       // within: each block row's row of the unit means
     std::vector<Piece> pieces_;
     std::vector<const double*> columns_;
     std::vector<const std::uint8_t*> masks_;

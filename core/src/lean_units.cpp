@@ -106,7 +106,9 @@ UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& i
             }
         }
     }
-    out.means.resize(static_cast<Index>(n_units), m);
+    // one row more, zeros: what the block reader takes off a row that is not an equation row
+    out.means.resize(static_cast<Index>(n_units) + 1, m);
+    out.means.row(static_cast<Index>(n_units)).setZero();
     for (std::size_t u = 0; u < n_units; ++u) {
         if (out.count[u] > 0) ++out.units;
         const long double n = static_cast<long double>(out.count[u]);
