@@ -137,7 +137,7 @@ LeanRows lean_rows(const Context& ctx);
 // The means of [X, y] (columns: the regressors, then y) per unit number over the rows
 // is_row marks, read in input order; units without such rows have count 0.
 struct UnitMeans {
-    Eigen::MatrixXd means;                 // (units + 1) x (regressors + 1), the last row zeros
+    UnitMeansMatrix means;                 // (units + 1) x (regressors + 1), the last row zeros
     std::vector<std::size_t> count;        // rows per unit
     std::vector<std::size_t> first_row;    // per unit: its row in its earliest period
     std::size_t units = 0;                 // units with rows

@@ -116,6 +116,8 @@ struct OutcomeSums {
 OutcomeSums outcome_sums(const Eigen::VectorXd& y);
 
 // ---- lean fits (lean.cpp): the estimated equation in streaming passes over the columns.
+// Unit means, one row per unit: a block's units then sit together in memory.
+using UnitMeansMatrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
 struct LeanInput {
     const PanelData& data;
     const ModelSpec& spec;
@@ -136,7 +138,7 @@ struct LeanInput {
     // within: the unit means of [X, y] ((unit numbers + 1) x (regressors + 1), the last
     // row zeros), taken off each equation row as it is read (no intercept then), and the
     // unit effects counted in df
-    const Eigen::MatrixXd* unit_means = nullptr;
+    const UnitMeansMatrix* unit_means = nullptr;
     std::size_t absorbed = 0;
 };
 

@@ -268,19 +268,21 @@ public:
 private:
     bool sorted() const { return in_.is_row != nullptr; }
 
-    // within: the row of LeanInput::unit_means for each of the block's rows [a, a + b)
-    // (its last row, zeros, for a row that is not an equation row), once per block
+    // within: where the row of LeanInput::unit_means for each of the block's rows
+    // [a, a + b) starts (its last row, zeros, for a row that is not an equation row),
+    // once per block
     void unit_slots(std::size_t a, Index b) {
-        const std::int32_t zeros = static_cast<std::int32_t>(in_.unit_means->rows() - 1);
+        const std::int64_t width = in_.unit_means->cols();
+        const std::int64_t zeros = (in_.unit_means->rows() - 1) * width;
         const std::int32_t* unit = in_.index.unit_of_row.data() + a;
         for (Index i = 0; i < b; ++i)
-            slot_[static_cast<std::size_t>(i)] = keep_[static_cast<std::size_t>(i)] != 0.0 ? unit[i] : zeros;
+            slot_[static_cast<std::size_t>(i)] = keep_[static_cast<std::size_t>(i)] != 0.0 ? unit[i] * width : zeros;
     }
 
     // within: the unit means of column c for the block's rows, into centre_
     const double* unit_means_of(Index c, Index b) {
-        const double* mean_c = in_.unit_means->col(c).data();
-        const std::int32_t* slot = slot_.data();
+        const double* mean_c = in_.unit_means->data() + c;
+        const std::int64_t* slot = slot_.data();
         double* centre = centre_.data();
         for (Index i = 0; i < b; ++i) centre[i] = mean_c[slot[i]];
         return centre;
@@ -383,7 +385,7 @@ private:
     const std::uint8_t* marks_ = nullptr;  // sorted: LeanInput::is_row
     std::vector<double> keep_;             // sorted: weights of the block's rows; unsorted: ones
     std::vector<double> centre_;           // within: the block's unit means of one column
-    std::vector<std::int32_t> slot_;       // within: each block row's row of the unit means
+    std::vector<std::int64_t> slot_;       // within: where each block row's unit means start
     std::vector<Piece> pieces_;
     std::vector<const double*> columns_;
     std::vector<const std::uint8_t*> masks_;
