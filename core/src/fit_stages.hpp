@@ -142,7 +142,12 @@ struct UnitMeans {
     std::vector<std::size_t> first_row;    // per unit: its row in its earliest period
     std::size_t units = 0;                 // units with rows
 };
-UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& is_row);
+// sums_too false: the counts and first rows only, the means left at 0 (for the streaming
+// within to fill as it reads, LeanInput::unit_means_pending).
+UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& is_row, bool sums_too = true);
+// Whether every unit has at most kLeanBlockRows rows (the streaming within can then find
+// its means block by block in input sorted by unit).
+bool units_fit_blocks(const UnitMeans& means);
 // within, streaming: R-squared overall and between and the unit effects from the unit
 // means, the within outcome's sums and the fitted equation.
 void lean_level_statistics(const UnitMeans& means, const OutcomeSums& ysums, Fit& fit);

@@ -82,7 +82,7 @@ constexpr double kLeanConditionLimit = 0.9 * kGramConditionLimit;
 // Rows per block: the block of [w, X, y] (under 100 KB at 20 regressors) stays in the
 // first-level cache between being written and its Gram update, measurably faster
 // than the full route's 2,048 on the benchmark machine (tests/bench, 5-8%).
-constexpr Index kLeanBlockRows = 512;
+// (kLeanBlockRows = 512, internal.hpp: within's unit-aligned blocks need it too)
 // The start of the refinement: the fit of the first blocks (32,768 rows), whose
 // system is only required to be solvable.
 constexpr Index kSampleBlocks = 64;
@@ -169,6 +169,8 @@ public:
             if (in.unit_means != nullptr) {
                 centre_.assign(static_cast<std::size_t>(block), 0.0);
                 slot_.assign(static_cast<std::size_t>(block), 0);
+                // means still to find: blocks that end where a unit ends (lean_units.cpp)
+                if (in.unit_means_pending) starts_ = unit_aligned_blocks(in.index, lo_, hi_, static_cast<std::size_t>(block));
             }
         } else {
             const std::vector<std::size_t>& later = *in.later;
@@ -192,6 +194,7 @@ public:
 
     Index width() const { return static_cast<Index>(columns_.size()); }
     Index blocks() const {
+        if (!starts_.empty()) return static_cast<Index>(starts_.size()) - 1;
         const std::size_t span = sorted() ? hi_ - lo_ : in_.later->size();
         return static_cast<Index>((span + static_cast<std::size_t>(block_) - 1) / static_cast<std::size_t>(block_));
     }
@@ -212,13 +215,19 @@ public:
                VectorXd* levels = nullptr, bool check_values = false) {
         Block blk;
         if (sorted()) {
-            const std::size_t a = lo_ + static_cast<std::size_t>(k * block_);
-            const Index b = static_cast<Index>(std::min<std::size_t>(static_cast<std::size_t>(block_), hi_ - a));
+            const std::size_t a = starts_.empty() ? lo_ + static_cast<std::size_t>(k * block_) : starts_[static_cast<std::size_t>(k)];
+            const Index b = starts_.empty() ? static_cast<Index>(std::min<std::size_t>(static_cast<std::size_t>(block_), hi_ - a))
+                                            : static_cast<Index>(starts_[static_cast<std::size_t>(k) + 1] - a);
             blk.rows = b;
             blk.first = a;
             // the block's weights from the row marks (0 or 1)
             for (Index i = 0; i < b; ++i) keep_[static_cast<std::size_t>(i)] = marks_[a + static_cast<std::size_t>(i)] != 0 ? 1.0 : 0.0;
             blk.keep = keep_.data();
+            if (!starts_.empty() && k == means_done_) {
+                // the first read of this block: its units' means, from the rows in cache
+                block_unit_means(in_, a, b, keep_.data(), *in_.unit_means);
+                ++means_done_;
+            }
             if (!centre_.empty()) unit_slots(a, b);
             for (Index c = 0; c < width(); ++c) {
                 const double* x = columns_[static_cast<std::size_t>(c)];
@@ -386,6 +395,8 @@ private:
     std::vector<double> keep_;             // sorted: weights of the block's rows; unsorted: ones
     std::vector<double> centre_;           // within: the block's unit means of one column
     std::vector<std::int64_t> slot_;       // within: where each block row's unit means start
+    std::vector<std::size_t> starts_;      // within, means found on the way: block k is rows [starts_[k], starts_[k + 1])
+    Index means_done_ = 0;                 // ... and blocks 0 .. means_done_ - 1 have their means
     std::vector<Piece> pieces_;
     std::vector<const double*> columns_;
     std::vector<const std::uint8_t*> masks_;

@@ -60,7 +60,65 @@ std::optional<double> finite_value(double v) {
 
 }  // namespace
 
-UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& is_row) {
+std::vector<std::size_t> unit_aligned_blocks(const PanelIndex& index, std::size_t lo, std::size_t hi, std::size_t block) {
+    const std::int32_t* unit = index.unit_of_row.data();
+    std::vector<std::size_t> starts{lo};
+    for (std::size_t a = lo; a < hi;) {
+        std::size_t end = std::min(hi, a + block);
+        if (end < hi) {
+            while (end > a && unit[end] == unit[end - 1]) --end;   // back to where a unit ends
+            if (end == a) return {};                               // one unit fills the block
+        }
+        starts.push_back(end);
+        a = end;
+    }
+    return starts;
+}
+
+void block_unit_means(const LeanInput& in, std::size_t a, Index b, const double* keep, UnitMeansMatrix& means) {
+    const std::int32_t* unit = in.index.unit_of_row.data() + a;
+    const Index m = means.cols();
+    // the block's runs of one unit and their kept rows
+    std::vector<Index> end;
+    std::vector<long double> count;
+    for (Index i = 0; i < b;) {
+        Index j = i;
+        long double n = 0;
+        for (; j < b && unit[j] == unit[i]; ++j) n += keep[j] != 0.0 ? 1.0L : 0.0L;
+        end.push_back(j);
+        count.push_back(n);
+        i = j;
+    }
+    auto column = [&](Index c) {
+        return (c + 1 < m ? in.data.regressors[static_cast<std::size_t>(c)].data() : in.data.outcome.data()) + a;
+    };
+    // each unit's sum as the full route takes it (fit_equations.cpp run_means: in row
+    // order, long double), four columns at a time as four independent chains; a row
+    // that is not an equation row adds an exact 0 (a select: its cell may hold NaN)
+    Index c = 0;
+    for (; c < m; c += 4) {
+        const Index w = std::min<Index>(4, m - c);
+        const double* x[4];
+        for (Index k = 0; k < 4; ++k) x[k] = column(c + std::min(k, w - 1));
+        Index i = 0;
+        for (std::size_t r = 0; r < end.size(); ++r) {
+            long double s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+            for (; i < end[r]; ++i) {
+                const bool kept = keep[i] != 0.0;
+                s0 += kept ? x[0][i] : 0.0;
+                s1 += kept ? x[1][i] : 0.0;
+                s2 += kept ? x[2][i] : 0.0;
+                s3 += kept ? x[3][i] : 0.0;
+            }
+            if (!(count[r] > 0)) continue;
+            const long double sums[4] = {s0, s1, s2, s3};
+            const Index u = unit[end[r] - 1];
+            for (Index k = 0; k < w; ++k) means(u, c + k) = static_cast<double>(sums[k] / count[r]);
+        }
+    }
+}
+
+UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& is_row, bool sums_too) {
     const PanelIndex& index = ctx.index;
     const std::size_t n_units = index.n_units(), n_rows = is_row.size();
     std::vector<const double*> columns;
@@ -71,7 +129,7 @@ UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& i
     out.count.assign(n_units, 0);
     out.first_row.assign(n_units, std::numeric_limits<std::size_t>::max());
     Eigen::Matrix<long double, Eigen::Dynamic, Eigen::Dynamic> sums =
-        Eigen::Matrix<long double, Eigen::Dynamic, Eigen::Dynamic>::Zero(static_cast<Index>(n_units), m);
+        Eigen::Matrix<long double, Eigen::Dynamic, Eigen::Dynamic>::Zero(sums_too ? static_cast<Index>(n_units) : 0, m);
     const std::int32_t* unit = index.unit_of_row.data();
     const std::int32_t* period = index.period_of_row.data();
     std::vector<std::size_t> block, run_end;   // the block's used rows; where each run of one unit ends
@@ -83,14 +141,15 @@ UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& i
         run_end.clear();
         for (std::size_t r = a; r < end; ++r) {
             if (!is_row[r]) continue;
-            if (!block.empty() && unit[block.back()] != unit[r]) run_end.push_back(block.size());
-            block.push_back(r);
+            if (sums_too && !block.empty() && unit[block.back()] != unit[r]) run_end.push_back(block.size());
+            if (sums_too) block.push_back(r);
             const std::size_t u = static_cast<std::size_t>(unit[r]);
             ++out.count[u];
             // the unit's row in its earliest period (the full route's first row of the run)
             const std::size_t first = out.first_row[u];
             if (first == std::numeric_limits<std::size_t>::max() || period[r] < period[first]) out.first_row[u] = r;
         }
+        if (!sums_too) continue;
         if (!block.empty()) run_end.push_back(block.size());
         // a run's sum in a register, then into its unit's sum (a unit whose rows form
         // one run, as in input sorted by unit, gets exactly the sequential sum)
@@ -132,16 +191,21 @@ UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& i
         }
     }
     // one row more, zeros: what the block reader takes off a row that is not an equation row
-    out.means.resize(static_cast<Index>(n_units) + 1, m);
-    out.means.row(static_cast<Index>(n_units)).setZero();
+    out.means = UnitMeansMatrix::Zero(static_cast<Index>(n_units) + 1, m);
     for (std::size_t u = 0; u < n_units; ++u) {
         if (out.count[u] > 0) ++out.units;
+        if (!sums_too) continue;
         const long double n = static_cast<long double>(out.count[u]);
         for (Index c = 0; c < m; ++c)
             out.means(static_cast<Index>(u), c) =
                 out.count[u] > 0 ? static_cast<double>(sums(static_cast<Index>(u), c) / n) : 0.0;
     }
     return out;
+}
+
+bool units_fit_blocks(const UnitMeans& means) {
+    return std::all_of(means.count.begin(), means.count.end(),
+                       [](std::size_t n) { return n <= static_cast<std::size_t>(kLeanBlockRows); });
 }
 
 // The full route's level statistics of within (fit_inference.cpp level_statistics)

@@ -87,7 +87,12 @@ std::optional<detail::OutcomeSums> solve_streaming(const detail::Context& ctx, F
     detail::LeanInput in{ctx.data, ctx.spec, ctx.index, ctx.regressor_names};
     if (ctx.spec.estimator == Estimator::within) {
         if (!rows.sorted || rows.units < 2) return std::nullopt;   // one unit: the full route words it
-        means = detail::lean_unit_means(ctx, rows.is_row);
+        // input sorted by unit: the first pass finds the means block by block, as it
+        // reads (no pass of its own); else one pass for them first
+        const bool on_the_way = ctx.index.in_input_order;
+        means = detail::lean_unit_means(ctx, rows.is_row, !on_the_way);
+        if (on_the_way && !detail::units_fit_blocks(means)) means = detail::lean_unit_means(ctx, rows.is_row);
+        else in.unit_means_pending = on_the_way;
         in.unit_means = &means.means;
         in.absorbed = means.units;
     }
