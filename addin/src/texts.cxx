@@ -78,7 +78,9 @@ std::vector<ArgumentText> panel_args_plus(std::vector<ArgumentText> extra) {
     return all;
 }
 
-std::vector<FunctionText> make_texts() {
+// The wizard texts, in the order the wizard lists them: the functions that take ranges,
+// then those that read a fit cell (data, not logic).
+std::vector<FunctionText> range_texts() {
     std::vector<FunctionText> t;
     t.push_back({"estimates", "WEFT.ESTIMATES",
                  "Estimates a panel regression. Returns a table: header row, then one row per term "
@@ -155,6 +157,11 @@ std::vector<FunctionText> make_texts() {
     t.push_back({"version", "WEFT.VERSION", "The versions of the weft library and of this add-in.",
                  {}});
     // The fit cell, and the model functions that take it instead of the ranges.
+    return t;
+}
+
+std::vector<FunctionText> fit_cell_texts() {
+    std::vector<FunctionText> t;
     t.push_back({"fit", "WEFT.FIT",
                  "Fits a panel regression once and names the fit in one cell; give that cell to "
                  "WEFT.FIT.ESTIMATES, WEFT.FIT.VALUE and the other WEFT.FIT functions.",
@@ -219,6 +226,13 @@ std::vector<FunctionText> make_texts() {
                  "Difference in differences under staggered adoption: label and value rows with the "
                  "average effect on the treated, each cohort's average and the pre-treatment test.",
                  event_args()});
+    return t;
+}
+
+std::vector<FunctionText> make_texts() {
+    std::vector<FunctionText> t = range_texts();
+    std::vector<FunctionText> fits = fit_cell_texts();
+    t.insert(t.end(), fits.begin(), fits.end());
     return t;
 }
 

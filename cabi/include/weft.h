@@ -168,7 +168,9 @@ enum weft_se {
     WEFT_SE_CR2 = 10             /**< cluster by unit, bias-reduced CR2 (Bell-McCaffrey
                                       2002): t, p and intervals of each term on its own
                                       Satterthwaite df (weft_model_term_df); joint tests
-                                      by the HTZ approximation (since 0.3.0) */
+                                      by the HTZ approximation (since 0.3.0); with
+                                      observation weights, the CR2 of the sqrt(w)-scaled
+                                      equation (precision weights) */
 };
 
 #define WEFT_OPTIONS_VERSION 1
@@ -318,8 +320,10 @@ WEFT_API int weft_panel_borrow_units_text(weft_panel *panel, const char *bytes,
 
 /** Observation weights (since 0.3.0; CONVENTIONS "Observation weights"): one weight
  *  per row (n_rows values). Weighted least squares in every estimator but random;
- *  every standard-error family but cr2 follows the weights. A row whose missing entry
- *  is nonzero (a blank weight) is dropped and counted with the missing rows; a weight
+ *  every standard-error family follows the weights (cr2: the CR2 of the equation whose
+ *  rows are scaled by sqrt(w), i.e. precision weights; README "Few clusters"). A row
+ *  whose missing entry is nonzero (a blank weight) is dropped and counted with the
+ *  missing rows; a weight
  *  of 0 leaves the row out of the estimated equation and out of N (the summary says
  *  how many); a negative, NaN or infinite weight not marked missing is WEFT_EDATA
  *  naming the row when a model is fitted. name labels the column in messages (NULL

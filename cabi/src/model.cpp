@@ -106,9 +106,9 @@ std::vector<SummaryEntry> build_summary(const weft::Fit& fit) {
     optional_number("adjusted R-squared", fit.adj_r2);
     // within and random: how well the slopes' prediction (regressors times slopes, no
     // unit effects) tracks the outcome, read three ways (labels: FUNCTIONS.md "Labels").
-    optional_number(fit_label_rows, fit.r2_overall);
-    optional_number(fit_label_means, fit.r2_between);
-    optional_number(fit_label_deviations, fit.r2_within);
+    optional_number(fit_label_rows, fit.corr2_rows);
+    optional_number(fit_label_means, fit.corr2_means);
+    optional_number(fit_label_deviations, fit.corr2_deviations);
     number("residual std deviation", fit.sigma);
     // The model's joint test of all regressors under its own covariance and df
     // (CONVENTIONS.md), then the classical F of all terms under its own label.
@@ -185,9 +185,9 @@ std::optional<double> value_of(const weft::Fit& fit, const std::string& what) {
     if (what == "periods") return static_cast<double>(fit.n_periods);
     if (what == "r2") return fit.r2;
     if (what == "adj-r2") return fit.adj_r2;
-    if (what == "corr2-rows") return fit.r2_overall;
-    if (what == "corr2-means") return fit.r2_between;
-    if (what == "corr2-deviations") return fit.r2_within;
+    if (what == "corr2-rows") return fit.corr2_rows;
+    if (what == "corr2-means") return fit.corr2_means;
+    if (what == "corr2-deviations") return fit.corr2_deviations;
     if (what == "sigma") return fit.sigma;
     if (what == "df") return fit.covariance.df;
     if (what == "df-residual") return fit.df_residual;

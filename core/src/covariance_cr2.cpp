@@ -22,6 +22,17 @@
 // equation is OLS on its (possibly weight-scaled) rows, the case in which the
 // corrected theorem holds; tests check both against the explicit dummy-variable fit.
 //
+// Weights. A weighted fit's equation holds the rows sqrt(w_i) [x_i, y_i] (fit_weights.cpp),
+// and everything here works on those rows: A_g is the symmetric inverse square root of
+// I - H_gg of the scaled design, the working model Phi = I in the scaled rows, i.e.
+// Var(u_i) proportional to 1/w_i (precision weights), and scaling every weight by one
+// number changes nothing. This is clubSandwich's CR2 of the scaled equation fitted as an
+// unweighted lm (tests/data/panel/cr2_reference.R). Pustejovsky and Tipton (2018) take
+// the square root in the original rows instead (A_g = D_g' B_g^-1/2 D_g, D_g'D_g =
+// Phi_g = W_g^-1, clubSandwich's inverse_var = TRUE on the weighted lm), which needs the
+// n_g x n_g matrix W_g^-1 (I - H_gg) W_g^-1 and differs from this when the weights vary
+// within a cluster; both are unbiased under the working model.
+//
 // Satterthwaite (Pustejovsky and Tipton 2018, eqs. 8-11, working model Phi = I): for a
 // contrast with working vector delta (c'V c = sum_g (delta' Q_g' A_g e_g)^2),
 //   a_g = A_g Q_g delta, h_g = Q_g' a_g = Gamma_g delta, Gamma_g = V diag(lambda f) V',
@@ -153,7 +164,6 @@ MatrixXd contrast_map(const Equation& eq, const MatrixXd& r_inv) { return workin
 
 CovarianceResult cr2_covariance(const Equation& eq) {
     require_rows(eq, "cr2");
-    refuse_weighted(eq, "cr2", "use cluster (CR1) with weights");
     const Index K = eq.X.cols();
     const Clusters clusters = unit_clusters(eq);
     const MatrixXd r_inv = r_inverse(eq);

@@ -110,7 +110,7 @@ void fit_statistics(Fit& fit, const OutcomeSums& ysums) {
             fit.r2 = r2;
             const double adj_n = (spec.estimator == Estimator::within || centre) ? N_d - 1.0 : N_d;
             fit.adj_r2 = 1.0 - (1.0 - r2) * adj_n / fit.df_residual;
-            if (spec.estimator == Estimator::within) fit.r2_within = r2;
+            if (spec.estimator == Estimator::within) fit.corr2_deviations = r2;
         }
     }
     // F on all slopes (classical)
@@ -176,7 +176,7 @@ void level_statistics(const Context& ctx, const std::vector<std::size_t>& rows, 
         }
         for (std::size_t r = 0; r < rows.size(); ++r) yl[r] = data.outcome.value(rows[r]);
         const bool weighted = ctx.weights != nullptr;
-        if (!weighted) fit.r2_overall = finite_or_empty(squared_correlation(yl, xb));
+        if (!weighted) fit.corr2_rows = finite_or_empty(squared_correlation(yl, xb));
         std::vector<long double> ym(runs.begin.size()), xm(runs.begin.size());
         std::vector<long double> yd(rows.size()), xd(rows.size());
         for (std::size_t r = 0; r < runs.begin.size(); ++r) {
@@ -196,8 +196,8 @@ void level_statistics(const Context& ctx, const std::vector<std::size_t>& rows, 
                 xd[k] = xb[k] - xm[r];
             }
         }
-        if (!weighted) fit.r2_between = finite_or_empty(squared_correlation(ym, xm));
-        if (spec.estimator == Estimator::random) fit.r2_within = finite_or_empty(squared_correlation(yd, xd));
+        if (!weighted) fit.corr2_means = finite_or_empty(squared_correlation(ym, xm));
+        if (spec.estimator == Estimator::random) fit.corr2_deviations = finite_or_empty(squared_correlation(yd, xd));
         if (spec.estimator == Estimator::within) {
             fit.unit_effects.assign(index.n_units(), 0.0);
             for (std::size_t r = 0; r < runs.begin.size(); ++r)

@@ -40,8 +40,8 @@ struct RowChoice {
 // ---- weights (fit_weights.cpp)
 // Where a fit's weights come from (PanelData::weights, or the regressor that
 // ModelSpec::weights names, then taken out of the regressors) and the regressors of the
-// equation. Throws for an unknown name, weights given twice, or an estimator or
-// covariance that has no weighted definition (random, cr2), in words.
+// equation. Throws for an unknown name, weights given twice, or an estimator
+// that has no weighted definition (random), in words.
 struct WeightSource {
     const Column* column = nullptr;               // null: unweighted
     std::string label;                            // "weights \"pop\"", for messages

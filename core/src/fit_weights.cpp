@@ -3,9 +3,10 @@
 // row, and the scaling of the estimated equation by sqrt(w).
 //
 // Weighted least squares as ordinary least squares on the rows sqrt(w_i) [x_i, y_i]:
-// the solver, every covariance (hc*, cluster*, dk: the scores become
+// the solver, every covariance (hc*, cluster*, dk, cr2: the scores become
 // sqrt(w_i) x_i * sqrt(w_i) u_i = w_i x_i u_i; hc2/hc3: the leverage of the scaled row is
-// w_i x_i'(X'WX)^-1 x_i) and the Wald tests then need nothing of their own. This is the
+// w_i x_i'(X'WX)^-1 x_i; cr2: the cluster blocks of the scaled design, see
+// covariance_cr2.cpp) and the Wald tests then need nothing of their own. This is the
 // computation of R's lm(weights = ) (lm.wfit) that sandwich reads back through
 // estfun.lm and hatvalues; tests/data/weights_reference.R checks it.
 //
@@ -53,15 +54,12 @@ std::size_t find_weight_column(const PanelData& data, const std::string& name) {
                 "\"; put the weights among the regressors and give their header (the columns are: " + names + ")");
 }
 
-// Estimators and covariances that have no weighted definition in weft, in words.
+// Estimators that have no weighted definition in weft, in words.
 void refuse_unsupported(const ModelSpec& spec) {
     if (spec.estimator == Estimator::random)
         throw Error("random: observation weights are not supported with random effects (the variance "
                     "components have no agreed weighted definition); use within with weights, or pooled "
                     "with weights and cluster");
-    if (spec.covariance == Covariance::cr2)
-        throw Error("cr2: the bias-reduced cluster covariance is not defined for weighted fits in weft; "
-                    "use cluster (CR1) with weights");
 }
 
 }  // namespace

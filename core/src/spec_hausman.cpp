@@ -45,7 +45,9 @@ CovarianceResult classical_of(const Fit& fit) {
 
 }  // namespace
 
-HausmanResult hausman_test(const Fit& within, const Fit& random) {
+namespace {
+
+void check_pair(const Fit& within, const Fit& random) {
     detail::refuse_weighted(within.equation, "Hausman test",
                             "random effects take no weights; use within with weights and cluster standard errors");
     if (within.spec.estimator != Estimator::within || random.spec.estimator != Estimator::random)
@@ -61,49 +63,60 @@ HausmanResult hausman_test(const Fit& within, const Fit& random) {
         throw Error("Hausman test: the within fit uses " + std::to_string(ew.nobs()) +
                     " rows and the random fit " + std::to_string(er.nobs()) +
                     " (or other rows); fit both to the same panel");
+}
 
-    // Slopes common to both fits: regressors, not the intercept nor period indicators.
-    const auto periods = period_labels(random);
+// Slopes common to both fits: regressors, not the intercept nor period indicators.
+struct ComparedSlopes {
     std::vector<std::string> terms;
-    std::vector<Eigen::Index> pos_w, pos_r;
+    std::vector<Eigen::Index> pos_w, pos_r;   // their columns in the within and random fits
+};
+
+ComparedSlopes compared_slopes(const Fit& within, const Fit& random) {
+    const Equation& er = random.equation;
+    const auto periods = period_labels(random);
+    ComparedSlopes s;
     for (std::size_t j = 0; j < er.terms.size(); ++j) {
         if (static_cast<int>(j) == er.intercept_column) continue;
         if (periods.count(er.terms[j])) continue;
         const auto pw = within.term_position(er.terms[j]);
         if (!pw) continue;
-        terms.push_back(er.terms[j]);
-        pos_w.push_back(static_cast<Eigen::Index>(*pw));
-        pos_r.push_back(static_cast<Eigen::Index>(j));
+        s.terms.push_back(er.terms[j]);
+        s.pos_w.push_back(static_cast<Eigen::Index>(*pw));
+        s.pos_r.push_back(static_cast<Eigen::Index>(j));
     }
-    if (terms.empty())
+    if (s.terms.empty())
         throw Error("Hausman test: no regressor is estimated by both within and random (a "
                     "regressor that does not vary within units is dropped by within); add a "
                     "regressor that varies over time");
+    return s;
+}
 
+// The classical contrast (Hausman 1978): statistic, df, rank, eigenvalues and warnings.
+void classical_contrast(const Fit& within, const Fit& random, const ComparedSlopes& s,
+                        HausmanResult& r) {
     const CovarianceResult vw = classical_of(within);
     const CovarianceResult vr = classical_of(random);
-    const auto q = static_cast<Eigen::Index>(terms.size());
+    const auto q = static_cast<Eigen::Index>(s.terms.size());
+    const auto at = [](Eigen::Index a) { return static_cast<std::size_t>(a); };
     Eigen::VectorXd d(q);
     Eigen::MatrixXd vd(q, q);
     for (Eigen::Index a = 0; a < q; ++a) {
-        d(a) = ew.coef(pos_w[static_cast<std::size_t>(a)]) - er.coef(pos_r[static_cast<std::size_t>(a)]);
+        d(a) = within.equation.coef(s.pos_w[at(a)]) - random.equation.coef(s.pos_r[at(a)]);
         for (Eigen::Index b = 0; b < q; ++b)
-            vd(a, b) = vw.matrix(pos_w[static_cast<std::size_t>(a)], pos_w[static_cast<std::size_t>(b)]) -
-                       vr.matrix(pos_r[static_cast<std::size_t>(a)], pos_r[static_cast<std::size_t>(b)]);
+            vd(a, b) = vw.matrix(s.pos_w[at(a)], s.pos_w[at(b)]) - vr.matrix(s.pos_r[at(a)], s.pos_r[at(b)]);
     }
     vd = 0.5 * (vd + vd.transpose());
     Eigen::VectorXd within_variance(q);  // the scale of the comparison (positive)
-    for (Eigen::Index a = 0; a < q; ++a)
-        within_variance(a) = vw.matrix(pos_w[static_cast<std::size_t>(a)], pos_w[static_cast<std::size_t>(a)]);
+    for (Eigen::Index a = 0; a < q; ++a) within_variance(a) = vw.matrix(s.pos_w[at(a)], s.pos_w[at(a)]);
 
-    HausmanResult r;
-    r.terms = terms;
+    r.terms = s.terms;
     r.difference = d;
     // Rank and sign decisions in the scaled basis of V_W - V_R (tolerances.hpp), so the
     // df does not depend on units; D from the within variances, as V_W - V_R's own
-    // diagonal can cancel to rounding in a direction where the two fits agree. The statistic: over the non-null eigenvalues, the
-    // inverse when V_W - V_R has full rank, a generalised inverse otherwise; a negative
-    // eigenvalue is kept with its sign (the raw quadratic form).
+    // diagonal can cancel to rounding in a direction where the two fits agree. The
+    // statistic: over the non-null eigenvalues, the inverse when V_W - V_R has full rank,
+    // a generalised inverse otherwise; a negative eigenvalue is kept with its sign (the
+    // raw quadratic form).
     const detail::ScaledEigen eig = detail::scaled_eigen(vd, within_variance);
     const double tiny = kHausmanRankTolerance * eig.largest;
     const auto rank = static_cast<std::size_t>(eig.rank(kHausmanRankTolerance));
@@ -134,7 +147,13 @@ HausmanResult hausman_test(const Fit& within, const Fit& random) {
                              " directions the within estimates are not less precise than the random "
                              "ones, so the statistic can be too small or negative; read the robust "
                              "rows instead");
+}
 
+// The auxiliary regression (Mundlak 1978; Wooldridge 2010 section 10.7.3): Wald tests,
+// cluster-robust and classical, that the added unit means have zero coefficients.
+void auxiliary_regression(const Fit& random, const ComparedSlopes& s, HausmanResult& r) {
+    const Equation& er = random.equation;
+    const auto q = static_cast<Eigen::Index>(s.terms.size());
     // Mundlak: the unit mean of a quasi-demeaned column x - theta_i xbar_i over the unit's
     // rows is (1 - theta_i) xbar_i, so the added columns come from the random equation
     // itself.
@@ -151,13 +170,13 @@ HausmanResult hausman_test(const Fit& within, const Fit& random) {
     aux.terms = er.terms;
     for (Eigen::Index a = 0; a < q; ++a) {
         std::vector<long double> sum(count.size(), 0.0L);
-        const Eigen::Index col = pos_r[static_cast<std::size_t>(a)];
+        const Eigen::Index col = s.pos_r[static_cast<std::size_t>(a)];
         for (Eigen::Index i = 0; i < n; ++i) sum[static_cast<std::size_t>(er.unit[static_cast<std::size_t>(i)])] += er.X(i, col);
         for (Eigen::Index i = 0; i < n; ++i) {
             const auto u = static_cast<std::size_t>(er.unit[static_cast<std::size_t>(i)]);
             aux.X(i, kr + a) = static_cast<double>(sum[u] / static_cast<long double>(count[u]));
         }
-        aux.terms.push_back("mean " + terms[static_cast<std::size_t>(a)]);
+        aux.terms.push_back("mean " + s.terms[static_cast<std::size_t>(a)]);
     }
     aux.y = er.y;
     aux.intercept_column = er.intercept_column;
@@ -170,7 +189,7 @@ HausmanResult hausman_test(const Fit& within, const Fit& random) {
     Eigen::MatrixXd restriction = Eigen::MatrixXd::Zero(q, static_cast<Eigen::Index>(mundlak.n_terms()));
     Eigen::Index row = 0;
     for (Eigen::Index a = 0; a < q; ++a) {
-        const std::string name = "mean " + terms[static_cast<std::size_t>(a)];
+        const std::string name = "mean " + s.terms[static_cast<std::size_t>(a)];
         const auto it = std::find(mundlak.terms.begin(), mundlak.terms.end(), name);
         if (it == mundlak.terms.end()) continue;
         restriction(row++, static_cast<Eigen::Index>(it - mundlak.terms.begin())) = 1.0;
@@ -194,6 +213,16 @@ HausmanResult hausman_test(const Fit& within, const Fit& random) {
     r.auxiliary_classical.terms = mean_terms;
     r.auxiliary_classical.covariance_label = vcl.label;
     r.auxiliary_classical.df_rule = vcl.df_rule;
+}
+
+}  // namespace
+
+HausmanResult hausman_test(const Fit& within, const Fit& random) {
+    check_pair(within, random);
+    const ComparedSlopes slopes = compared_slopes(within, random);
+    HausmanResult r;
+    classical_contrast(within, random, slopes, r);
+    auxiliary_regression(random, slopes, r);
     return r;
 }
 

@@ -7,8 +7,8 @@
   wording (tests/common/old_labels.py);
 - within and random show the three fit measures under their new labels, in the order
   all rows, unit means, deviations, and the value words corr2-rows, corr2-means and
-  corr2-deviations give the same numbers; the old words r2-within, r2-between and
-  r2-overall are refused (WEFT_EMODEL);
+  corr2-deviations give the same numbers; the old value words (old_labels.OLD_VALUE_WORDS)
+  are refused (WEFT_EMODEL);
 - the numbers are what the labels say. Expected values: tests/data/panel/
   grunfeld_{within,random}[_period_dummies].json, results.r_squared_*_corr2 (R plm,
   squared correlations of outcome and slope prediction; within's deviation measure is
@@ -25,14 +25,14 @@ import random
 import sys
 
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "common"))
-from old_labels import old_wording  # noqa: E402
+from old_labels import OLD_VALUE_WORDS, old_wording  # noqa: E402
 
 WEFT_EMODEL = -5  # weft.h
 FIT = "squared correlation of outcome and slope prediction, "
 NEW_LABELS = [(FIT + "all rows", "corr2-rows", "r_squared_overall_corr2"),
               (FIT + "unit means", "corr2-means", "r_squared_between_corr2"),
               (FIT + "deviations from unit means", "corr2-deviations", None)]
-OLD_WORDS = ["r2-within", "r2-between", "r2-overall"]
+OLD_WORDS = OLD_VALUE_WORDS
 
 failures = []
 

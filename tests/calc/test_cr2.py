@@ -1,7 +1,10 @@
 """End-to-end: the cr2 model word in a real headless Calc, on the Grunfeld panel.
 
 WEFT.ESTIMATES, WEFT.VALUE(...; "df"; term), WEFT.FIT.VALUE and WEFT.JOINT under
-"pooled cr2", "fd cr2" and "within cr2" against tests/data/panel/cr2_reference.json
+"pooled cr2", "fd cr2" and "within cr2", and "pooled cr2 weights=w" and
+"within cr2 weights=w" on the Grunfeld panel with its weight column
+(grunfeld_weighted.csv, placed beside it from column AO), against
+tests/data/panel/cr2_reference.json
 (R clubSandwich 0.5.8: coef_test(..., vcov = "CR2", test = "Satterthwaite") and
 Wald_test(..., test = "HTZ"/"chi-sq"); written by cr2_reference.R beside it), relative
 1e-8. The interval ends are checked against estimate +- t(0.975, df) * se with the
@@ -9,15 +12,28 @@ reference's df and SE and the t quantile from scipy (an outside implementation).
 Run: WEFT_OXT=build/addin/weft.oxt /usr/bin/python3 tests/calc/test_cr2.py
 """
 
+import csv
+import os
 import unittest
 
 from scipy.stats import t as student_t
 
-from calc_helpers import GRUNFELD_RANGES as R, ArrayFormula, Office, close, oxt_path, put_grunfeld, reference
+from calc_helpers import (DATA_DIR, GRUNFELD_RANGES as R, ArrayFormula, Office, close, oxt_path, put_grunfeld,
+                          put_rows, reference)
 
 REF = reference("cr2_reference.json")
 TOL = 1e-8  # the JSON keeps 15 significant digits
-CASES = [("pooled cr2", "grunfeld_pooled"), ("fd cr2", "grunfeld_fd"), ("within cr2", "grunfeld_within")]
+# the weighted panel at AO1 (firm, year, inv, value, capital, w; 200 rows and a header)
+RW = "AQ1:AQ201;AR1:AT201;AO1:AO201;AP1:AP201"
+CASES = [("pooled cr2", "grunfeld_pooled", R), ("fd cr2", "grunfeld_fd", R), ("within cr2", "grunfeld_within", R),
+         ("pooled cr2 weights=w", "grunfeld_pooled_weighted", RW),
+         ("within cr2 weights=w", "grunfeld_within_weighted", RW)]
+
+
+def put_weighted_grunfeld(sheet):
+    with open(os.path.join(DATA_DIR, "grunfeld_weighted.csv")) as f:
+        rows = list(csv.reader(f))
+    put_rows(sheet, 40, 0, [rows[0]] + [[float(v) for v in r] for r in rows[1:]])
 
 
 def weft_term(r_name):
@@ -31,6 +47,7 @@ class Cr2CellTests(unittest.TestCase):
             doc = office.new_calc()
             sheet = doc.Sheets.getByIndex(0)
             put_grunfeld(sheet)
+            put_weighted_grunfeld(sheet)
             self.compare(doc, sheet)
 
     def compare(self, doc, sheet):
@@ -48,17 +65,17 @@ class Cr2CellTests(unittest.TestCase):
 
         row = 0
         placed = []
-        for model, key in CASES:
+        for model, key, ranges in CASES:
             ref = REF[key]
             k = len(ref["terms"])
-            table = ArrayFormula(sheet, 8, row, k + 1, 7, f'=WEFT.ESTIMATES({R};"{model}")')
-            joint = ArrayFormula(sheet, 16, row, 7, 2, f'=WEFT.JOINT({R};"{model}";"value, capital")')
+            table = ArrayFormula(sheet, 8, row, k + 1, 7, f'=WEFT.ESTIMATES({ranges};"{model}")')
+            joint = ArrayFormula(sheet, 16, row, 7, 2, f'=WEFT.JOINT({ranges};"{model}";"value, capital")')
             fit = sheet.getCellByPosition(19, row)
-            fit.setFormula(f'=WEFT.FIT({R};"{model}")')
+            fit.setFormula(f'=WEFT.FIT({ranges};"{model}")')
             dfs = []
             for j, term in enumerate(ref["terms"]):
                 c = sheet.getCellByPosition(20 + j, row)
-                c.setFormula(f'=WEFT.VALUE({R};"{model}";"df";"{weft_term(term)}")')
+                c.setFormula(f'=WEFT.VALUE({ranges};"{model}";"df";"{weft_term(term)}")')
                 f = sheet.getCellByPosition(20 + j, row + 1)
                 f.setFormula(f'=WEFT.FIT.VALUE({fit.AbsoluteName.split(".")[-1]};"df";"{weft_term(term)}")')
                 dfs.append((c, f))
@@ -93,7 +110,7 @@ class Cr2CellTests(unittest.TestCase):
                                                   ("HTZ p", j["p"]), ("Wald W", j["chi2"]),
                                                   ("chi-square df", j["chi2_df"])]):
                 check(f"{model} WEFT.JOINT {name}", values[i], expected, src + " joint")
-        self.assertGreaterEqual(checked, 3 * 6 + 2 * 3 * 8, "fewer comparisons than planned")
+        self.assertGreaterEqual(checked, 5 * 6 + (3 + 3 + 2 + 3 + 2) * 8, "fewer comparisons than planned")
         if failures:
             self.fail(f"{len(failures)} of {checked} comparisons failed:\n" + "\n".join(failures))
 

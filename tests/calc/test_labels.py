@@ -22,7 +22,7 @@ from calc_helpers import (GRUNFELD_RANGES, ArrayFormula, Office, close, oxt_path
                           put_grunfeld, put_rows, reference)
 
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "common"))
-from old_labels import old_wording  # noqa: E402
+from old_labels import OLD_VALUE_WORDS, old_wording  # noqa: E402
 
 R = GRUNFELD_RANGES
 FIT = "squared correlation of outcome and slope prediction, "
@@ -106,7 +106,7 @@ class LabelTests(unittest.TestCase):
                     self.assertTrue(close(value, res[key]), f"{model} {word}: {value}")
 
     def test_old_value_words_are_refused(self):
-        for word in ["r2-within", "r2-between", "r2-overall"]:
+        for word in OLD_VALUE_WORDS:
             got = self.block(1, 1, f'=WEFT.VALUE({R};"within";"{word}")')[0][0]
             self.assertTrue(isinstance(got, str) and got.startswith("weft:"), got)
             self.assertIn("corr2-deviations", got, "the message lists the words there are")

@@ -24,6 +24,10 @@ OLD_WORDING = [
 ]
 
 
+# the value words the three fit measures had before 0.3.0 (refused since, WEFT_EMODEL)
+OLD_VALUE_WORDS = ["r2-" + view for view in ("within", "between", "overall")]
+
+
 def old_wording(text):
     """The old patterns that text matches (empty when it has none)."""
     return [p.pattern for p in OLD_WORDING if p.search(text or "")]

@@ -100,6 +100,46 @@ TEST_CASE("cr2: SEs, Satterthwaite df and HTZ tests equal clubSandwich and estim
     }
 }
 
+TEST_CASE("cr2 with weights: the scaled equation's CR2 equals clubSandwich's", "[cr2][weights]") {
+    // cr2_reference.R: clubSandwich on the sqrt(w)-scaled equation of each estimator
+    // fitted as an unweighted lm (within: the explicit dummy-variable equation, unit
+    // indicators scaled like every column). estimatr's weighted CR2 is clubSandwich's
+    // default on the weighted lm (target = I), another working model: the JSON keeps it,
+    // and clubSandwich's inverse_var = TRUE, for the record only (README, cr2).
+    const json ref = core_test::read_json("panel/cr2_reference.json");
+    const RefCase cases[] = {{"grunfeld_pooled_weighted", "pooled cr2 weights=w"},
+                             {"grunfeld_fd_weighted", "fd cr2 weights=w"},
+                             {"grunfeld_within_weighted", "within cr2 weights=w"},
+                             {"grunfeld_between_weighted", "between cr2 weights=w"},
+                             {"few_pooled_weighted", "pooled cr2 weights=w"},
+                             {"few_fd_weighted", "fd cr2 weights=w"},
+                             {"few_within_weighted", "within cr2 weights=w"},
+                             {"few_between_weighted", "between cr2 weights=w"}};
+    const weft::PanelData grunfeld =
+        core_test::read_panel("panel/grunfeld_weighted.csv", "inv", {"value", "capital", "w"}, "firm", "year");
+    const weft::PanelData few =
+        core_test::read_panel("panel/few_clusters.csv", "y", {"x1", "x2", "w"}, "unit", "period");
+    for (const RefCase& c : cases) {
+        INFO(c.key << " as \"" << c.model << "\"");
+        const std::string name(c.key);
+        const weft::Fit fit = weft::fit_model(name.rfind("grunfeld", 0) == 0 ? grunfeld : few,
+                                              weft::parse_model_text(c.model));
+        const json& r = ref[c.key];
+        check_terms(fit, r, true);
+        check_joint(fit, r["joint"]);
+        // scaling every weight by one number changes nothing (the scaled design's H is
+        // unchanged): an identity of the definition, checked on the same panel
+        weft::PanelData scaled = name.rfind("grunfeld", 0) == 0 ? grunfeld : few;
+        for (double& w : scaled.regressors[2].values) w *= 7.5;
+        const weft::Fit fit7 = weft::fit_model(scaled, weft::parse_model_text(c.model));
+        for (std::size_t k = 0; k < fit.n_terms; ++k) {
+            const auto i = static_cast<Eigen::Index>(k);
+            CORE_CHECK_REL(fit7.se[i], fit.se[i], 1e-10, "se, weights times 7.5");
+            CORE_CHECK_REL(fit7.covariance.term_df[k], fit.covariance.term_df[k], 1e-10, "df, weights times 7.5");
+        }
+    }
+}
+
 TEST_CASE("cr2: one row per cluster gives HC2 (Bell and McCaffrey 2002)", "[cr2]") {
     std::mt19937 rng(17);
     std::normal_distribution<double> normal;

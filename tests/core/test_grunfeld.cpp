@@ -22,7 +22,7 @@
 // effects: issue 3, tests/spec).
 // Definitions: r2 = r_squared (pooled, fd, between; uncentred without intercept, as the
 // JSON), r_squared_within (within), r_squared_rss (random: 1 - SSR/TSS of the
-// quasi-demeaned y); r2_between / r2_overall = *_corr2; random r2_within =
+// quasi-demeaned y); corr2_means / corr2_rows = *_corr2; random corr2_deviations =
 // r_squared_within_corr2. F on all slopes = f_all_terms; for random the classical Wald
 // F on the slopes = wald_slopes_classical.F (the 1 - theta column is not a constant in
 // unbalanced panels, so weft uses the Wald form there).
@@ -199,8 +199,8 @@ void check_case(const Case& c) {
             CORE_CHECK_REL(*fit.r2, res["r_squared_rss"].get<double>(), kTol, "r_squared_rss");
             CORE_CHECK_REL(*fit.adj_r2, res["adj_r_squared_plm"].get<double>(), kTol, "adj_r_squared_plm");
             CORE_CHECK_REL(*fit.tss, res["tss"].get<double>(), kTol, "tss");
-            REQUIRE(fit.r2_within);
-            CORE_CHECK_REL(*fit.r2_within, res["r_squared_within_corr2"].get<double>(), kTol,
+            REQUIRE(fit.corr2_deviations);
+            CORE_CHECK_REL(*fit.corr2_deviations, res["r_squared_within_corr2"].get<double>(), kTol,
                            "r_squared_within_corr2");
         } else {
             REQUIRE(fit.r2);
@@ -210,11 +210,11 @@ void check_case(const Case& c) {
                            kTol, "tss");
         }
         if (method == "within" || method == "random") {
-            REQUIRE(fit.r2_between);
-            REQUIRE(fit.r2_overall);
-            CORE_CHECK_REL(*fit.r2_between, res["r_squared_between_corr2"].get<double>(), kTol,
+            REQUIRE(fit.corr2_means);
+            REQUIRE(fit.corr2_rows);
+            CORE_CHECK_REL(*fit.corr2_means, res["r_squared_between_corr2"].get<double>(), kTol,
                            "r_squared_between_corr2");
-            CORE_CHECK_REL(*fit.r2_overall, res["r_squared_overall_corr2"].get<double>(), kTol,
+            CORE_CHECK_REL(*fit.corr2_rows, res["r_squared_overall_corr2"].get<double>(), kTol,
                            "r_squared_overall_corr2");
         }
         if (res.contains("f_all_terms")) {

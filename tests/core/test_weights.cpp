@@ -104,7 +104,7 @@ TEST_CASE("weights: unit effects, residuals, fitted values and the zero-weight r
     REQUIRE(within.unit_effects.size() == effects.size());
     for (std::size_t i = 0; i < effects.size(); ++i)
         CORE_CHECK_REL(within.unit_effects[i], effects[i], kTol, "unit effect (weighted dummy regression)");
-    CHECK_FALSE(within.r2_overall);  // not reported under weights
+    CHECK_FALSE(within.corr2_rows);  // not reported under weights
     const weft::Fit pooled = fit_text(data, "pooled weights=w");
     // residuals and fitted values in the outcome's units, as R's residuals(lm)
     CORE_CHECK_REL(pooled.residuals.value[0], ref["pooled"]["residual_first"].get<double>(), kTol, "residual row 2");
@@ -233,7 +233,6 @@ TEST_CASE("weights: bad weights and refused combinations are named in words", "[
     CHECK_THAT_MESSAGE(fit_text(data, "pooled weights=pop"), "no regressor column is named \"pop\"");
     CHECK_THAT_MESSAGE(fit_text(data, "pooled weights=pop"), "(the columns are: value, capital, w)");
     CHECK_THAT_MESSAGE(fit_text(data, "random weights=w"), "use within with weights");
-    CHECK_THAT_MESSAGE(fit_text(data, "pooled cr2 weights=w"), "use cluster");
     CHECK_THAT_MESSAGE(weft::hausman_test(data, weft::parse_model_text("within weights=w")), "Hausman test");
     const weft::Fit fit = fit_text(data, "within weights=w");
     CHECK_THAT_MESSAGE(weft::hetero_test(fit, weft::HeteroForm::koenker), "not defined for a weighted fit");

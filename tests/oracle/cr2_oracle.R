@@ -20,6 +20,13 @@
 #   df/cr2/<term>: coef_test(..., test = "Satterthwaite")$df_Satt;
 #   wald/cr2: Wald_test of the regressors = 0, test = c("HTZ", "chi-sq"): F, df1, df2,
 #   p (HTZ) and chi2, q, p_chi2 (chi-square).
+# Observation weights (a column named wt, cases with weights=wt; CONVENTIONS.md
+# "Observation weights"): a blank weight drops the row, a zero leaves it out before
+# anything else; the weight of an fd difference is the later row's, a between unit's
+# the mean of its rows' weights with unit means weighted within the unit. weft's cr2
+# treats weights as precision weights and is the CR2 of the equation whose rows
+# (unit indicators of within included) are scaled by sqrt(w): here that scaled
+# equation is fitted as an unweighted lm and given to clubSandwich as above.
 # A missing package is an error (exit status 2): the oracle must never pass silently.
 
 for (p in c("clubSandwich", "jsonlite")) {
@@ -36,12 +43,18 @@ raw <- read.csv(args[1], na.strings = c("", "NA"), check.names = FALSE, stringsA
 cases <- trimws(readLines(args[2]))
 cases <- cases[nchar(cases) > 0]
 x_names <- names(raw)[-(1:3)]
+weighted <- "wt" %in% x_names
+x_names <- setdiff(x_names, "wt")
 names(raw)[1:3] <- c("unit", "period", "y")
 raw$unit <- as.character(raw$unit)
 grid <- sort(unique(raw$period[!is.na(raw$unit) & !is.na(raw$period)]))
 raw$gi <- match(raw$period, grid)
-d <- raw[complete.cases(raw[, c("unit", "period", "y", x_names)]), ]
+used <- complete.cases(raw[, c("unit", "period", "y", x_names, if (weighted) "wt")])
+if (weighted) used <- used & raw$wt > 0
+d <- raw[used, ]
+d$w <- if (weighted) d$wt else rep(1, nrow(d))
 d <- d[order(d$unit, d$gi), ]
+wmean <- function(v) ave(v * d$w, d$unit, FUN = sum) / ave(d$w, d$unit, FUN = sum)
 
 period_label <- function(g) paste("period", format(grid[g], scientific = FALSE, trim = TRUE))
 
@@ -64,7 +77,7 @@ design <- function(est, periods, intercept) {
   if (est == "pooled") {
     X <- as.matrix(d[, x_names, drop = FALSE])
     if (periods) X <- cbind(X, indicators(d$gi, intercept))
-    return(list(y = d$y, X = X, unit = d$unit, intercept = intercept, dummies = FALSE))
+    return(list(y = d$y, X = X, unit = d$unit, intercept = intercept, dummies = FALSE, w = d$w))
   }
   if (est == "fd") {
     n <- nrow(d)
@@ -74,19 +87,21 @@ design <- function(est, periods, intercept) {
     X <- varying(L - as.matrix(d[earlier, x_names, drop = FALSE]), L)
     if (periods) X <- cbind(X, indicators(d$gi[later], intercept))
     return(list(y = d$y[later] - d$y[earlier], X = X, unit = d$unit[later], intercept = intercept,
-                dummies = FALSE))
+                dummies = FALSE, w = d$w[later]))
   }
   if (est == "within") {
     L <- as.matrix(d[, x_names, drop = FALSE])
-    dev <- L - apply(L, 2, function(v) ave(v, d$unit))
+    dev <- L - apply(L, 2, wmean)
     X <- L[, colnames(varying(dev, L)), drop = FALSE]
     if (periods) X <- cbind(X, indicators(d$gi, TRUE))
-    return(list(y = d$y, X = X, unit = d$unit, intercept = FALSE, dummies = TRUE))
+    return(list(y = d$y, X = X, unit = d$unit, intercept = FALSE, dummies = TRUE, w = d$w))
   }
   if (est == "between") {
-    m <- aggregate(d[, c("y", x_names)], by = list(unit = d$unit), FUN = mean)
-    return(list(y = m$y, X = as.matrix(m[, x_names, drop = FALSE]), unit = m$unit, intercept = intercept,
-                dummies = FALSE))
+    first <- !duplicated(d$unit)
+    m <- sapply(c("y", x_names), function(v) wmean(d[[v]])[first])
+    m <- matrix(m, nrow = sum(first), dimnames = list(NULL, c("y", x_names)))
+    return(list(y = m[, "y"], X = m[, x_names, drop = FALSE], unit = d$unit[first], intercept = intercept,
+                dummies = FALSE, w = ave(d$w, d$unit)[first]))
   }
   NULL
 }
@@ -99,10 +114,25 @@ one_case <- function(text) {
   X <- e$X
   weft_names <- c(if (e$intercept) "intercept", colnames(X))
   colnames(X) <- paste0("c", seq_len(ncol(X)))
-  df <- data.frame(y = e$y, X, unit = e$unit)
-  rhs <- c(if (e$intercept) "1" else "0", colnames(X), if (e$dummies) "factor(unit)")
-  fit <- lm(reformulate(rhs, "y"), data = df)
-  r_names <- c(if (e$intercept) "(Intercept)", colnames(X))
+  if (weighted) {
+    # the scaled equation: every column, the intercept's and the unit indicators'
+    # included, times sqrt(w)
+    M <- cbind(if (e$intercept) cbind(ic = rep(1, nrow(X))), X)
+    if (e$dummies) {
+      U <- model.matrix(~ 0 + factor(e$unit))
+      colnames(U) <- paste0("u", seq_len(ncol(U)))
+      M <- cbind(M, U)
+    }
+    s <- sqrt(e$w)
+    df <- data.frame(y = s * e$y, s * M, unit = e$unit)
+    fit <- lm(reformulate(c("0", colnames(M)), "y"), data = df)
+    r_names <- c(if (e$intercept) "ic", colnames(X))
+  } else {
+    df <- data.frame(y = e$y, X, unit = e$unit)
+    rhs <- c(if (e$intercept) "1" else "0", colnames(X), if (e$dummies) "factor(unit)")
+    fit <- lm(reformulate(rhs, "y"), data = df)
+    r_names <- c(if (e$intercept) "(Intercept)", colnames(X))
+  }
   v <- vcovCR(fit, cluster = df$unit, type = "CR2")
   ct <- coef_test(fit, vcov = v, test = "Satterthwaite")
   pick <- match(r_names, rownames(ct))

@@ -254,10 +254,7 @@ def main():
             return 2
         # cr2 against clubSandwich (cr2_oracle.R), compared as a third route
         cr2_path = os.path.join(args.workdir, name + ".cr2.json")
-        if weighted:  # cr2 refuses weights: no clubSandwich route
-            with open(cr2_path, "w") as f:
-                json.dump({"clubSandwich": {}}, f)
-        p = subprocess.run(["true"]) if weighted else subprocess.run(
+        p = subprocess.run(
             [args.rscript, os.path.join(here, "cr2_oracle.R"), csv_path, cases_path, cr2_path],
             capture_output=True, text=True)
         if p.returncode != 0:

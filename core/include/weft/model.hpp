@@ -213,11 +213,11 @@ struct Fit {
     double ssr = 0;
     double sigma = 0;                   // sqrt(ssr / df_residual)
     std::optional<double> tss;          // of the estimated equation's y (centred, or uncentred without intercept; within: sum (y - ybar_i)^2)
-    std::optional<double> r2;           // 1 - ssr/tss (within: = r2_within)
+    std::optional<double> r2;           // 1 - ssr/tss (within: = corr2_deviations)
     std::optional<double> adj_r2;
-    std::optional<double> r2_within;    // within, random (random: corr^2 of demeaned y and demeaned X b)
-    std::optional<double> r2_between;   // within, random: corr^2(ybar_i, xbar_i' b) over units (empty when weighted)
-    std::optional<double> r2_overall;   // within, random: corr^2(y_it, x_it' b) over rows (empty when weighted)
+    std::optional<double> corr2_deviations;    // within, random (random: corr^2 of demeaned y and demeaned X b)
+    std::optional<double> corr2_means;   // within, random: corr^2(ybar_i, xbar_i' b) over units (empty when weighted)
+    std::optional<double> corr2_rows;   // within, random: corr^2(y_it, x_it' b) over rows (empty when weighted)
     std::optional<double> f, f_df1, f_df2, f_p;  // classical F of all terms but the intercept
                                                  // (period indicators included)
     std::optional<JointTest> joint;     // the model's joint test (empty: no regressor term)

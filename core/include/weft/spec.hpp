@@ -158,7 +158,8 @@ struct HausmanResult {
                                       // singular, its rank (the statistic then uses the
                                       // generalised inverse over the non-null eigenvalues)
     double p = 1;                     // upper tail of chi-square(df) at H (1 if H <= 0)
-    std::size_t rank = 0;             // rank of V_within - V_random (|lambda| > 1e-10 max|lambda|)
+    std::size_t rank = 0;             // rank of V_within - V_random, decided in its scaled
+                                      // basis (kHausmanRankTolerance, tolerances.hpp)
     bool positive_definite = false;
     std::vector<double> eigenvalues;  // of V_within - V_random, descending
     // Mundlak (1978) auxiliary regression (Wooldridge 2010 section 10.7.3): unit means of

@@ -7,7 +7,8 @@
 # (the build never runs R). Data: grunfeld.csv (Grunfeld panel, 10 firms),
 # cr2_leverage.csv (random numbers, made once by hand for the leverage-1 case) and
 # few_clusters.csv, written here from a fixed seed (random data for the oracle
-# comparison: both sides fit the same numbers).
+# comparison: both sides fit the same numbers; its column w holds invented weights);
+# grunfeld_weighted.csv (written by weights_reference.R) for the weighted cases.
 suppressMessages({
   library(plm); library(clubSandwich); library(estimatr); library(jsonlite)
 })
@@ -25,6 +26,13 @@ few <- do.call(rbind, lapply(seq_len(G), function(g) {
   data.frame(unit = g, period = 2000 + t, y = y, x1 = x1, x2 = x2)
 }))
 few[] <- lapply(few, function(v) sprintf("%.17g", v))
+write.csv(few, file.path(dir, "few_clusters.csv"), row.names = FALSE, quote = FALSE)
+few <- read.csv(file.path(dir, "few_clusters.csv"))
+# invented weights for the weighted cases (their own seed, drawn after the data above,
+# so the columns y, x1, x2 are those of the unweighted cases)
+set.seed(20261207)
+few[] <- lapply(few, function(v) sprintf("%.17g", v))
+few$w <- sprintf("%.3f", runif(nrow(few), 0.3, 2.5))
 write.csv(few, file.path(dir, "few_clusters.csv"), row.names = FALSE, quote = FALSE)
 few <- read.csv(file.path(dir, "few_clusters.csv"))
 gr <- read.csv(file.path(dir, "grunfeld.csv"))
@@ -78,6 +86,84 @@ make_cases <- function(d, y, xs, unit, period, prefix) {
 }
 cases <- c(make_cases(gr, "inv", c("value", "capital"), "firm", "year", "grunfeld"),
            make_cases(few, "y", c("x1", "x2"), "unit", "period", "few"))
+
+# ---- Weighted cases. Weights are precision weights: weft fits OLS on the rows
+# sqrt(w) [x, y] (weights_reference.R has the rows of each estimator) and takes cr2 on
+# that scaled equation, A_g the symmetric inverse square root of I - H_gg of the scaled
+# design. The reference is clubSandwich on the same scaled equation as an unweighted lm
+# (working model Phi = I in the scaled rows, i.e. Var(u_i) proportional to 1/w_i in the
+# original rows). For information the JSON also keeps clubSandwich on the weighted lm
+# itself: with inverse_var = TRUE (target 1/w; Pustejovsky and Tipton 2018 take the
+# square root in the original rows, A_g = D_g' B_g^-1/2 D_g, which differs from the
+# scaled-row root when the weights vary within a cluster) and with its default for a
+# weighted lm (inverse_var = FALSE, target = identity), which estimatr's weighted CR2
+# also uses.
+scaled_fit <- function(ys, X, s) {
+  sd_ <- data.frame(ys_ = s * ys, s * X, check.names = FALSE)
+  lm(reformulate(paste0("`", colnames(X), "`"), "ys_", intercept = FALSE), data = sd_)
+}
+rename_terms <- function(case) {
+  case$terms <- sub("`", "", sub("`$", "", case$terms))
+  case
+}
+weighted_case <- function(ys, X, w, cluster, terms, joint, raw = NULL) {
+  fit <- scaled_fit(ys, X, sqrt(w))
+  names(fit$coefficients) <- colnames(X)
+  out <- one_case(fit, cluster, terms, joint)
+  if (!is.null(raw)) {
+    v_iv <- vcovCR(raw, cluster = cluster, type = "CR2", inverse_var = TRUE)
+    v_df <- vcovCR(raw, cluster = cluster, type = "CR2")
+    ct_iv <- coef_test(raw, vcov = v_iv, test = "Satterthwaite")
+    ct_df <- coef_test(raw, vcov = v_df, test = "Satterthwaite")
+    keep <- rownames(ct_iv) %in% terms
+    out$weighted_lm_inverse_var <- list(se = ct_iv$SE[keep], df = ct_iv$df_Satt[keep])
+    out$weighted_lm_default <- list(se = ct_df$SE[keep], df = ct_df$df_Satt[keep])
+  }
+  out
+}
+design <- function(d, xs, intercept = TRUE, unit = NULL) {
+  X <- as.matrix(d[xs])
+  if (intercept) X <- cbind(`(Intercept)` = 1, X)
+  if (!is.null(unit)) X <- cbind(X, model.matrix(~ 0 + factor(d[[unit]])))
+  X
+}
+make_weighted <- function(d, y, xs, unit, period, prefix) {
+  d <- d[d$w > 0, ]
+  d <- d[order(d[[unit]], d[[period]]), ]
+  f <- reformulate(xs, y)
+  all_terms <- c("(Intercept)", xs)
+  out <- list()
+  raw <- lm(f, data = d, weights = w)
+  out[[paste0(prefix, "_pooled_weighted")]] <- weighted_case(d[[y]], design(d, xs), d$w, d[[unit]],
+                                                             all_terms, xs, raw)
+  d$cl_ <- d[[unit]]
+  er <- lm_robust(f, data = d, weights = w, clusters = cl_, se_type = "CR2")
+  out[[paste0(prefix, "_pooled_weighted")]]$estimatr_weighted <- list(se = unname(er$std.error),
+                                                                      df = unname(er$df))
+  # within: the explicit dummy-variable regression (full design, unit indicators scaled
+  # by sqrt(w) like every column)
+  rawd <- lm(reformulate(c(xs, paste0("factor(", unit, ")")), y), data = d, weights = w)
+  out[[paste0(prefix, "_within_weighted")]] <- weighted_case(d[[y]], design(d, xs, FALSE, unit), d$w,
+                                                             d[[unit]], xs, xs, rawd)
+  # fd: adjacent periods of one unit, the weight of the later row
+  later <- which(c(FALSE, diff(d[[period]]) == 1 & diff(d[[unit]]) == 0))
+  fdd <- data.frame(unit = d[[unit]][later], w = d$w[later], dy = d[[y]][later] - d[[y]][later - 1])
+  for (x in xs) fdd[[x]] <- d[[x]][later] - d[[x]][later - 1]
+  rawf <- lm(reformulate(xs, "dy"), data = fdd, weights = w)
+  out[[paste0(prefix, "_fd_weighted")]] <- weighted_case(fdd$dy, design(fdd, xs), fdd$w, fdd$unit,
+                                                         all_terms, xs, rawf)
+  # between: unit means weighted within the unit, the unit weighted by its mean weight
+  wm <- function(v) tapply(v * d$w, d[[unit]], sum) / tapply(d$w, d[[unit]], sum)
+  bd <- data.frame(unit = sort(unique(d[[unit]])), w = as.vector(tapply(d$w, d[[unit]], mean)))
+  for (v in c(y, xs)) bd[[v]] <- as.vector(wm(d[[v]]))
+  rawb <- lm(f, data = bd, weights = w)
+  out[[paste0(prefix, "_between_weighted")]] <- weighted_case(bd[[y]], design(bd, xs), bd$w, bd$unit,
+                                                              all_terms, xs, rawb)
+  out
+}
+grw <- read.csv(file.path(dir, "grunfeld_weighted.csv"))
+cases <- c(cases, make_weighted(grw, "inv", c("value", "capital"), "firm", "year", "grunfeld"),
+           make_weighted(few, "y", c("x1", "x2"), "unit", "period", "few"))
 # A period present in one unit only (cr2_leverage.csv: 7 units, periods 1-5, and period
 # 6 for unit 3 alone): its indicator has leverage 1 within that cluster, so the CR2
 # adjustment takes the pseudo-inverse (clubSandwich: eigenvalues below 1e-12 set to 0).
