@@ -148,7 +148,7 @@ UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& i
 // Whether every unit has at most kLeanBlockRows rows (the streaming within can then find
 // its means block by block in input sorted by unit).
 bool units_fit_blocks(const UnitMeans& means);
-// within, streaming: R-squared overall and between and the unit effects from the unit
+// within, streaming: corr2_rows, corr2_means and the unit effects from the unit
 // means, the within outcome's sums and the fitted equation.
 void lean_level_statistics(const UnitMeans& means, const OutcomeSums& ysums, Fit& fit);
 // between, streaming: the full route's design of unit means, from the sums.

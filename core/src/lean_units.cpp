@@ -3,7 +3,7 @@
 // sums [X, y] per unit; from the unit means
 //  - within: lean_equation (lean.cpp) takes each row's unit mean off as it reads the
 //    row, so the demeaned cross-products are accumulated in blocks like pooled's, and
-//    the level statistics (R-squared overall and between, the unit effects) follow
+//    the level statistics (corr2_rows, corr2_means, the unit effects) follow
 //    from the unit means and the within sums (lean_level_statistics);
 //  - between: the regression of the unit means is the full route's own (one row per
 //    unit, a small design), formed here from the same sums (between_from_means).
@@ -229,8 +229,8 @@ void lean_level_statistics(const UnitMeans& m, const OutcomeSums& ysums, Fit& fi
         ones.push_back(1.0L);
     }
     const long double fitted_within = ysums.raw - static_cast<long double>(eq.ssr);
-    fit.r2_overall = finite_value(weighted_squared_correlation(ym, xm, rows, fitted_within, ysums.raw, fitted_within));
-    fit.r2_between = finite_value(weighted_squared_correlation(ym, xm, ones, 0, 0, 0));
+    fit.corr2_rows = finite_value(weighted_squared_correlation(ym, xm, rows, fitted_within, ysums.raw, fitted_within));
+    fit.corr2_means = finite_value(weighted_squared_correlation(ym, xm, ones, 0, 0, 0));
     fit.unit_effects.assign(m.count.size(), 0.0);
     for (std::size_t u = 0, i = 0; u < m.count.size(); ++u)
         if (m.count[u] > 0) {
