@@ -236,8 +236,9 @@ void fd_pairs_by_input_row(const Context& ctx, LeanRows& out) {
 LeanRows lean_rows(const Context& ctx) {
     const PanelIndex& index = ctx.index;
     LeanRows out;
-    // pooled: the equation rows are the used rows, read in input order whatever it is
-    out.sorted = index.in_input_order || ctx.spec.estimator == Estimator::pooled;
+    // pooled, within, between: the equation rows are the used rows, read in input order
+    // whatever it is (within takes each row's unit mean off as it reads it)
+    out.sorted = index.in_input_order || ctx.spec.estimator != Estimator::fd;
     out.units_in_order = index.in_input_order;
     // the equation rows' units and periods
     std::vector<std::uint8_t> unit_seen(index.n_units(), 0), period_seen(index.n_periods(), 0);

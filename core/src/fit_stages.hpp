@@ -6,6 +6,9 @@
 //   form the equation    fit_equations.cpp  form_equation: one builder per estimator
 //   accumulate + solve   solver.cpp         full route: solve_equation (Gram or TSQR)
 //                        lean.cpp           streaming route: lean_equation (blocks)
+//                        lean_units.cpp     streaming route, within and between: unit
+//                                           means in one pass (lean_equation takes them
+//                                           off each row; between solves their design)
 //   scores and meats     covariance.cpp     compute_covariance (full), the lean score
 //                                           pass (lean.cpp); both end in covariance_from_meat
 //   inference, fit stats fit_inference.cpp  term_inference, fit_statistics, aligned_series
@@ -132,6 +135,29 @@ struct LeanRows {
     bool units_in_order = true;   // the equation rows come with unit numbers that never decrease
 };
 LeanRows lean_rows(const Context& ctx);
+
+// ---- the streaming route's unit sums (lean_units.cpp): within and between
+// The means of [X, y] (columns: the regressors, then y) per unit number over the rows
+// is_row marks, read in input order; units without such rows have count 0.
+struct UnitMeans {
+    UnitMeansMatrix means;                 // (units + 1) x (regressors + 1), the last row zeros
+    std::vector<std::size_t> count;        // rows per unit
+    std::vector<std::size_t> first_row;    // per unit: its row in its earliest period
+    std::size_t units = 0;                 // units with rows
+};
+// sums_too false: the counts and first rows only, the means left at 0 (for the streaming
+// within to fill as it reads, LeanInput::unit_means_pending).
+UnitMeans lean_unit_means(const Context& ctx, const std::vector<std::uint8_t>& is_row, bool sums_too = true);
+// Whether every unit has at most kLeanBlockRows rows (the streaming within can then find
+// its means block by block in input sorted by unit).
+bool units_fit_blocks(const UnitMeans& means);
+// within, streaming: corr2_rows, corr2_means and the unit effects from the unit
+// means, the within outcome's sums and the fitted equation.
+void lean_level_statistics(const UnitMeans& means, const OutcomeSums& ysums, Fit& fit);
+// between, streaming: the full route's design of unit means, from the sums.
+Design between_from_means(const Context& ctx, const UnitMeans& means);
+// between: every used row gets its unit's residual and fitted value.
+void between_series(const std::vector<std::uint8_t>& is_row, const PanelIndex& index, Fit& fit);
 
 // ---- inference and fit statistics
 // Per-term se, t, p and intervals from fit.covariance at fit.spec.level (df from the

@@ -116,6 +116,10 @@ struct OutcomeSums {
 OutcomeSums outcome_sums(const Eigen::VectorXd& y);
 
 // ---- lean fits (lean.cpp): the estimated equation in streaming passes over the columns.
+// Rows per block of the streaming route (lean.cpp says why 512).
+inline constexpr Eigen::Index kLeanBlockRows = 512;
+// Unit means, one row per unit: a block's units then sit together in memory.
+using UnitMeansMatrix = Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor>;
 struct LeanInput {
     const PanelData& data;
     const ModelSpec& spec;
@@ -139,6 +143,14 @@ struct LeanInput {
     // the full route's rows.
     const std::vector<const Column*>* regressors = nullptr;
     const Column* weights = nullptr;
+    // within: the unit means of [X, y] ((unit numbers + 1) x (regressors + 1), the last
+    // row zeros), taken off each equation row as it is read (no intercept then), and the
+    // unit effects counted in df
+    UnitMeansMatrix* unit_means = nullptr;
+    std::size_t absorbed = 0;
+    // within on input sorted by unit: the means are not known yet; the first pass finds
+    // them block by block (blocks end where a unit ends) before taking them off
+    bool unit_means_pending = false;
 };
 
 struct LeanResult {
@@ -148,6 +160,13 @@ struct LeanResult {
     Series residuals;                         // aligned to input rows
     Series fitted;
 };
+
+// within, means found on the way (lean_units.cpp): block starts over the input rows
+// [lo, hi) (rows sorted by unit), each block at most `block` rows and ending where a
+// unit ends; empty when a unit has more rows than that. block_unit_means: the means of
+// [X, y] over the rows [a, a + b) with keep != 0 of each unit in them, into means.
+std::vector<std::size_t> unit_aligned_blocks(const PanelIndex& index, std::size_t lo, std::size_t hi, std::size_t block);
+void block_unit_means(const LeanInput& in, std::size_t a, Eigen::Index b, const double* keep, UnitMeansMatrix& means);
 
 // Whether the estimator and covariance of spec have a lean route at all.
 bool lean_applies(const ModelSpec& spec);

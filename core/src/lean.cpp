@@ -56,8 +56,12 @@ OutcomeSums outcome_sums(const VectorXd& y) {
 }
 
 bool lean_applies(const ModelSpec& spec) {
-    if (spec.estimator != Estimator::pooled && spec.estimator != Estimator::fd) return false;
     if (spec.period_effects) return false;
+    // between: the unit means' small design, solved and covered as on the full route
+    if (spec.estimator == Estimator::between) return true;
+    if (spec.estimator != Estimator::pooled && spec.estimator != Estimator::fd &&
+        spec.estimator != Estimator::within)
+        return false;
     switch (spec.covariance) {
         case Covariance::classical:
         case Covariance::hc0:
@@ -82,7 +86,7 @@ constexpr double kLeanConditionLimit = 0.9 * kGramConditionLimit;
 // Rows per block: the block of [w, X, y] (under 100 KB at 20 regressors) stays in the
 // first-level cache between being written and its Gram update, measurably faster
 // than the full route's 2,048 on the benchmark machine (tests/bench, 5-8%).
-constexpr Index kLeanBlockRows = 512;
+// (kLeanBlockRows = 512, internal.hpp: within's unit-aligned blocks need it too)
 // The start of the refinement: the fit of the first blocks (32,768 rows), whose
 // system is only required to be solvable.
 constexpr Index kSampleBlocks = 64;
@@ -176,6 +180,12 @@ public:
             while (hi_ > lo_ && !is_row[hi_ - 1]) --hi_;
             marks_ = is_row.data();
             keep_.assign(static_cast<std::size_t>(block), 0.0);
+            if (in.unit_means != nullptr) {
+                centre_.assign(static_cast<std::size_t>(block), 0.0);
+                slot_.assign(static_cast<std::size_t>(block), 0);
+                // means still to find: blocks that end where a unit ends (lean_units.cpp)
+                if (in.unit_means_pending) starts_ = unit_aligned_blocks(in.index, lo_, hi_, static_cast<std::size_t>(block));
+            }
         } else {
             const std::vector<std::size_t>& later = *in.later;
             for (std::size_t i = 0; i < later.size(); ++i) {
@@ -199,6 +209,7 @@ public:
 
     Index width() const { return static_cast<Index>(columns_.size()); }
     Index blocks() const {
+        if (!starts_.empty()) return static_cast<Index>(starts_.size()) - 1;
         const std::size_t span = sorted() ? hi_ - lo_ : in_.later->size();
         return static_cast<Index>((span + static_cast<std::size_t>(block_) - 1) / static_cast<std::size_t>(block_));
     }
@@ -219,13 +230,20 @@ public:
                VectorXd* levels = nullptr, bool check_values = false) {
         Block blk;
         if (sorted()) {
-            const std::size_t a = lo_ + static_cast<std::size_t>(k * block_);
-            const Index b = static_cast<Index>(std::min<std::size_t>(static_cast<std::size_t>(block_), hi_ - a));
+            const std::size_t a = starts_.empty() ? lo_ + static_cast<std::size_t>(k * block_) : starts_[static_cast<std::size_t>(k)];
+            const Index b = starts_.empty() ? static_cast<Index>(std::min<std::size_t>(static_cast<std::size_t>(block_), hi_ - a))
+                                            : static_cast<Index>(starts_[static_cast<std::size_t>(k) + 1] - a);
             blk.rows = b;
             blk.first = a;
             // the block's weights from the row marks (0 or 1)
             for (Index i = 0; i < b; ++i) keep_[static_cast<std::size_t>(i)] = marks_[a + static_cast<std::size_t>(i)] != 0 ? 1.0 : 0.0;
             blk.keep = keep_.data();
+            if (!starts_.empty() && k == means_done_) {
+                // the first read of this block: its units' means, from the rows in cache
+                block_unit_means(in_, a, b, keep_.data(), *in_.unit_means);
+                ++means_done_;
+            }
+            if (!centre_.empty()) unit_slots(a, b);
             if (weights_ != nullptr) root_weights(blk);
             for (Index c = 0; c < width(); ++c) {
                 const double* x = columns_[static_cast<std::size_t>(c)];
@@ -233,10 +251,13 @@ public:
                 const bool unmasked = masks_[static_cast<std::size_t>(c)] == nullptr;
                 if (check_values && finite_ && !unmasked) finite_ = finite_block(c, a, b);
                 prefetch_next(x, a + static_cast<std::size_t>(b));
-                // a > 0 for fd: the first equation row has its earlier row before it
+                // a > 0 for fd: the first equation row has its earlier row before it;
+                // within: each row's unit mean is taken off as fd takes off the earlier row
+                const double* before = fd_ ? x + a - 1 : nullptr;
+                if (!centre_.empty()) before = unit_means_of(c, b);
                 double squares = 0;
                 bool finite = true;
-                kept_column(x + a, fd_ ? x + a - 1 : nullptr, blk.keep, weights_ != nullptr, shift[c], mult[c],
+                kept_column(x + a, before, blk.keep, weights_ != nullptr, shift[c], mult[c],
                             out.col(col0 + c).data(), b, levels != nullptr ? &squares : nullptr,
                             check_values && finite_ && unmasked ? &finite : nullptr);
                 if (levels != nullptr) (*levels)[c] += squares;
@@ -296,6 +317,26 @@ private:
     void weigh_block(MatrixXd& out, Index col0, Index b) const {
         const Eigen::Map<const Eigen::ArrayXd> root(keep_.data(), b);
         for (Index c = 0; c < width(); ++c) out.col(col0 + c).head(b).array() *= root;
+    }
+
+    // within: where the row of LeanInput::unit_means for each of the block's rows
+    // [a, a + b) starts (its last row, zeros, for a row that is not an equation row),
+    // once per block
+    void unit_slots(std::size_t a, Index b) {
+        const std::int64_t width = in_.unit_means->cols();
+        const std::int64_t zeros = (in_.unit_means->rows() - 1) * width;
+        const std::int32_t* unit = in_.index.unit_of_row.data() + a;
+        for (Index i = 0; i < b; ++i)
+            slot_[static_cast<std::size_t>(i)] = keep_[static_cast<std::size_t>(i)] != 0.0 ? unit[i] * width : zeros;
+    }
+
+    // within: the unit means of column c for the block's rows, into centre_
+    const double* unit_means_of(Index c, Index b) {
+        const double* mean_c = in_.unit_means->data() + c;
+        const std::int64_t* slot = slot_.data();
+        double* centre = centre_.data();
+        for (Index i = 0; i < b; ++i) centre[i] = mean_c[slot[i]];
+        return centre;
     }
 
     // Ask for the start of the next block of a column ahead of time, every
@@ -401,6 +442,10 @@ private:
     std::size_t lo_ = 0, hi_ = 0;          // sorted: the input rows [lo_, hi_) hold every equation row
     const std::uint8_t* marks_ = nullptr;  // sorted: LeanInput::is_row
     std::vector<double> keep_;             // row weights of the block (sorted: 0 or 1, unsorted: 1; weighted: sqrt(w) for 1)
+    std::vector<double> centre_;           // within: the block's unit means of one column
+    std::vector<std::int64_t> slot_;       // within: where each block row's unit means start
+    std::vector<std::size_t> starts_;      // within, means found on the way: block k is rows [starts_[k], starts_[k + 1])
+    Index means_done_ = 0;                 // ... and blocks 0 .. means_done_ - 1 have their means
     std::vector<Piece> pieces_;
     std::vector<const double*> columns_;
     std::vector<const std::uint8_t*> masks_;
@@ -423,6 +468,7 @@ struct LeanShape {
     Index N = 0;         // equation rows
     Index block = kLeanBlockRows;
     bool intercept = false, fd = false, weighted = false;
+    bool within = false;  // [X, y] less each row's unit mean (LeanInput::unit_means)
     double n_d = 0;       // N; weighted: sum w (the intercept's scale and the means' divisor)
     double max_w = 0;     // weighted: the largest w
 };
@@ -495,7 +541,7 @@ FirstPass accumulate_gram(BlockReader& reader, const LeanShape& sh, MatrixXd& B)
     reader.restart();
     bool shifted = !sh.intercept;
     for (Index k = 0; k < reader.blocks(); ++k) {
-        const Block blk = reader.read(k, B, 1, fp.s0, ones, sh.fd ? &fp.levels : nullptr, true);
+        const Block blk = reader.read(k, B, 1, fp.s0, ones, sh.fd || sh.within ? &fp.levels : nullptr, true);
         const Index b = blk.rows;
         const Eigen::Map<const VectorXd> keep(blk.keep, b);
         if (!shifted) {
@@ -549,9 +595,10 @@ std::optional<WorkingSystem> lean_system(const LeanShape& sh, const FirstPass& f
     WorkingSystem sys = working_system(S, fp.s0, sh.intercept, k_reg);
     if (!sys.usable) return std::nullopt;
     for (Index j = 0; j < k_reg; ++j) {
-        // fd: a column whose differences vanish (no variation within units)
-        // (weighted: raw / max w bounds the unweighted sum the full route tests)
-        if (sh.fd && !(std::sqrt(sh.weighted ? raw[j] / sh.max_w : raw[j]) > kLeanDropMargin * kConstantTolerance * std::sqrt(fp.levels[j]))) return std::nullopt;
+        // fd, within: a column whose differences or deviations from the unit means
+        // vanish (no variation within units) (weighted: raw / max w bounds the
+        // unweighted sum the full route tests)
+        if ((sh.fd || sh.within) && !(std::sqrt(sh.weighted ? raw[j] / sh.max_w : raw[j]) > kLeanDropMargin * kConstantTolerance * std::sqrt(fp.levels[j]))) return std::nullopt;
         // a column that centring reduces to noise (a multiple of the intercept)
         if (!(sys.scale[j] > kLeanDropMargin * kConstantTolerance * std::sqrt(raw[j]))) return std::nullopt;
     }
@@ -920,15 +967,18 @@ private:
 std::optional<LeanResult> lean_equation(const LeanInput& in) {
     LeanShape sh;
     sh.fd = in.spec.estimator == Estimator::fd;
+    sh.within = in.unit_means != nullptr;
+    // within reads its rows by input row marks only
+    if (sh.within && in.is_row == nullptr) return std::nullopt;
     sh.k_reg = static_cast<Index>(in.regressor_names.size());
     sh.weighted = in.weights != nullptr;
     if (sh.k_reg == 0) return std::nullopt;
     sh.N = static_cast<Index>(in.count);
     sh.m = sh.k_reg + 1;
-    sh.intercept = in.spec.intercept;
+    sh.intercept = in.spec.intercept && !sh.within;   // within: the unit means take its place
     sh.p = sh.k_reg + (sh.intercept ? 1 : 0);
     sh.c0 = sh.intercept ? 1 : 0;
-    if (sh.N <= sh.p) return std::nullopt;
+    if (sh.N <= sh.p + static_cast<Index>(in.absorbed)) return std::nullopt;
     sh.n_d = static_cast<double>(sh.N);
     BlockReader reader(in, sh.block);
     MatrixXd B = MatrixXd::Zero(sh.block, (sh.m + 2 + 3) / 4 * 4);
@@ -943,6 +993,7 @@ std::optional<LeanResult> lean_equation(const LeanInput& in) {
     LeanResult out;
     Equation& eq = out.equation;
     eq = lean_shell(in, sh, *sys, R);
+    eq.absorbed = in.absorbed;
     VectorXd c = first_step(sh, fp, *sys, R);
 
     // Blocks of the working design: columns 0..k_reg-1 the slopes' Z = (x - t) / scale,

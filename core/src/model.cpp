@@ -77,11 +77,25 @@ detail::OutcomeSums solve_full(Design design, Fit& fit) {
 // The same stages, streaming route (lean.cpp): the equation rows, then accumulation,
 // solution and the covariance's score sums in passes over the columns. Empty when this
 // fit needs the full route.
-std::optional<detail::OutcomeSums> solve_streaming(const detail::Context& ctx, Fit& fit, std::size_t& pairs_lost) {
+// within: the unit means (lean_units.cpp) go with it and stay in `means` for the level
+// statistics.
+std::optional<detail::OutcomeSums> solve_streaming(const detail::Context& ctx, Fit& fit, std::size_t& pairs_lost,
+                                                   detail::UnitMeans& means) {
     const detail::LeanRows rows = detail::lean_rows(ctx);
     pairs_lost = rows.pairs_lost;
     if (rows.count == 0) return std::nullopt;
     detail::LeanInput in{ctx.data, ctx.spec, ctx.index, ctx.regressor_names};
+    if (ctx.spec.estimator == Estimator::within) {
+        if (!rows.sorted || rows.units < 2) return std::nullopt;   // one unit: the full route words it
+        // input sorted by unit: the first pass finds the means block by block, as it
+        // reads (no pass of its own); else one pass for them first
+        const bool on_the_way = ctx.index.in_input_order;
+        means = detail::lean_unit_means(ctx, rows.is_row, !on_the_way);
+        if (on_the_way && !detail::units_fit_blocks(means)) means = detail::lean_unit_means(ctx, rows.is_row);
+        else in.unit_means_pending = on_the_way;
+        in.unit_means = &means.means;
+        in.absorbed = means.units;
+    }
     if (rows.sorted) {
         in.is_row = &rows.is_row;
     } else {
@@ -102,6 +116,17 @@ std::optional<detail::OutcomeSums> solve_streaming(const detail::Context& ctx, F
     fit.fitted = std::move(result->fitted);
     record_size(fit);
     return result->outcome;
+}
+
+// between, streaming: the unit means in one pass over the used rows (lean_units.cpp),
+// then the full route's solution and covariance of that small design.
+std::optional<detail::OutcomeSums> solve_between_streaming(const detail::Context& ctx, Fit& fit) {
+    const detail::LeanRows rows = detail::lean_rows(ctx);
+    if (rows.count == 0 || !rows.sorted) return std::nullopt;
+    const detail::UnitMeans means = detail::lean_unit_means(ctx, rows.is_row);
+    const detail::OutcomeSums ysums = solve_full(detail::between_from_means(ctx, means), fit);
+    detail::between_series(rows.is_row, ctx.index, fit);
+    return ysums;
 }
 
 void warn_fd_gaps(Fit& fit, std::size_t pairs_lost) {
@@ -131,10 +156,16 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     std::vector<std::size_t> rows;   // full route: the used rows in unit order, by unit
     detail::UnitRuns runs;
     detail::OutcomeSums ysums;
+    detail::UnitMeans means;         // streaming within: the unit means
     if (lean) {
         if (!detail::lean_applies(spec)) return std::nullopt;
+        // weighted: only pooled and fd stream (within and between take the full route)
+        if (fit.weighted && spec.estimator != Estimator::pooled && spec.estimator != Estimator::fd)
+            return std::nullopt;
         std::size_t pairs_lost = 0;
-        std::optional<detail::OutcomeSums> sums = solve_streaming(ctx, fit, pairs_lost);
+        std::optional<detail::OutcomeSums> sums = spec.estimator == Estimator::between
+                                                      ? solve_between_streaming(ctx, fit)
+                                                      : solve_streaming(ctx, fit, pairs_lost, means);
         if (!sums) return std::nullopt;
         warn_fd_gaps(fit, pairs_lost);
         ysums = *sums;
@@ -152,7 +183,9 @@ static std::optional<Fit> fit_model_impl(const PanelData& data, const ModelSpec&
     detail::term_inference(fit, ysums);
     detail::fit_statistics(fit, ysums);
     detail::joint_statistics(fit);
-    if (spec.estimator == Estimator::within || spec.estimator == Estimator::random)
+    if (lean && spec.estimator == Estimator::within)
+        detail::lean_level_statistics(means, ysums, fit);
+    else if (spec.estimator == Estimator::within || spec.estimator == Estimator::random)
         detail::level_statistics(ctx, rows, runs, fit);
     // aligned residuals and fitted values (a lean fit has them already)
     if (!lean) {

@@ -116,11 +116,12 @@ void check_case(const Case& c) {
         INFO(c.file << " with " << weft::describe(spec) << " (JSON key " << k.key << ")" << (lean ? ", lean fit" : ""));
         const weft::Fit fit = lean ? weft::fit_model_lean(data, spec) : weft::fit_model(data, spec);
         {
-            // the lean route is taken for pooled and fd without period indicators and
-            // with a covariance it computes in its streaming pass
+            // the lean route is taken for pooled, fd and within (issue 19) without period
+            // indicators and with a covariance it computes in its streaming pass
             const bool lean_kind = spec.covariance != weft::Covariance::hc2 && spec.covariance != weft::Covariance::hc3 &&
                                    spec.covariance != weft::Covariance::cluster_both;
-            const bool lean_estimator = spec.estimator == weft::Estimator::pooled || spec.estimator == weft::Estimator::fd;
+            const bool lean_estimator = spec.estimator == weft::Estimator::pooled || spec.estimator == weft::Estimator::fd ||
+                                        spec.estimator == weft::Estimator::within;
             CHECK(fit.equation.rows_held() == !(lean && lean_kind && lean_estimator && !spec.period_effects));
         }
         REQUIRE(fit.equation.terms.size() == names.size());
