@@ -938,6 +938,8 @@ WEFT_API int weft_event_warning(const weft_event *event, size_t index, const cha
  *   pass 1  : weft_partial_sums per partition, merged with weft_partial_merge
  *   pass 2  : weft_partial_scores per partition with the merged sums, merged
  *   finish  : weft_partial_finish(sums, scores) -> a weft_model
+ *   pass 3  : weft_partial_series per partition with the merged sums and scores gives
+ *             that partition's residuals and fitted values (optional)
  *
  * A partition must hold every row of each of its units; a unit split across
  * partitions gives wrong numbers that weft cannot detect (the host checks it).
@@ -946,8 +948,8 @@ WEFT_API int weft_event_warning(const weft_event *event, size_t index, const cha
  * Handles from weft_partial_sums, weft_partial_scores and weft_partial_from_bytes are
  * the caller's, freed with weft_partial_free; they keep nothing of the panel.
  * A model from weft_partial_finish answers every weft_model_* getter and
- * weft_test_joint / weft_test_linear; what needs the equation's rows (residuals,
- * fitted values, unit effects, weft_test_hetero, weft_test_serial,
+ * weft_test_joint / weft_test_linear; what needs the equation's rows (residuals and
+ * fitted values: use weft_partial_series on each partition; unit effects, weft_test_hetero, weft_test_serial,
  * weft_test_bootstrap) gives WEFT_ECOMPUTE.
  * --------------------------------------------------------------------------- */
 
@@ -994,6 +996,21 @@ WEFT_API int weft_partial_kind(const weft_partial *partial, int *kind);
  *  Errors: WEFT_EINVAL (NULL, wrong kinds), WEFT_EDATA (scores not made from these
  *  sums, fewer than 2 clusters, too few rows...), WEFT_ENOMEM. */
 WEFT_API int weft_partial_finish(weft_model **out, const weft_partial *sums, const weft_partial *scores);
+
+/** Pass 3 on one partition, after the finish: the residuals and fitted values
+ *  of the finished fit on this partition's rows, with the merged sums and scores that
+ *  weft_partial_finish took (the same estimates). The caller owns the arrays; each of
+ *  residuals, fitted and unused has `rows` entries (any may be NULL: not written), and
+ *  rows must be the panel's row count. Aligned to the panel's rows as
+ *  weft_model_residuals / weft_model_fitted of a weft_model_new fit on the whole data:
+ *  y - x'b and x'b of the estimated equation in the outcome's units, NaN with unused 1
+ *  where the row is not in the equation (dropped, weight 0; fd: the earlier row of each
+ *  difference and a row with no earlier period). Errors: WEFT_EINVAL (NULL panel, sums
+ *  or scores, wrong kinds, columns not set), WEFT_EBUFFER (rows is not the panel's row
+ *  count), WEFT_EDATA (the data as weft_partial_scores; scores not made from these
+ *  sums), WEFT_ENOMEM. */
+WEFT_API int weft_partial_series(const weft_panel *panel, const weft_partial *sums, const weft_partial *scores,
+                                 double *residuals, double *fitted, unsigned char *unused, size_t rows);
 
 /** Release a partial. NULL does nothing. */
 WEFT_API void weft_partial_free(weft_partial *partial);

@@ -1,6 +1,7 @@
 // partial.cpp -- the fit over partitions (weft_partial_*): pass-1 sums, pass-2 scores,
 // their bytes, merging, and the finished model (core: weft/merge.hpp).
 #include "boundary.hpp"
+#include "convert.hpp"
 #include "handles.hpp"
 
 #include <weft/merge.hpp>
@@ -137,6 +138,25 @@ int weft_partial_finish(weft_model** out, const weft_partial* sums, const weft_p
         weft_model* model = package_fit(weft::finish_fit(*sums->sums, *scores->scores));
         model->partitioned = true;
         *out = model;
+        return WEFT_OK;
+    });
+}
+
+int weft_partial_series(const weft_panel* panel, const weft_partial* sums, const weft_partial* scores,
+                        double* residuals, double* fitted, unsigned char* unused, size_t rows) {
+    return guarded(WEFT_EDATA, [&] {
+        const char* fn = "weft_partial_series";
+        require(panel, fn, "panel");
+        require_kind(sums, WEFT_PARTIAL_SUMS, fn, "sums");
+        require_kind(scores, WEFT_PARTIAL_SCORES, fn, "scores");
+        require_model_columns(panel, fn);
+        const std::size_t n_rows = panel->data->outcome.size();
+        if (rows != n_rows)
+            fail(WEFT_EBUFFER, std::string(fn) + ": rows is " + std::to_string(rows) + " but the panel has " +
+                                   std::to_string(n_rows) + " rows; pass arrays of the panel's row count");
+        const weft::PartitionSeries series = weft::partition_series(*panel->data, *sums->sums, *scores->scores);
+        if (residuals != nullptr) write_series(series.residuals, residuals, unused);
+        if (fitted != nullptr) write_series(series.fitted, fitted, unused);
         return WEFT_OK;
     });
 }

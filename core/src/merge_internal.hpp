@@ -26,6 +26,7 @@ struct PartitionEquation {
     Eigen::VectorXd y;                      // N
     std::vector<std::int32_t> unit;         // per equation row (partition unit number)
     std::vector<std::int32_t> period;       // per equation row (global grid position)
+    std::vector<std::size_t> input_row;     // per equation row: its input row (fd: the later row)
     std::vector<std::string> regressor_names;
     std::vector<std::string> candidates;
     int intercept_column = -1;
@@ -74,6 +75,16 @@ inline void working_row(const MergedEstimates& est, const Eigen::MatrixXd& X, Ei
 inline long double intercept_value(const MergedEstimates& est, const Eigen::MatrixXd& X, Eigen::Index i) {
     const int c = est.equation.intercept_column;
     return c >= 0 ? static_cast<long double>(X(i, est.kept[static_cast<std::size_t>(c)])) : 0.0L;
+}
+
+// The residual of equation row i under the estimates (working units: sqrt(w) u when
+// weighted); z receives the row's working columns.
+inline long double equation_residual(const MergedEstimates& est, const Eigen::MatrixXd& X, const Eigen::VectorXd& y,
+                                     Eigen::Index i, Eigen::Matrix<long double, Eigen::Dynamic, 1>& z) {
+    working_row(est, X, i, z);
+    long double r = static_cast<long double>(y[i]) - est.shift_y * intercept_value(est, X, i);
+    for (Eigen::Index k = 0; k < z.size(); ++k) r -= est.c_work[k] * z[k];
+    return r;
 }
 
 }  // namespace weft::detail

@@ -56,10 +56,8 @@ void level_moments(const PanelData& data, const detail::PartitionEquation& pe, c
     }
 }
 
-}  // namespace
-
-PartialScores accumulate_scores(const PanelData& data, const PartialSums& merged) {
-    const detail::MergedEstimates est = detail::merged_estimates(merged);
+// The partition's equation under the merged sums' model and grid, checked against them.
+detail::PartitionEquation partition_under(const PanelData& data, const PartialSums& merged) {
     detail::PartitionEquation pe = detail::partition_equation(data, merged.spec, merged.grid);
     if (pe.candidates != merged.candidates)
         throw Error("the partition's regressors differ from those of the merged sums; give every partition the same "
@@ -69,6 +67,14 @@ PartialScores accumulate_scores(const PanelData& data, const PartialSums& merged
                     ") differ from those of the merged sums (" +
                     (merged.weight_label.empty() ? std::string("none") : merged.weight_label) +
                     "); give every partition the same weight column in both passes");
+    return pe;
+}
+
+}  // namespace
+
+PartialScores accumulate_scores(const PanelData& data, const PartialSums& merged) {
+    const detail::MergedEstimates est = detail::merged_estimates(merged);
+    detail::PartitionEquation pe = partition_under(data, merged);
     PartialScores out_levels;
     // within at levels (unweighted only: a weighted fit gives no squared correlations there)
     if (merged.spec.estimator == Estimator::within && pe.weight.size() == 0) level_moments(data, pe, est, out_levels);
@@ -86,9 +92,7 @@ PartialScores accumulate_scores(const PanelData& data, const PartialSums& merged
     Eigen::Matrix<long double, Eigen::Dynamic, 1> zl(K);
     VectorXd z(K), unit_sum = VectorXd::Zero(K);
     for (Index i = 0; i < N; ++i) {
-        detail::working_row(est, pe.X, i, zl);
-        long double r = static_cast<long double>(pe.y[i]) - est.shift_y * detail::intercept_value(est, pe.X, i);
-        for (Index k = 0; k < K; ++k) r -= est.c_work[k] * zl[k];
+        const long double r = detail::equation_residual(est, pe.X, pe.y, i, zl);
         out.ssr += r * r;
         for (Index k = 0; k < K; ++k) {
             out.gradient[static_cast<std::size_t>(k)] += r * zl[k];
@@ -163,6 +167,37 @@ MatrixXd merged_meat(const ModelSpec& spec, const PartialScores& sc, std::size_t
     return MatrixXd::Zero(sc.meat_rows.rows(), sc.meat_rows.cols());
 }
 
+using VectorL = Eigen::Matrix<long double, Eigen::Dynamic, 1>;
+using MatrixL = Eigen::Matrix<long double, Eigen::Dynamic, Eigen::Dynamic>;
+
+// Refinement (corrected semi-normal equations, Bjorck 1996 section 6.6.5) from the
+// long-double sums: c += (R'R)^-1 Z'r with Z'r = Z'r0 - Z'Z (c - c0); the finish takes
+// SSR exactly as ||r0 - Z d||^2 = ||r0||^2 - 2 d'Z'r0 + d'Z'Z d, d = c - c0.
+struct Refinement {
+    VectorL g0, d;
+    MatrixL gram;
+};
+
+Refinement refine(const detail::MergedEstimates& est, const PartialSums& sums, const PartialScores& scores) {
+    const Equation& eq = est.equation;
+    const Index K = eq.n_terms();
+    if (static_cast<Index>(scores.gradient.size()) != K || scores.n != sums.n)
+        throw Error("the scores do not belong to these sums (" + std::to_string(scores.n) + " equation rows scored, " +
+                    std::to_string(sums.n) + " accumulated); score every partition once with the merged sums");
+    Refinement ref;
+    ref.g0 = Eigen::Map<const VectorL>(scores.gradient.data(), K);
+    ref.gram = Eigen::Map<const MatrixL>(scores.gram.data(), K, K);
+    ref.gram.triangularView<Eigen::StrictlyUpper>() = ref.gram.transpose().triangularView<Eigen::StrictlyUpper>();
+    ref.d = VectorL::Zero(K);
+    for (int step = 0; step < kRefinementSteps; ++step) {
+        const VectorXd g = (ref.g0 - ref.gram * ref.d).cast<double>();
+        VectorXd delta = eq.r_factor.transpose().triangularView<Eigen::Lower>().solve(g);
+        delta = eq.r_factor.triangularView<Eigen::Upper>().solve(delta);
+        ref.d += delta.cast<long double>();
+    }
+    return ref;
+}
+
 std::optional<double> squared_correlation(const Comoments& m) {
     if (m.n < 2 || m.caa == 0 || m.cbb == 0) return std::nullopt;
     const double v = static_cast<double>(m.cab * m.cab / (m.caa * m.cbb));
@@ -174,29 +209,10 @@ std::optional<double> squared_correlation(const Comoments& m) {
 Fit finish_fit(const PartialSums& sums, const PartialScores& scores) {
     detail::MergedEstimates est = detail::merged_estimates(sums);
     Equation& eq = est.equation;
-    const Index K = eq.n_terms();
-    if (static_cast<Index>(scores.gradient.size()) != K || scores.n != sums.n)
-        throw Error("the scores do not belong to these sums (" + std::to_string(scores.n) + " equation rows scored, " +
-                    std::to_string(sums.n) + " accumulated); score every partition once with the merged sums");
-    // refinement (corrected semi-normal equations, Bjorck 1996 section 6.6.5) from the
-    // long-double sums: c += (R'R)^-1 Z'r with Z'r = Z'r0 - Z'Z (c - c0); SSR exactly as
-    // ||r0 - Z d||^2 = ||r0||^2 - 2 d'Z'r0 + d'Z'Z d, d = c - c0.
-    using VectorL = Eigen::Matrix<long double, Eigen::Dynamic, 1>;
-    using MatrixL = Eigen::Matrix<long double, Eigen::Dynamic, Eigen::Dynamic>;
-    const VectorL g0 = Eigen::Map<const VectorL>(scores.gradient.data(), K);
-    MatrixL gram = Eigen::Map<const MatrixL>(scores.gram.data(), K, K);
-    gram.triangularView<Eigen::StrictlyUpper>() = gram.transpose().triangularView<Eigen::StrictlyUpper>();
-    const VectorL c0 = est.c_work;
-    VectorL d = VectorL::Zero(K);
-    for (int step = 0; step < kRefinementSteps; ++step) {
-        const VectorXd g = (g0 - gram * d).cast<double>();
-        VectorXd delta = eq.r_factor.transpose().triangularView<Eigen::Lower>().solve(g);
-        delta = eq.r_factor.triangularView<Eigen::Upper>().solve(delta);
-        d += delta.cast<long double>();
-    }
-    est.c_work = c0 + d;
+    const Refinement ref = refine(est, sums, scores);
+    est.c_work += ref.d;
     eq.coef = detail::original_coefficients(eq, est.c_work, est.shift_y);
-    const long double ssr = scores.ssr - 2.0L * d.dot(g0) + d.dot(gram * d);
+    const long double ssr = scores.ssr - 2.0L * ref.d.dot(ref.g0) + ref.d.dot(ref.gram * ref.d);
     eq.ssr = static_cast<double>(ssr > 0 ? ssr : scores.ssr);
 
     Fit fit;
@@ -243,6 +259,29 @@ Fit finish_fit(const PartialSums& sums, const PartialScores& scores) {
         fit.corr2_means = squared_correlation(scores.level_means);
     }
     return fit;
+}
+
+PartitionSeries partition_series(const PanelData& data, const PartialSums& sums, const PartialScores& scores) {
+    detail::MergedEstimates est = detail::merged_estimates(sums);
+    est.c_work += refine(est, sums, scores).d;  // the finished fit's estimates
+    detail::PartitionEquation pe = partition_under(data, sums);
+    detail::weigh_partition(pe);
+    const std::size_t n_rows = data.outcome.size();
+    PartitionSeries out;
+    out.residuals.value.assign(n_rows, 0.0);
+    out.residuals.defined.assign(n_rows, 0);
+    out.fitted = out.residuals;
+    Eigen::Matrix<long double, Eigen::Dynamic, 1> zl(static_cast<Index>(est.kept.size()));
+    for (Index i = 0; i < pe.X.rows(); ++i) {
+        // working units are sqrt(w) times the outcome's (Fit::residuals: y - x'b, x'b)
+        const long double r = detail::equation_residual(est, pe.X, pe.y, i, zl);
+        const long double root = pe.weight.size() != 0 ? std::sqrt(static_cast<long double>(pe.weight[i])) : 1.0L;
+        const std::size_t row = pe.input_row[static_cast<std::size_t>(i)];
+        out.residuals.value[row] = static_cast<double>(r / root);
+        out.fitted.value[row] = static_cast<double>((pe.y[i] - r) / root);
+        out.residuals.defined[row] = out.fitted.defined[row] = 1;
+    }
+    return out;
 }
 
 }  // namespace weft

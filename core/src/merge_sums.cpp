@@ -150,6 +150,7 @@ void fill_levels_or_differences(const Context& ctx, const std::vector<std::size_
     pe.y.resize(N);
     pe.unit.resize(static_cast<std::size_t>(N));
     pe.period.resize(static_cast<std::size_t>(N));
+    pe.input_row = later;
     pe.level_squares.assign(static_cast<std::size_t>(k_reg), 0.0L);
     if (ctx.weights != nullptr) pe.weight.resize(N);
     const Column& outcome = ctx.data.outcome;

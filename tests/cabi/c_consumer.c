@@ -1640,6 +1640,39 @@ static void partial_bytes_hostile(const weft_partial *partial)
     free(bytes);
 }
 
+/* Pass 3: each partition's fd residuals and fitted values with the merged passes. Their
+ * squares summed over the partitions give F results.rss, 190 rows are in the equation
+ * (F sample.nobs: each firm's first year has no difference), and fitted + residual is
+ * the outcome's first difference (computed here from the data). */
+static void partial_series_check(weft_panel *const *parts, const size_t *cuts, const weft_partial *sums,
+                                 const weft_partial *scores, const grunfeld *g)
+{
+    double resid[MAX_ROWS], fitted[MAX_ROWS];
+    unsigned char unused[MAX_ROWS];
+    long double ssr = 0;
+    size_t i, r, in_equation = 0, rows;
+    int first_of_firm_blank = 1, sum_is_change = 1;
+    for (i = 0; i < 3; ++i) {
+        rows = cuts[i + 1] - cuts[i];
+        OK(weft_partial_series(parts[i], sums, scores, resid, fitted, unused, rows));
+        for (r = 0; r < rows; ++r) {
+            const size_t row = cuts[i] + r;
+            const int first = row == 0 || g->firm[row] != g->firm[row - 1];
+            if (first) first_of_firm_blank &= unused[r] == 1 && resid[r] != resid[r];
+            if (unused[r]) continue;
+            ++in_equation;
+            ssr += (long double)resid[r] * resid[r];
+            sum_is_change &= fabs(fitted[r] + resid[r] - (g->inv[row] - g->inv[row - 1])) < 1e-9 * (1 + fabs(g->inv[row]));
+        }
+    }
+    NEAR((double)ssr, 345455.886220664, "F results.rss, from the residuals of pass 3");
+    CHECK(in_equation == 190);
+    CHECK(first_of_firm_blank);
+    CHECK(sum_is_change);
+    EXPECT_ERROR(weft_partial_series(parts[0], sums, scores, resid, fitted, unused, 7), WEFT_EBUFFER, "row count");
+    EXPECT_ERROR(weft_partial_series(parts[0], scores, sums, resid, NULL, NULL, 60), WEFT_EINVAL, "sums");
+}
+
 static void test_partials(const grunfeld *g)
 {
     static const char *const terms[] = {"intercept", "value", "capital"};
@@ -1688,6 +1721,7 @@ static void test_partials(const grunfeld *g)
     /* what needs the equation's rows is refused by name */
     EXPECT_ERROR(weft_model_residuals(m, resid, NULL, MAX_ROWS, NULL), WEFT_ECOMPUTE, "over partitions");
     weft_model_free(m);
+    partial_series_check(parts, cuts, sums, scores, g);
 
     /* misuse and damaged bytes */
     EXPECT_ERROR(weft_partial_sums(&one, parts[0], "between", grid, 20), WEFT_EMODEL, "one machine");

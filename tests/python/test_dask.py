@@ -3,7 +3,8 @@ worker processes on loopback itself and stops it at the end.
 
 Expected values:
 - weft.fit on the same rows in one pandas frame (the issue's requirement: every
-  estimate, SE, t, p, interval, summary number and joint test equal to relative 1e-10);
+  estimate, SE, t, p, interval, summary number and joint test equal to relative 1e-10;
+  the rows' residuals and fitted values too, NaN on the same rows);
   weft.fit itself is checked against R plm (test_reference.py) and NIST (core tests).
 - NIST StRD certified values (tests/data/nist, key "certified"; Statistical Engineering
   Division, NIST): the datasets split into partitions keep LRE >= 9 (Filip >= 7), the
@@ -50,8 +51,29 @@ def panel(units, periods, seed):
     return frame
 
 
+def assert_same_series(test, got, want, what, rel=REL):
+    """The lazy residuals and fitted values of weft.dask.fit, computed and aligned by
+    index, equal weft.fit's to rel, NaN on the same rows. The scale of row i is
+    max(1, |fitted_i| + |residual_i|) of weft.fit: the residual is a difference of numbers
+    of that size, so its rounding is relative to them, not to itself."""
+    test.assertIsInstance(got.residuals, dd.Series, what)
+    test.assertIsInstance(got.fitted, dd.Series, what)
+    residual, fitted = dask.compute(got.residuals, got.fitted)
+    test.assertEqual(len(residual), len(want.residuals), what)
+    residual, fitted = residual.reindex(want.residuals.index), fitted.reindex(want.fitted.index)
+    scale = np.maximum(1.0, np.abs(want.fitted.to_numpy()) + np.abs(want.residuals.to_numpy()))
+    for name, a, b in (("residuals", residual, want.residuals), ("fitted", fitted, want.fitted)):
+        a, b = a.to_numpy(), b.to_numpy()
+        test.assertTrue(np.array_equal(np.isnan(a), np.isnan(b)), f"{what}: {name} NaN on other rows")
+        test.assertGreater(np.count_nonzero(~np.isnan(b)), 0, what)
+        bad = np.nanmax(np.abs(a - b) / scale)
+        test.assertLessEqual(bad, rel, f"{what}: {name} differ by {bad:.2e}")
+
+
 def assert_same(test, got, want, what, rel=REL):
-    """Every number of two results equal to rel (absolute where the reference is 0)."""
+    """Every number of two results equal to rel (absolute where the reference is 0),
+    and the rows' residuals and fitted values (assert_same_series)."""
+    assert_same_series(test, got, want, what, rel)
     test.assertEqual(list(got.coefficients.index), list(want.coefficients.index), what)
     a, b = got.coefficients.to_numpy(), want.coefficients.to_numpy()
     scale = np.where(b == 0, 1.0, np.abs(b))
@@ -119,7 +141,6 @@ class DaskCluster(unittest.TestCase):
                 middle = time.perf_counter()
                 want = weft.fit(frame, outcome="y", regressors=["x1", "x2"], unit="unit", period="year", model=model)
                 print(f"  {model:32s} dask {middle - start:5.2f} s, one frame {time.perf_counter() - middle:5.2f} s")
-                self.assertIsNone(got.residuals)
                 assert_same(self, got, want, model)
 
     # ---- units split across partitions

@@ -29,7 +29,7 @@ import weft.dask
 import dask.dataframe as dd
 from distributed import Client, LocalCluster
 
-from test_dask import assert_same, panel
+from test_dask import assert_same, assert_same_series, panel
 
 ESTIMATORS = ["pooled", "fd", "within"]
 FAMILIES = ["classical", "hc0", "hc1", "cluster", "cluster0", "cluster-period", "dk"]
@@ -146,8 +146,10 @@ class WeightedOverPartitions(unittest.TestCase):
 
 
 def assert_same_rows(test, got, want, terms, what, rel=1e-10):
-    """Every column of the coefficient table for `terms`, every estimate, and the summary
-    numbers that do not read the period terms' SEs, equal to rel."""
+    """Every column of the coefficient table for `terms`, every estimate, the summary
+    numbers that do not read the period terms' SEs, and the rows' residuals and fitted
+    values (assert_same_series), equal to rel."""
+    assert_same_series(test, got, want, what, rel)
     test.assertEqual(list(got.coefficients.index), list(want.coefficients.index), what)
     a = got.coefficients.loc[terms].to_numpy()
     b = want.coefficients.loc[terms].to_numpy()

@@ -164,9 +164,9 @@ class Result:
     summary       dict of the summary items (WEFT.SUMMARY), label -> number or text
     residuals     Series on the frame's index: residual of the estimated equation, NaN
                   where a row is not in it (missing value; fd: first period of a unit);
-                  None for a fit over partitions (weft.dask.fit: they stay there)
+                  weft.dask.fit: a lazy dask Series on the partitioned frame's index
     fitted        Series on the frame's index, fitted values of the estimated equation
-                  (None as residuals)
+                  (weft.dask.fit: lazy, as residuals)
     dropped       dict term -> why it was dropped (collinear, no variation within units)
     warnings      list of weft's warnings about the fit
     model         the canonical model text

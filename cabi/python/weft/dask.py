@@ -9,7 +9,8 @@ travel) and merged into the same result weft.fit gives.
 The fit takes three passes over the partitions (weft.h, "Fit over partitions"): the
 units and periods of each partition (to check that every unit lies in one partition
 and to build the global period grid), the sums of pass 1 and the scores of pass 2, each
-merged in a tree. A unit whose rows lie in more than one partition is brought together
+merged in a tree. The result's residuals and fitted values are a fourth, lazy pass
+(weft_partial_series on each partition with the merged partials), run when computed. A unit whose rows lie in more than one partition is brought together
 by shuffling the frame on the unit column (repartition=True, the default), or refused.
 """
 import ctypes
@@ -46,6 +47,7 @@ def _declare_partials(lib):
             ("weft_partial_bytes", ctypes.c_int, [p, p, size, ctypes.POINTER(size)]),
             ("weft_partial_from_bytes", ctypes.c_int, [pp, p, size]),
             ("weft_partial_finish", ctypes.c_int, [pp, p, p]),
+            ("weft_partial_series", ctypes.c_int, [p, p, p, p, p, p, size]),
             ("weft_partial_free", None, [p])):
         function = getattr(lib, name)
         function.restype, function.argtypes = restype, argtypes
@@ -109,6 +111,21 @@ def _scores_task(frame, outcome, regressors, unit, period, weights, sums, first_
     return 1, _bytes_of(lib, partial.pointer)
 
 
+def _series_task(frame, outcome, regressors, unit, period, weights, sums, scores, first, partition_info=None):
+    """Pass 3 of one partition: a frame of its residuals and fitted values (NaN where the
+    row is not in the estimated equation) on the partition's index."""
+    residual = np.full(len(frame), np.nan)
+    fitted = np.full(len(frame), np.nan)
+    if len(frame) > 0:
+        lib = _library()
+        first_row = first[partition_info["number"]] if partition_info is not None else 0
+        panel = _panel(lib, frame, outcome, regressors, unit, period, weights, first_row=first_row)
+        sums_handle, scores_handle = _partial(lib, sums), _partial(lib, scores)
+        _check(lib, lib.weft_partial_series(panel.pointer, sums_handle.pointer, scores_handle.pointer,
+                                            residual.ctypes.data, fitted.ctypes.data, None, len(frame)))
+    return pd.DataFrame({"residual": residual, "fitted": fitted}, index=frame.index)
+
+
 def _merge_task(*partials):
     """(partitions counted, bytes) of several partials merged (None: all were empty)."""
     count = sum(n for n, _ in partials)
@@ -168,7 +185,9 @@ def fit(ddf, outcome, regressors, unit, period, model="pooled", repartition=True
     repartition: when a unit's rows lie in several partitions, shuffle the frame on the
     unit column first (True) or refuse (False). Runs on the current Dask scheduler (a
     distributed Client when one is active). Returns a weft Result whose residuals and
-    fitted are None (they stay in the partitions). Raises WeftError with weft's message.
+    fitted are lazy dask Series on the (shuffled, when repartitioned) frame's index,
+    computed on the partitions with the merged estimates when asked for (NaN where
+    weft.fit gives NaN). Raises WeftError with weft's message.
     weights: the name of a column of observation weights, with weft.fit's rules (NaN
     drops the row, 0 leaves it out, a negative weight is an error), or None."""
     import dask
@@ -219,6 +238,11 @@ def fit(ddf, outcome, regressors, unit, period, model="pooled", repartition=True
     pointer = ctypes.c_void_p()
     _check(lib, lib.weft_partial_finish(ctypes.byref(pointer), sums_handle.pointer, scores_handle.pointer))
     result = Result(lib, _Handle(lib, lib.weft_model_free, pointer), None)
+    # pass 3, lazy: the residuals and fitted values of each partition with the merged partials
+    meta = pd.DataFrame({"residual": pd.Series(dtype=np.float64), "fitted": pd.Series(dtype=np.float64)},
+                        index=ddf._meta.index)
+    series = ddf.map_partitions(_series_task, *args, sums[1], scores[1], first, meta=meta)
+    result.residuals, result.fitted = series["residual"], series["fitted"]
     counted = sum(result.summary.get(label, 0) for label in ("rows used", "rows dropped", "rows with weight 0"))
     if counted != sum(rows):
         raise WeftError(f"weft: the merged fit counts {counted:g} rows but the frame has {sum(rows)}; a partition "

@@ -33,7 +33,8 @@
 // and random (their second stage needs all unit means at once), hc2, hc3, cr2 (each
 // row's leverage), cluster-both (the unit-period cells). The fit's residuals, fitted
 // values and unit effects stay in the partitions (Fit::residuals is empty; a test that
-// needs the equation's rows refuses).
+// needs the equation's rows refuses); partition_series gives the residuals and fitted
+// values of one partition's rows from the merged passes.
 //
 // Weights (CONVENTIONS.md "Observation weights"; the rules of fit_weights.cpp): the
 // panel's weight column (PanelData::weights) or the regressor that weights=NAME names.
@@ -121,6 +122,15 @@ void merge_scores(PartialScores& into, const PartialScores& other);
 // The fit from the merged passes. Throws weft::Error as fit_model does (no rows, too
 // few rows for the terms, fewer than 2 clusters...).
 Fit finish_fit(const PartialSums& sums, const PartialScores& scores);
+
+// The finished fit's residuals and fitted values on one partition's rows (a third pass,
+// with the merged sums and scores): aligned to the partition's input rows, defined where
+// fit_model's Fit::residuals would be (fd: the later row of each difference), in the
+// outcome's units. The estimates are finish_fit's (the same refinement steps).
+struct PartitionSeries {
+    Series residuals, fitted;
+};
+PartitionSeries partition_series(const PanelData& data, const PartialSums& sums, const PartialScores& scores);
 
 // Whether spec can be fitted over partitions; else the message (with "weft: " left
 // to the interface) saying what to use.
